@@ -1,0 +1,33 @@
+"""exactlp: exact rational linear programming with proofs.
+
+The public façade.  Heavy parts (the solver, the verifier) are imported on
+first use so that ``exactlp --help`` and ``exactlp check`` start quickly.
+"""
+
+from __future__ import annotations
+
+__version__ = "0.1.0"
+
+from .errors import ExactLPError, InputError, ModelError  # noqa: E402
+from .io import load  # noqa: E402
+from .model import Constraint, Model, Sense, Variable, build_model  # noqa: E402
+
+
+def solve(model, **options):
+    """Solve ``model`` exactly; see :func:`exactlp.solver.solve`."""
+    from .solver import solve as _solve
+
+    return _solve(model, **options)
+
+
+def verify(model, certificate):
+    """Check ``certificate`` against ``model``; see :func:`exactlp.verify.verify`."""
+    from .verify import verify as _verify
+
+    return _verify(model, certificate)
+
+
+__all__ = [
+    "__version__", "ExactLPError", "InputError", "ModelError", "load", "solve", "verify",
+    "Model", "Variable", "Constraint", "Sense", "build_model",
+]

@@ -1,0 +1,260 @@
+"""A safe parser for linear expressions and constraint formulas.
+
+Hand-written tokenizer and recursive-descent parser; nothing is evaluated
+as code.  The grammar::
+
+    formula  := expr ( cmp expr ){1,2}
+    cmp      := "<=" | ">=" | "==" | "="
+    expr     := sign* term ( ("+" | "-") sign* term )*
+    term     := NUMBER ["*"] NAME | NAME | NUMBER
+    NAME     := [A-Za-z_][A-Za-z0-9_.]*
+    NUMBER   := see exactlp.numbers (``3``, ``0.25``, ``5/2``, ``1.5e-3``)
+
+Repeated names add up; terms whose coefficients cancel vanish.  In a chained
+formula ``a <= expr <= b`` both outer parts must be numbers and both
+comparisons must point the same way.
+
+Errors are :class:`ExpressionError` carrying ``offset``, the 0-based
+position of the problem inside the text, for the caller to turn into a
+file column.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from fractions import Fraction
+
+from .errors import ExpressionError
+from .limits import DEFAULT_LIMITS, Limits
+from .numbers import parse_number
+
+NAME_RE = re.compile(r"[A-Za-z_][A-Za-z0-9_.]*")
+
+_TOKEN = re.compile(
+    r"""
+    (?P<ws>\s+)
+  | (?P<number>[0-9]+/[0-9]+|(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)
+  | (?P<name>[A-Za-z_][A-Za-z0-9_.]*)
+  | (?P<op><=|>=|==|=|<|>|\+|-|\*|/|\(|\)|,)
+    """,
+    re.VERBOSE,
+)
+
+
+@dataclass(frozen=True)
+class Token:
+    kind: str  # "number", "name", "op", "end"
+    text: str
+    offset: int
+
+
+@dataclass(frozen=True)
+class Linear:
+    """A linear expression: ordered terms (name -> coefficient) plus a constant."""
+
+    terms: tuple[tuple[str, Fraction], ...]
+    constant: Fraction
+
+    def as_dict(self) -> dict[str, Fraction]:
+        return dict(self.terms)
+
+
+@dataclass(frozen=True)
+class Comparison:
+    """A constraint formula reduced to ``lower <= terms <= upper``.
+
+    ``None`` stands for an infinite side.
+    """
+
+    terms: tuple[tuple[str, Fraction], ...]
+    lower: Fraction | None
+    upper: Fraction | None
+
+
+def _error(msg: str, offset: int) -> ExpressionError:
+    err = ExpressionError(msg)
+    err.offset = offset  # type: ignore[attr-defined]
+    return err
+
+
+def tokenize(text: str, limits: Limits = DEFAULT_LIMITS) -> list[Token]:
+    if len(text) > limits.max_expression_chars:
+        raise _error(
+            f"expression has {len(text)} characters, more than the limit of "
+            f"{limits.max_expression_chars}",
+            0,
+        )
+    tokens: list[Token] = []
+    pos = 0
+    n = len(text)
+    while pos < n:
+        m = _TOKEN.match(text, pos)
+        if m is None:
+            raise _error(f"unexpected character {text[pos]!r}", pos)
+        kind = m.lastgroup
+        if kind != "ws":
+            tokens.append(Token(kind, m.group(), pos))  # type: ignore[arg-type]
+        pos = m.end()
+    tokens.append(Token("end", "", n))
+    return tokens
+
+
+class _Parser:
+    def __init__(self, text: str, limits: Limits) -> None:
+        self.text = text
+        self.limits = limits
+        self.tokens = tokenize(text, limits)
+        self.i = 0
+
+    @property
+    def tok(self) -> Token:
+        return self.tokens[self.i]
+
+    def advance(self) -> Token:
+        t = self.tokens[self.i]
+        self.i += 1
+        return t
+
+    def number(self, tok: Token) -> Fraction:
+        try:
+            return parse_number(tok.text, self.limits)
+        except ExpressionError:
+            raise
+        except Exception as exc:  # NumberError: keep its message, add the place
+            raise _error(getattr(exc, "message", str(exc)), tok.offset) from None
+
+    def expr(self) -> Linear:
+        terms: dict[str, Fraction] = {}
+        constant = Fraction(0)
+        first = True
+        while True:
+            sign = 1
+            if not first:
+                if self.tok.kind == "op" and self.tok.text in "+-":
+                    pass
+                else:
+                    break
+            saw_sign = False
+            while self.tok.kind == "op" and self.tok.text in ("+", "-"):
+                if self.advance().text == "-":
+                    sign = -sign
+                saw_sign = True
+            tok = self.tok
+            if tok.kind == "number":
+                self.advance()
+                coef = sign * self.number(tok)
+                star = False
+                if self.tok.kind == "op" and self.tok.text == "*":
+                    self.advance()
+                    star = True
+                if self.tok.kind == "name":
+                    name = self.advance().text
+                    terms[name] = terms.get(name, Fraction(0)) + coef
+                elif star:
+                    raise self.expected("a variable name after '*'")
+                else:
+                    constant += coef
+            elif tok.kind == "name":
+                self.advance()
+                if self.tok.kind == "op" and self.tok.text == "*":
+                    raise _error(
+                        f"write the number before the name: '<number> {tok.text}', "
+                        f"not '{tok.text} * <number>'",
+                        self.tok.offset,
+                    )
+                terms[tok.text] = terms.get(tok.text, Fraction(0)) + sign
+            else:
+                if first and not saw_sign and tok.kind == "end":
+                    raise _error("empty expression", tok.offset)
+                raise self.expected("a number or a variable name")
+            first = False
+            if self.tok.kind in ("number", "name"):
+                raise self.expected("'+', '-' or a comparison")
+        # drop terms that cancelled; keep first-appearance order
+        kept = tuple((k, v) for k, v in terms.items() if v != 0)
+        return Linear(kept, constant)
+
+    def expected(self, what: str) -> ExpressionError:
+        tok = self.tok
+        if tok.kind == "end":
+            return _error(f"expected {what} at the end", tok.offset)
+        if tok.text == "/":
+            return _error("write fractions as p/q with no spaces, for example 3/4", tok.offset)
+        if tok.text in ("<", ">"):
+            return _error(
+                f"strict comparison '{tok.text}' is not allowed in a linear program; use "
+                f"'{tok.text}='",
+                tok.offset,
+            )
+        if tok.text in ("(", ")", ","):
+            return _error(f"unexpected '{tok.text}': parentheses are not part of a linear expression here", tok.offset)
+        return _error(f"expected {what}, found {tok.text!r}", tok.offset)
+
+
+def parse_expression(text: str, limits: Limits = DEFAULT_LIMITS) -> Linear:
+    """Parse a linear expression such as ``3 north + 2 south - 1000``."""
+    p = _Parser(text, limits)
+    e = p.expr()
+    if p.tok.kind != "end":
+        if p.tok.kind == "op" and p.tok.text in ("<=", ">=", "==", "="):
+            raise _error("a comparison is not allowed in an objective", p.tok.offset)
+        raise p.expected("'+' or '-'")
+    return e
+
+
+_CMP = ("<=", ">=", "==", "=")
+
+
+def parse_comparison(text: str, limits: Limits = DEFAULT_LIMITS) -> Comparison:
+    """Parse a constraint formula into ``lower <= terms <= upper``.
+
+    ``north - 2 south == transfer`` becomes ``north - 2 south - transfer``
+    between 0 and 0; ``10 <= east + transfer <= 90`` a ranged row.
+    """
+    p = _Parser(text, limits)
+    parts: list[tuple[Linear, int]] = []
+    ops: list[Token] = []
+    while True:
+        start = p.tok.offset
+        parts.append((p.expr(), start))
+        if p.tok.kind == "end":
+            break
+        if p.tok.kind == "op" and p.tok.text in _CMP:
+            ops.append(p.advance())
+            continue
+        raise p.expected("'+', '-' or a comparison (<=, >=, ==)")
+    if not ops:
+        raise _error("a constraint needs a comparison: <=, >= or ==", len(text))
+    if len(ops) > 2:
+        raise _error("at most two comparisons may be chained", ops[2].offset)
+    if len(ops) == 1:
+        (lhs, _), (rhs, _) = parts
+        # lhs op rhs  <=>  (lhs - rhs) op 0  <=>  terms op (rhs.c - lhs.c)
+        terms: dict[str, Fraction] = dict(lhs.terms)
+        for k, v in rhs.terms:
+            terms[k] = terms.get(k, Fraction(0)) - v
+        kept = tuple((k, v) for k, v in terms.items() if v != 0)
+        bound = rhs.constant - lhs.constant
+        op = ops[0].text
+        if op == "<=":
+            return Comparison(kept, None, bound)
+        if op == ">=":
+            return Comparison(kept, bound, None)
+        return Comparison(kept, bound, bound)
+    (a, a_off), (mid, _), (b, b_off) = parts
+    for side, off in ((a, a_off), (b, b_off)):
+        if side.terms:
+            raise _error(
+                "in a chained comparison the outer parts must be numbers "
+                "(write 'number <= expression <= number')",
+                off,
+            )
+    o1, o2 = ops[0].text, ops[1].text
+    if o1 != o2 or o1 not in ("<=", ">="):
+        raise _error(
+            "a chained comparison must be 'a <= expression <= b' or 'a >= expression >= b'",
+            ops[1].offset,
+        )
+    lo, hi = (a.constant, b.constant) if o1 == "<=" else (b.constant, a.constant)
+    return Comparison(mid.terms, lo - mid.constant, hi - mid.constant)

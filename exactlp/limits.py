@@ -1,0 +1,33 @@
+"""Documented resource caps for everything exactlp reads.
+
+Inputs may come from another party, so every reader is bounded.  The caps
+are generous for real models (the largest Netlib file is far inside them)
+and can be raised by passing a different :class:`Limits` to the readers.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+
+@dataclass(frozen=True)
+class Limits:
+    #: largest input file read, in bytes (after decompression for ``.gz``)
+    max_file_bytes: int = 64 * 1024 * 1024
+    #: most characters in the text of one number
+    max_number_chars: int = 400
+    #: largest absolute decimal exponent in ``1.5e-3`` style numbers
+    max_exponent: int = 400
+    #: deepest nesting of YAML collections
+    max_depth: int = 32
+    #: most variables (columns) in one model
+    max_variables: int = 1_000_000
+    #: most constraints (rows) in one model
+    max_constraints: int = 1_000_000
+    #: most nonzero coefficients in one model
+    max_nonzeros: int = 20_000_000
+    #: most characters in one expression or formula
+    max_expression_chars: int = 1_000_000
+
+
+DEFAULT_LIMITS = Limits()
