@@ -1,0 +1,102 @@
+"""The solver layer: model -> computational form -> exact simplex -> result.
+
+:func:`solve` is the thin public entry.  It validates its options (naming
+the bad one), builds the computational form, runs the pivot loop and turns
+the exact ``mpq`` outcome back into Fractions in the model's own sense.
+"""
+
+from __future__ import annotations
+
+import time
+from fractions import Fraction
+
+from ..errors import InputError
+from ..model import Model
+from .events import Finish, PhaseEnd, Pivot, Start
+from .form import build_form, frac
+from .result import SolveResult, Status, frozen_map
+from .simplex import PRICING_RULES, Simplex
+
+__all__ = ["solve", "SolveResult", "Status", "PRICING_RULES", "Start", "Pivot", "PhaseEnd", "Finish"]
+
+
+def _check_options(pricing, iteration_limit, time_limit) -> None:
+    if pricing not in PRICING_RULES:
+        from ..errors import did_you_mean
+
+        raise InputError(
+            f"unknown pricing rule '{pricing}' (choose {', '.join(PRICING_RULES)})"
+            + did_you_mean(str(pricing), PRICING_RULES),
+            field="pricing",
+        )
+    if iteration_limit is not None and (not isinstance(iteration_limit, int) or iteration_limit < 0):
+        raise InputError(f"must be a whole number >= 0, not {iteration_limit!r}", field="iteration_limit")
+    if time_limit is not None and (isinstance(time_limit, bool) or not isinstance(time_limit, (int, float)) or time_limit < 0):
+        raise InputError(f"must be a number of seconds >= 0, not {time_limit!r}", field="time_limit")
+
+
+def solve(
+    model: Model,
+    *,
+    pricing: str = "hybrid",
+    iteration_limit: int | None = None,
+    time_limit: float | None = None,
+    listener=None,
+    tableau: bool = False,
+    should_stop=None,
+) -> SolveResult:
+    """Solve ``model`` exactly.
+
+    ``listener`` receives every event (:mod:`exactlp.solver.events`);
+    ``should_stop`` is polled once per iteration (for interruption).
+    The time limit is the one float here: it bounds wall-clock time and
+    never touches a number of the model.
+    """
+    _check_options(pricing, iteration_limit, time_limit)
+    started = time.monotonic()
+    form = build_form(model)
+    sx = Simplex(
+        form,
+        pricing=pricing,
+        iteration_limit=iteration_limit,
+        time_limit=time_limit,
+        listener=listener,
+        tableau=tableau,
+        should_stop=should_stop,
+    )
+    out = sx.run()
+    n, m, sign = form.n, form.m, form.sign
+    vnames = [v.name for v in model.variables]
+    cnames = [c.name for c in model.constraints]
+    common = dict(
+        basis=tuple(sx.labels[c] for c in sx.head if sx.kinds[c] != "artificial"),
+        at_upper=tuple(sx.labels[j] for j in range(form.ncols) if sx.state[j] == 2 and sx.lower[j] != sx.upper[j]),
+        pivots_phase1=sx.pivots[1],
+        pivots_phase2=sx.pivots[2],
+        bound_flips=sx.flips,
+        pricing=pricing,
+    )
+    status = Status(out.status)
+    extra: dict = {}
+    if status in (Status.OPTIMAL, Status.UNBOUNDED):
+        extra["primal"] = frozen_map({vnames[j]: frac(sx.x[j]) for j in range(n)})
+        extra["activities"] = frozen_map({cnames[i]: frac(sx.x[n + i]) for i in range(m)})
+    if status is Status.OPTIMAL:
+        y = out.y
+        extra["objective"] = frac(sign * out.z + form.constant)
+        extra["duals"] = frozen_map({cnames[i]: frac(sign * y[i]) for i in range(m)})
+        rc = {}
+        for j in range(n):
+            d = form.cost[j]
+            for i, a in form.cols[j]:
+                if y[i]:
+                    d -= y[i] * a
+            rc[vnames[j]] = frac(sign * d)
+        extra["reduced_costs"] = frozen_map(rc)
+    elif status is Status.INFEASIBLE:
+        rows, bounds = sx.farkas(out.y)
+        extra["farkas_rows"] = frozen_map({cnames[i]: frac(v) for i, v in sorted(rows.items())})
+        extra["farkas_bounds"] = frozen_map({vnames[j]: frac(v) for j, v in sorted(bounds.items())})
+    elif status is Status.UNBOUNDED:
+        extra["ray"] = frozen_map({vnames[j]: frac(v) for j, v in sorted(out.ray.items()) if j < n and v})
+    return SolveResult(status=status, seconds=time.monotonic() - started, **common, **extra)

@@ -1,0 +1,80 @@
+"""The computational form of a model, in gmpy2 ``mpq`` numbers.
+
+Every constraint row ``L_i <= a_i x <= U_i`` gets one logical column
+``s_i`` so that the rows become equalities::
+
+    a_i x - s_i = 0,      L_i <= s_i <= U_i,      l_j <= x_j <= u_j
+
+Columns ``0..n-1`` are the structural variables in declaration order and
+``n..n+m-1`` the logicals in constraint order.  Every column carries its
+own bounds (``None`` for an infinite side), so free, fixed, negative and
+upper-bounded variables and ranged rows need no splitting and no extra rows.
+Costs are for *minimisation*: a maximised objective is negated here, and
+every value reported back is turned into the model's own sense.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from fractions import Fraction
+
+from gmpy2 import mpq
+
+from ..model import Model, Sense
+
+ZERO = mpq(0)
+ONE = mpq(1)
+
+
+def q(f: Fraction | int) -> mpq:
+    if isinstance(f, int):
+        return mpq(f)
+    return mpq(f.numerator, f.denominator)
+
+
+def frac(v) -> Fraction:
+    return Fraction(int(v.numerator), int(v.denominator))
+
+
+@dataclass
+class Form:
+    n: int  # structural columns
+    m: int  # rows
+    #: sparse columns: list of (row, value) for every column (structural, then logical)
+    cols: list[list[tuple[int, mpq]]]
+    lower: list[mpq | None]
+    upper: list[mpq | None]
+    cost: list[mpq]  # minimisation costs; logicals cost 0
+    labels: list[str]
+    kinds: list[str]  # "variable" | "slack"
+    sign: int  # +1 if the model minimises, -1 if it maximises
+    constant: mpq  # the objective constant, in the model's sense
+
+    @property
+    def ncols(self) -> int:
+        return len(self.cols)
+
+
+def build_form(model: Model) -> Form:
+    n, m = len(model.variables), len(model.constraints)
+    index = {v.name: j for j, v in enumerate(model.variables)}
+    cols: list[list[tuple[int, mpq]]] = [[] for _ in range(n)]
+    for i, c in enumerate(model.constraints):
+        for name, a in c.terms:
+            cols[index[name]].append((i, q(a)))
+    sign = 1 if model.sense is Sense.MINIMIZE else -1
+    cost = [ZERO] * n
+    for name, c in model.objective:
+        cost[index[name]] = q(c) * sign
+    lower = [None if v.lower is None else q(v.lower) for v in model.variables]
+    upper = [None if v.upper is None else q(v.upper) for v in model.variables]
+    labels = [v.name for v in model.variables]
+    kinds = ["variable"] * n
+    for i, c in enumerate(model.constraints):
+        cols.append([(i, -ONE)])
+        lower.append(None if c.lower is None else q(c.lower))
+        upper.append(None if c.upper is None else q(c.upper))
+        cost.append(ZERO)
+        labels.append(c.name)
+        kinds.append("slack")
+    return Form(n, m, cols, lower, upper, cost, labels, kinds, sign, q(model.objective_constant))
