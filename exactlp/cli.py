@@ -1,0 +1,349 @@
+"""The command line: a thin layer over the library.
+
+Exit codes, the same for every command:
+
+* 0  solved with a certificate (optimal, infeasible or unbounded), or a
+     command that succeeded (check, show, trace, import, a valid verify)
+* 1  verification failed: the certificate does not prove its claim
+* 2  bad input or usage (one line naming file, line, column and field)
+* 3  a limit (iterations, time) was reached: nothing is proven
+* 4  internal error (a short message; ``--debug`` shows the traceback)
+* 130 / 143  interrupted by SIGINT / SIGTERM
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import signal
+import sys
+from typing import Optional
+
+import typer
+
+from . import __version__
+
+EXIT_OK, EXIT_INVALID, EXIT_INPUT, EXIT_LIMIT, EXIT_INTERNAL = 0, 1, 2, 3, 4
+
+app = typer.Typer(
+    name="exactlp",
+    help="Exact linear programming with proofs: solve a model in rational arithmetic, "
+    "write an audit log and a certificate, and let anyone re-check it.",
+    no_args_is_help=True,
+    add_completion=True,
+    pretty_exceptions_enable=False,
+    context_settings={"help_option_names": ["-h", "--help"]},
+)
+
+
+def _version(value: bool) -> None:
+    if value:
+        typer.echo(f"exactlp {__version__}")
+        raise typer.Exit(0)
+
+
+@app.callback()
+def _root(
+    version: bool = typer.Option(False, "--version", callback=_version, is_eager=True, help="Print the version and exit."),
+) -> None:
+    pass
+
+
+def _console(stderr: bool = False):
+    from rich.console import Console
+
+    return Console(stderr=stderr, highlight=False, soft_wrap=False, emoji=False)
+
+
+def _fail(message: str, code: int) -> "typer.Exit":
+    sys.stderr.write(f"exactlp: {message}\n")
+    sys.stderr.flush()
+    return typer.Exit(code)
+
+
+class _Run:
+    """Run a command body, turning every library exception into one message."""
+
+    def __init__(self, debug: bool = False) -> None:
+        self.debug = debug
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, etype, exc, tb):
+        if exc is None or isinstance(exc, (typer.Exit, SystemExit, KeyboardInterrupt)):
+            return False
+        from .errors import ExactLPError
+
+        if isinstance(exc, ExactLPError):
+            raise _fail(str(exc), exc.exit_code) from None
+        if self.debug:
+            return False
+        raise _fail(
+            f"internal error: {type(exc).__name__}: {exc} (run again with --debug for the traceback)",
+            EXIT_INTERNAL,
+        ) from None
+
+
+def _load(path: str):
+    from .io import load
+
+    return load(path)
+
+
+# ----------------------------------------------------------------------
+@app.command()
+def check(
+    model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
+    debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
+) -> None:
+    """Validate a model and print its summary and fingerprint.
+
+    Example:  exactlp check cases/drought.yaml
+    """
+    with _Run(debug):
+        m = _load(model)
+        from .render import summary
+
+        summary(_console(), m, model)
+
+
+@app.command()
+def show(
+    model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
+    debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
+) -> None:
+    """Print the model as tables: objective, variables with bounds, constraints as formulas.
+
+    Example:  exactlp show cases/drought.yaml
+    """
+    with _Run(debug):
+        m = _load(model)
+        from .render import show_model
+
+        show_model(_console(), m)
+
+
+@app.command("import")
+def import_(
+    source: str = typer.Argument(..., help="MPS file (.mps or .mps.gz), free or fixed format."),
+    output: str = typer.Option(..., "-o", "--output", help="Where to write the model in the exactlp YAML format."),
+    debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
+) -> None:
+    """Convert an MPS file into an exactlp YAML model (same fingerprint).
+
+    Example:  exactlp import afiro.mps.gz -o afiro.yaml
+    """
+    with _Run(debug):
+        from .io import dump_yaml_model, model_from_text, read_mps
+        from .io.atomic import write_atomic
+
+        m = read_mps(source)
+        text = dump_yaml_model(m)
+        again = model_from_text(text, output)
+        if again.fingerprint != m.fingerprint:  # pragma: no cover - a writer bug
+            raise RuntimeError("the written YAML does not reproduce the model")
+        write_atomic(output, text, protect=(source,))
+        _console().print(f"wrote {output}: {len(m.variables)} variables, {len(m.constraints)} constraints, "
+                         f"{m.fingerprint}", highlight=False)
+
+
+def _result_json(model, result, cert, cert_path, log_path, digits):
+    from .numbers import format_decimal, format_number
+
+    doc = {
+        "tool": f"exactlp {__version__}",
+        "model": {"name": model.name, "fingerprint": model.fingerprint},
+        "status": result.status.value,
+        "proven": result.status.is_proven,
+        "pivots": {"phase1": result.pivots_phase1, "phase2": result.pivots_phase2, "bound_flips": result.bound_flips},
+        "certificate": cert_path,
+        "log": log_path,
+    }
+    if cert is not None:
+        for k in ("objective", "primal", "activities", "duals", "reduced_costs", "farkas", "ray", "ray_objective"):
+            if k in cert:
+                doc[k] = cert[k]
+        doc["verified"] = True
+    if result.objective is not None:
+        doc["objective_decimal"] = format_decimal(result.objective, digits)
+    return json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False)
+
+
+@app.command()
+def solve(
+    model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
+    certificate: Optional[str] = typer.Option(None, "-c", "--certificate", help="Write the certificate here."),
+    log: Optional[str] = typer.Option(None, "-l", "--log", help="Write the pivot-by-pivot audit log here (JSON Lines)."),
+    pricing: str = typer.Option("hybrid", "--pricing", help="Pricing rule: hybrid (default), bland or dantzig."),
+    iteration_limit: Optional[int] = typer.Option(None, "--iteration-limit", min=0, help="Stop after this many steps (nothing is proven then)."),
+    time_limit: Optional[float] = typer.Option(None, "--time-limit", min=0, help="Stop after this many seconds (nothing is proven then)."),
+    tableau: bool = typer.Option(False, "--tableau", help="Record the full exact tableau at each pivot in the log (small models)."),
+    as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout instead of tables."),
+    cert_format: str = typer.Option("yaml", "--certificate-format", help="yaml (default) or json."),
+    digits: int = typer.Option(12, "--digits", min=1, max=100, help="Significant digits of the decimal rendering."),
+    timestamps: bool = typer.Option(False, "--timestamps", help="Add wall-clock times to the log's header and closing record."),
+    debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
+) -> None:
+    """Solve a model exactly, verify the proof, and report.
+
+    Examples:
+      exactlp solve cases/drought.yaml
+      exactlp solve cases/drought.yaml -c drought.cert.yaml -l drought.log.jsonl
+    """
+    with _Run(debug):
+        from .errors import InputError, OutputError
+        from .io.atomic import same_file
+
+        if cert_format not in ("yaml", "json"):
+            raise InputError(f"must be yaml or json, not '{cert_format}'", field="--certificate-format")
+        m = _load(model)
+        for out in (certificate, log):
+            if out is not None and same_file(out, model):
+                raise OutputError(f"{out}: refusing to write over the model file")
+            if out is not None and not os.path.isdir(os.path.dirname(os.path.abspath(out))):
+                raise OutputError(f"{out}: the folder does not exist")
+        if certificate is not None and log is not None and same_file(certificate, log):
+            raise OutputError(f"{log}: the certificate and the log cannot be the same file")
+        _solve_command(m, model, certificate, log, pricing, iteration_limit, time_limit, tableau,
+                       as_json, cert_format, digits, timestamps)
+
+
+def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, time_limit, tableau,
+                   as_json, cert_format, digits, timestamps):
+    from .audit import AuditLog
+    from .certificate import build_certificate, dump_certificate
+    from .io.atomic import write_atomic
+    from .solver import solve as run_solve
+    from .solver.result import Status
+    from .verify import verify
+
+    stop = {"signal": None}
+
+    def on_signal(signum, frame):
+        stop["signal"] = signum
+
+    old = {s: signal.signal(s, on_signal) for s in (signal.SIGINT, signal.SIGTERM)}
+    listeners = []
+    log_fh = None
+    partial = None
+    try:
+        if log is not None:
+            partial = log + ".partial"
+            log_fh = open(partial, "w", encoding="utf-8", newline="\n")
+            settings = {"pricing": pricing, "iteration_limit": iteration_limit,
+                        "time_limit": None if time_limit is None else str(time_limit), "tableau": tableau}
+            listeners.append(AuditLog(log_fh, m, settings, timestamps=timestamps))
+        status_line = None
+        err_console = _console(stderr=True)
+        if not as_json and err_console.is_terminal:
+            from .render import StatusLine
+
+            status_line = StatusLine(err_console)
+            listeners.append(status_line)
+
+        def listener(ev):
+            for f in listeners:
+                f(ev)
+
+        def run():
+            return run_solve(m, pricing=pricing, iteration_limit=iteration_limit, time_limit=time_limit,
+                             listener=listener if listeners else None, tableau=tableau,
+                             should_stop=lambda: stop["signal"] is not None)
+
+        if status_line is not None:
+            with status_line:
+                result = run()
+        else:
+            result = run()
+        if log_fh is not None:
+            log_fh.flush()
+            os.fsync(log_fh.fileno())
+            log_fh.close()
+            log_fh = None
+            os.replace(partial, log)
+    finally:
+        if log_fh is not None:
+            log_fh.close()
+        for s, h in old.items():
+            signal.signal(s, h)
+
+    if result.status is Status.INTERRUPTED:
+        code = 130 if stop["signal"] == signal.SIGINT else 143
+        raise _fail("interrupted: no certificate written" + (f"; the log is {log}" if log else ""), code)
+
+    cert = None
+    verified = None
+    if result.status.is_proven:
+        cert = build_certificate(m, result)
+        check = verify(m, cert)
+        verified = check.valid
+        if not check.valid:  # the solver produced a proof the verifier rejects: our bug
+            raise RuntimeError(f"the certificate failed verification: {check.failure.detail}")
+        if certificate is not None:
+            write_atomic(certificate, dump_certificate(cert, cert_format), protect=(model_path,))
+    if as_json:
+        typer.echo(_result_json(m, result, cert, certificate, log, digits))
+    else:
+        from .render import solve_report
+
+        solve_report(_console(), m, result, digits=digits, certificate=certificate if cert else None,
+                     verified=verified, log=log)
+    if not result.status.is_proven:
+        raise typer.Exit(EXIT_LIMIT)
+
+
+@app.command()
+def verify(
+    model: str = typer.Argument(..., help="Model file the certificate is about."),
+    certificate: str = typer.Argument(..., help="Certificate file (YAML or JSON)."),
+    as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
+    debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
+) -> None:
+    """Re-check a certificate against a model, exactly; exit 0 valid, 1 invalid, 2 unusable.
+
+    Example:  exactlp verify cases/drought.yaml drought.cert.yaml
+    """
+    with _Run(debug):
+        from .certificate import read_certificate
+        from .verify import verify as run_verify
+
+        m = _load(model)
+        cert = read_certificate(certificate)
+        v = run_verify(m, cert)
+        if as_json:
+            typer.echo(json.dumps({
+                "valid": v.valid, "status": v.status,
+                "checks": [{"name": c.name, "ok": c.ok, "detail": c.detail} for c in v.checks],
+            }, sort_keys=True, indent=2, ensure_ascii=False))
+        else:
+            from .render import verify_report
+
+            verify_report(_console(), v, model, certificate)
+        if not v.valid:
+            raise typer.Exit(EXIT_INVALID)
+
+
+@app.command()
+def trace(
+    log: str = typer.Argument(..., help="Audit log written by 'exactlp solve -l'."),
+    pivot: Optional[int] = typer.Option(None, "--pivot", min=1, help="Show this one pivot in detail (with its tableau if recorded)."),
+    debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
+) -> None:
+    """Replay an audit log on screen: a table of pivots, or one pivot in detail.
+
+    Example:  exactlp trace drought.log.jsonl --pivot 2
+    """
+    with _Run(debug):
+        from .audit import read_log
+        from .render import trace_report
+
+        trace_report(_console(), read_log(log), pivot)
+
+
+def main() -> None:  # console script entry
+    app()
+
+
+if __name__ == "__main__":  # pragma: no cover
+    main()

@@ -1,0 +1,300 @@
+"""Screen output with rich.  Files are never written here (see audit, certificate).
+
+Layouts and words are our own, in the trade's plain terms.  Exact values
+are shown as written in certificates (``p/q``); any decimal is labelled as
+a rendering.
+"""
+
+from __future__ import annotations
+
+import time
+from fractions import Fraction
+
+from rich import box
+from rich.console import Console
+from rich.table import Table
+from rich.text import Text
+
+from .model import Model
+from .numbers import format_decimal, format_number
+
+BOX = box.SIMPLE_HEAD
+
+
+def n(v: Fraction | None, inf: str = "") -> str:
+    return inf if v is None else format_number(v)
+
+
+def lo(v: Fraction | None) -> str:
+    return "-inf" if v is None else format_number(v)
+
+
+def hi(v: Fraction | None) -> str:
+    return "inf" if v is None else format_number(v)
+
+
+def formula(terms) -> str:
+    if not terms:
+        return "0"
+    out = []
+    for i, (name, c) in enumerate(terms):
+        a = abs(c)
+        coef = "" if a == 1 else format_number(a) + " "
+        if i == 0:
+            out.append(("-" if c < 0 else "") + coef + name)
+        else:
+            out.append(("- " if c < 0 else "+ ") + coef + name)
+    return " ".join(out)
+
+
+def row_formula(c) -> str:
+    f = formula(c.terms)
+    if c.lower is not None and c.lower == c.upper:
+        return f"{f} == {format_number(c.lower)}"
+    if c.lower is not None and c.upper is not None:
+        return f"{format_number(c.lower)} <= {f} <= {format_number(c.upper)}"
+    if c.upper is not None:
+        return f"{f} <= {format_number(c.upper)}"
+    if c.lower is not None:
+        return f"{f} >= {format_number(c.lower)}"
+    return f"{f}  (free row)"
+
+
+def objective_text(model: Model) -> str:
+    f = formula(model.objective) if model.objective else ""
+    c = model.objective_constant
+    if c:
+        f = (f + (" - " if c < 0 else " + ") if f else ("-" if c < 0 else "")) + format_number(abs(c))
+    return f"{model.sense.value} {f or '0'}"
+
+
+def kv(console: Console, pairs: list[tuple[str, str]]) -> None:
+    width = max(len(k) for k, _ in pairs)
+    for k, v in pairs:
+        console.print(Text(f"{k.ljust(width)}  {v}"), soft_wrap=True)
+
+
+def model_title(model: Model) -> str:
+    return model.name or (model.source or "model")
+
+
+# ----------------------------------------------------------------------
+def summary(console: Console, model: Model, path: str) -> None:
+    vs, cs = model.variables, model.constraints
+    free = sum(1 for v in vs if v.lower is None and v.upper is None)
+    fixed = sum(1 for v in vs if v.lower is not None and v.lower == v.upper)
+    eq = sum(1 for c in cs if c.is_equality)
+    ranged = sum(1 for c in cs if c.lower is not None and c.upper is not None and c.lower != c.upper)
+    kv(console, [
+        ("model", f"{path} is valid"),
+        ("name", model.name or "(none)"),
+        ("objective", f"{model.sense.value}, {len(model.objective)} terms"),
+        ("variables", f"{len(vs)} ({free} free, {fixed} fixed)"),
+        ("constraints", f"{len(cs)} ({eq} equalities, {ranged} ranged)"),
+        ("nonzeros", str(model.nonzeros)),
+        ("fingerprint", model.fingerprint),
+    ])
+
+
+def show_model(console: Console, model: Model) -> None:
+    console.print(Text(f"Model: {model_title(model)}", style="bold"))
+    if model.description:
+        console.print(Text(model.description))
+    console.print(Text(f"Objective: {objective_text(model)}"))
+    t = Table(title="Variables", box=BOX, title_justify="left")
+    for h in ("variable", "lower", "upper", "unit", "note"):
+        t.add_column(h, justify="right" if h in ("lower", "upper") else "left")
+    for v in model.variables:
+        t.add_row(v.name, lo(v.lower), hi(v.upper), v.unit or "", v.note or "")
+    console.print(t)
+    t = Table(title="Constraints", box=BOX, title_justify="left")
+    t.add_column("constraint")
+    t.add_column("rule")
+    for c in model.constraints:
+        t.add_row(c.name, row_formula(c))
+    if model.constraints:
+        console.print(t)
+    else:
+        console.print(Text("Constraints: none"))
+
+
+def solve_report(console: Console, model: Model, result, *, digits: int, certificate: str | None,
+                 verified: bool | None, log: str | None) -> None:
+    from .solver.result import Status
+
+    st = result.status
+    head = [("model", f"{model_title(model)}  ({model.fingerprint[:19]}…)")]
+    if st is Status.OPTIMAL:
+        head.append(("outcome", "optimal: proven by primal and dual feasibility with a zero gap"))
+        head.append(("objective", format_number(result.objective)))
+        head.append(("", f"≈ {format_decimal(result.objective, digits)}  (decimal rendering to {digits} digits)"))
+    elif st is Status.INFEASIBLE:
+        head.append(("outcome", "infeasible: proven by a Farkas combination of the constraints"))
+    elif st is Status.UNBOUNDED:
+        head.append(("outcome", "unbounded: proven by a feasible point and an improving ray"))
+    else:
+        head.append(("outcome", f"stopped: {st.value.replace('_', ' ')} reached; nothing is proven"))
+    head.append(("pivots", f"phase 1: {result.pivots_phase1}, phase 2: {result.pivots_phase2}, bound flips: {result.bound_flips}"))
+    if verified is not None:
+        head.append(("check", "the certificate passed the independent verifier" if verified else "the certificate FAILED verification"))
+    if certificate:
+        head.append(("certificate", certificate))
+    if log:
+        head.append(("audit log", log))
+    kv(console, head)
+
+    if st in (Status.OPTIMAL, Status.UNBOUNDED):
+        t = Table(title="Variables" if st is Status.OPTIMAL else "Variables (a feasible point)", box=BOX, title_justify="left")
+        cols = ["variable", "value", "lower", "upper"]
+        if st is Status.OPTIMAL:
+            cols += ["reduced cost", "position"]
+        else:
+            cols += ["ray"]
+        for h in cols:
+            t.add_column(h, justify="left" if h in ("variable", "position") else "right")
+        basic = set(result.basis)
+        for v in model.variables:
+            x = result.primal[v.name]
+            row = [v.name + (f" [{v.unit}]" if v.unit else ""), format_number(x), lo(v.lower), hi(v.upper)]
+            if st is Status.OPTIMAL:
+                if v.name in basic:
+                    pos = "basic"
+                elif v.lower is not None and x == v.lower and v.lower == v.upper:
+                    pos = "fixed"
+                elif v.lower is not None and x == v.lower:
+                    pos = "at lower"
+                elif v.upper is not None and x == v.upper:
+                    pos = "at upper"
+                else:
+                    pos = "free at 0"
+                row += [format_number(result.reduced_costs[v.name]), pos]
+            else:
+                row += [format_number(result.ray.get(v.name, Fraction(0)))]
+            t.add_row(*row)
+        console.print(t)
+        if model.constraints:
+            t = Table(title="Constraints", box=BOX, title_justify="left")
+            cols = ["constraint", "activity", "lower", "upper"]
+            if st is Status.OPTIMAL:
+                cols += ["dual", "state"]
+            for h in cols:
+                t.add_column(h, justify="left" if h in ("constraint", "state") else "right")
+            for c in model.constraints:
+                a = result.activities[c.name]
+                row = [c.name, format_number(a), lo(c.lower), hi(c.upper)]
+                if st is Status.OPTIMAL:
+                    tight = (c.lower is not None and a == c.lower) or (c.upper is not None and a == c.upper)
+                    row += [format_number(result.duals[c.name]), "binding" if tight else "slack"]
+                t.add_row(*row)
+            console.print(t)
+    if st is Status.INFEASIBLE:
+        console.print(Text("These rules cannot all hold together (Farkas multipliers):"))
+        t = Table(box=BOX)
+        t.add_column("constraint")
+        t.add_column("multiplier", justify="right")
+        t.add_column("rule")
+        by_name = {c.name: c for c in model.constraints}
+        for name, y in result.farkas_rows.items():
+            t.add_row(name, format_number(y), row_formula(by_name[name]))
+        for name, mu in result.farkas_bounds.items():
+            v = model.variable(name)
+            t.add_row(f"bound of {name}", format_number(mu), f"{lo(v.lower)} <= {name} <= {hi(v.upper)}")
+        console.print(t)
+
+
+def verify_report(console: Console, verification, model_path: str, cert_path: str) -> None:
+    for c in verification.checks:
+        mark = "pass" if c.ok else "FAIL"
+        console.print(Text(f"{mark}  {c.name}: {c.detail}"), soft_wrap=True)
+    if verification.valid:
+        console.print(Text(f"valid: {cert_path} proves that {model_path} is {verification.status}"), soft_wrap=True)
+    else:
+        console.print(Text(f"invalid: {cert_path} does not prove its claim for {model_path}"), soft_wrap=True)
+
+
+def trace_report(console: Console, records: list[dict], pivot: int | None) -> None:
+    header = records[0]
+    model = header.get("model", {})
+    kv(console, [
+        ("log", f"{header.get('tool', '?')}, {header.get('format', '?')}"),
+        ("model", f"{model.get('name') or '(unnamed)'}  {model.get('fingerprint', '')}"),
+        ("settings", ", ".join(f"{k}={v}" for k, v in sorted((header.get("settings") or {}).items()))),
+    ])
+    steps = [r for r in records if r.get("record") in ("pivot", "flip")]
+    close = next((r for r in records if r.get("record") == "close"), None)
+    if pivot is None:
+        t = Table(title="Pivots", box=BOX, title_justify="left")
+        for h in ("#", "phase", "entering", "leaving", "ratio", "step", "objective", "rule"):
+            t.add_column(h, justify="right" if h in ("#", "phase", "ratio", "step", "objective") else "left")
+        for r in steps:
+            leaving = r.get("leaving")
+            lv = "bound flip" if not isinstance(leaving, dict) else f"{leaving['name']} -> {r.get('leaving_bound')}"
+            ent = r["entering"]["name"] + (" ↑" if r.get("direction") == "increase" else " ↓")
+            t.add_row(str(r["iteration"]), str(r["phase"]), ent, lv, r.get("ratio") or "", r["step"],
+                      r["objective"], r["rule"] + (" (degenerate)" if r.get("degenerate") else ""))
+        console.print(t)
+    else:
+        match = [r for r in steps if r.get("iteration") == pivot]
+        if not match:
+            from .errors import InputError
+
+            raise InputError(f"the log has no pivot {pivot} (it has {len(steps)})", field="--pivot")
+        r = match[0]
+        pairs = [(k, str(r[k]) if not isinstance(r[k], dict) else f"{r[k]['name']} ({r[k]['kind']})")
+                 for k in sorted(r) if k not in ("tableau", "record")]
+        console.print(Text(f"Pivot {pivot}", style="bold"))
+        kv(console, pairs)
+        tab = r.get("tableau")
+        if tab and "rows" in tab:
+            t = Table(title="Tableau before the pivot (rows: basic columns; B^-1 A)", box=BOX, title_justify="left")
+            t.add_column("basic")
+            t.add_column("value", justify="right")
+            for c in tab["columns"]:
+                t.add_column(c[0] + ("'" if c[1] == "slack" else "*" if c[1] == "artificial" else ""), justify="right")
+            for b, val, row in zip(tab["basis"], tab["values"], tab["rows"]):
+                t.add_row(b[0], val, *row)
+            t.add_row("reduced cost", "", *[v if v is not None else "" for v in tab["reduced_costs"]])
+            console.print(t)
+            console.print(Text("(' marks a constraint's slack column, * an artificial one)"))
+        elif tab:
+            console.print(Text(f"tableau: {tab.get('omitted')}"))
+    if close:
+        console.print(Text(f"closed: {close.get('outcome')}, objective {close.get('objective')}, "
+                           f"pivots {close.get('pivots_phase1')} + {close.get('pivots_phase2')}, "
+                           f"bound flips {close.get('bound_flips')}"))
+    else:
+        console.print(Text("closed: no closing record (the run was killed or is still going)"))
+
+
+class StatusLine:
+    """A live one-line status on stderr for long solves (terminals only)."""
+
+    def __init__(self, console: Console) -> None:
+        self.console = console
+        self.started = time.monotonic()
+        self.last = 0.0
+        self.status = None
+        self.count = 0
+
+    def __enter__(self):
+        self.status = self.console.status("solving…")
+        self.status.__enter__()
+        return self
+
+    def __exit__(self, *exc):
+        self.status.__exit__(*exc)
+
+    def __call__(self, event) -> None:
+        from .solver.events import Pivot
+
+        if not isinstance(event, Pivot):
+            return
+        self.count += 1
+        now = time.monotonic()
+        if now - self.last < 0.2:
+            return
+        self.last = now
+        self.status.update(
+            f"phase {event.phase} · {event.iteration} steps · objective ≈ "
+            f"{format_decimal(event.objective, 8)} · {now - self.started:.1f} s"
+        )
