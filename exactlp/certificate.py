@@ -15,6 +15,8 @@ never renamed)::
     duals:        constraint -> multiplier y_i  (optimal)
     reduced_costs: variable -> c_j - a_j^T y    (optimal)
     dual_objective: the dual's value, equal to objective (optimal)
+    crossed_bounds: {kind: variable | constraint, name, lower, upper}
+                  (infeasible because one item's own lower bound exceeds its upper)
     farkas:       {multipliers: constraint -> y_i, bounds: variable -> mu_j,
                    constraints: [names], bound_variables: [names], rhs: value}  (infeasible)
     ray:          variable -> direction; ray_activities: constraint -> a_i d;
@@ -67,6 +69,10 @@ def build_certificate(model: Model, result) -> dict[str, Any]:
         cert["duals"] = {k: _n(v) for k, v in result.duals.items()}
         cert["reduced_costs"] = {k: _n(v) for k, v in result.reduced_costs.items()}
         cert["dual_objective"] = _n(result.objective)
+    elif result.status is Status.INFEASIBLE and result.crossed is not None:
+        kind, name = result.crossed
+        item = model.variable(name) if kind == "variable" else next(c for c in model.constraints if c.name == name)
+        cert["crossed_bounds"] = {"kind": kind, "name": name, "lower": _n(item.lower), "upper": _n(item.upper)}
     elif result.status is Status.INFEASIBLE:
         rows = dict(result.farkas_rows)
         bounds = dict(result.farkas_bounds)

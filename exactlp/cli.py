@@ -145,7 +145,7 @@ def import_(
             raise RuntimeError("the written YAML does not reproduce the model")
         write_atomic(output, text, protect=(source,))
         _console().print(f"wrote {output}: {len(m.variables)} variables, {len(m.constraints)} constraints, "
-                         f"{m.fingerprint}", highlight=False)
+                         f"{m.fingerprint}", highlight=False, soft_wrap=True)
 
 
 def _result_json(model, result, cert, cert_path, log_path, digits):

@@ -187,7 +187,10 @@ def solve_report(console: Console, model: Model, result, *, digits: int, certifi
                     row += [format_number(result.duals[c.name]), "binding" if tight else "slack"]
                 t.add_row(*row)
             console.print(t)
-    if st is Status.INFEASIBLE:
+    if st is Status.INFEASIBLE and result.crossed is not None:
+        kind, name = result.crossed
+        console.print(Text(f"The {kind} '{name}' has a lower bound above its upper bound."), soft_wrap=True)
+    elif st is Status.INFEASIBLE:
         console.print(Text("These rules cannot all hold together (Farkas multipliers):"))
         t = Table(box=BOX)
         t.add_column("constraint")

@@ -171,7 +171,22 @@ class _Checker:
             raise _Invalid(f"duality gap: primal {fmt(obj)}, dual {fmt(dual)}, gap {fmt(obj - dual)}")
         self.ok("zero duality gap", f"primal objective = dual objective = {fmt(obj)}")
 
+    def crossed(self, cb) -> None:
+        if not isinstance(cb, dict) or cb.get("kind") not in ("variable", "constraint"):
+            raise _Invalid("crossed_bounds: needs kind (variable or constraint) and name")
+        items = self.m.variables if cb["kind"] == "variable" else self.m.constraints
+        item = next((i for i in items if i.name == cb.get("name")), None)
+        if item is None:
+            raise _Invalid(f"crossed_bounds: the model has no {cb['kind']} {cb.get('name')!r}")
+        if item.lower is None or item.upper is None or not item.lower > item.upper:
+            raise _Invalid(f"crossed_bounds: the bounds of {cb['kind']} '{item.name}' do not cross")
+        if (_num(cb.get("lower"), "crossed_bounds.lower"), _num(cb.get("upper"), "crossed_bounds.upper")) != (item.lower, item.upper):
+            raise _Invalid("crossed_bounds: the stated bounds differ from the model's")
+        self.ok("crossed bounds", f"{cb['kind']} '{item.name}' needs {fmt(item.lower)} <= ... <= {fmt(item.upper)}: empty")
+
     def infeasible(self) -> None:
+        if "crossed_bounds" in self.c:
+            return self.crossed(self.c["crossed_bounds"])
         fk = self.c.get("farkas")
         if not isinstance(fk, dict):
             raise _Invalid("'farkas' is missing or not a mapping")

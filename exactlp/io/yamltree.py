@@ -128,13 +128,21 @@ def parse_yaml(text: str, path: str, limits: Limits = DEFAULT_LIMITS) -> Node:
     ):
         raise InputError("the file is empty", file=path)
 
-    def err(msg: str, mark, exc=InputError) -> InputError:
-        return exc(msg, file=path, line=mark.line + 1, column=mark.column + 1)
+    def err(msg: str, mark, exc=InputError, field: str | None = None) -> InputError:
+        return exc(msg, file=path, line=mark.line + 1, column=mark.column + 1, field=field)
+
+    def where(extra: str | None = None) -> str | None:
+        """The dotted field path of the collection being built (plus ``extra``)."""
+        parts = [k.text if isinstance(k, Scalar) else str(k) for k in names if k is not None]
+        if extra is not None:
+            parts.append(extra)
+        return ".".join(parts) or None
 
     root: Node | None = None
     stack: list[Node] = []
     pending_key: list[Scalar | None] = []
     seen_keys: list[dict[str, Scalar]] = []
+    names: list = []  # the key (or list index) under which each open collection sits
     documents = 0
 
     def attach(node: Node, mark) -> None:
@@ -154,7 +162,8 @@ def parse_yaml(text: str, path: str, limits: Limits = DEFAULT_LIMITS) -> Node:
             if node.text in seen_keys[-1]:
                 first = seen_keys[-1][node.text]
                 raise err(
-                    f"key '{node.text}' is given twice (first on line {first.line})", mark
+                    f"key '{node.text}' is given twice (first on line {first.line})", mark,
+                    field=where(node.text),
                 )
             seen_keys[-1][node.text] = node
             pending_key[-1] = node
@@ -193,11 +202,19 @@ def parse_yaml(text: str, path: str, limits: Limits = DEFAULT_LIMITS) -> Node:
                     if isinstance(ev, yaml.MappingStartEvent)
                     else Sequence(mark.line + 1, mark.column + 1)
                 )
+                parent = stack[-1] if stack else None
+                if isinstance(parent, Mapping):
+                    names.append(pending_key[-1])
+                elif isinstance(parent, Sequence):
+                    names.append(str(len(parent.items)))
+                else:
+                    names.append(None)
                 attach(node, mark)
                 stack.append(node)
                 pending_key.append(None)
                 seen_keys.append({})
             elif isinstance(ev, (yaml.MappingEndEvent, yaml.SequenceEndEvent)):
+                names.pop()
                 stack.pop()
                 pending_key.pop()
                 seen_keys.pop()

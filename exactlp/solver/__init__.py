@@ -54,6 +54,15 @@ def solve(
     """
     _check_options(pricing, iteration_limit, time_limit)
     started = time.monotonic()
+    # A variable or row whose own bounds cross (lower > upper) is infeasible by
+    # itself; the simplex assumes l <= u, so this is settled before it starts.
+    for kind, items in (("variable", model.variables), ("constraint", model.constraints)):
+        for item in items:
+            if item.lower is not None and item.upper is not None and item.lower > item.upper:
+                if listener is not None:
+                    listener(Finish("infeasible", None, 0, 0, 0))
+                return SolveResult(status=Status.INFEASIBLE, crossed=(kind, item.name),
+                                   seconds=time.monotonic() - started, pricing=pricing)
     form = build_form(model)
     sx = Simplex(
         form,

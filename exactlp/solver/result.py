@@ -49,6 +49,8 @@ class SolveResult:
     farkas_rows: Mapping[str, Fraction] = field(default_factory=lambda: frozen_map({}))
     #: infeasible: variable -> bound multiplier (nonzero ones)
     farkas_bounds: Mapping[str, Fraction] = field(default_factory=lambda: frozen_map({}))
+    #: infeasible because one item's own bounds cross: ("variable" | "constraint", name)
+    crossed: tuple[str, str] | None = None
     #: unbounded: variable -> direction of the improving ray (nonzero ones)
     ray: Mapping[str, Fraction] = field(default_factory=lambda: frozen_map({}))
     #: final basis: labels of the basic columns, and nonbasic columns at their upper bound

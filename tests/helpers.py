@@ -1,0 +1,113 @@
+"""Helpers shared by the tests: references outside the project, and proof checks."""
+
+from __future__ import annotations
+
+from fractions import Fraction
+
+from exactlp.model import Model, Sense
+
+
+def to_linprog(model: Model):
+    """The model as arguments of scipy.optimize.linprog (floats: the reference's own domain)."""
+    names = [v.name for v in model.variables]
+    idx = {n: j for j, n in enumerate(names)}
+    sgn = 1 if model.sense is Sense.MINIMIZE else -1
+    c = [0.0] * len(names)
+    for n, a in model.objective:
+        c[idx[n]] = sgn * float(a)
+    A_ub, b_ub, A_eq, b_eq = [], [], [], []
+    for con in model.constraints:
+        row = [0.0] * len(names)
+        for n, a in con.terms:
+            row[idx[n]] = float(a)
+        if con.is_equality:
+            A_eq.append(row)
+            b_eq.append(float(con.lower))
+            continue
+        if con.upper is not None:
+            A_ub.append(row)
+            b_ub.append(float(con.upper))
+        if con.lower is not None:
+            A_ub.append([-a for a in row])
+            b_ub.append(-float(con.lower))
+    bounds = [(None if v.lower is None else float(v.lower), None if v.upper is None else float(v.upper))
+              for v in model.variables]
+    kw = dict(c=c, bounds=bounds, method="highs")
+    if A_ub:
+        kw.update(A_ub=A_ub, b_ub=b_ub)
+    if A_eq:
+        kw.update(A_eq=A_eq, b_eq=b_eq)
+    return kw, sgn
+
+
+def scipy_solve(model: Model):
+    """(status, objective in the model's sense) from scipy's HiGHS; status as ours."""
+    from scipy.optimize import linprog
+
+    kw, sgn = to_linprog(model)
+    if not kw["c"]:
+        kw["c"] = [0.0]
+        kw["bounds"] = [(0, 0)]
+    r = linprog(**kw)
+    status = {0: "optimal", 2: "infeasible", 3: "unbounded"}.get(r.status, f"scipy-status-{r.status}")
+    obj = None
+    if r.status == 0:
+        obj = sgn * r.fun + float(model.objective_constant)
+    return status, obj
+
+
+def sympy_solve(model: Model):
+    """Exact optimum from SymPy's small exact LP routine (sympy.solvers.simplex.linprog)."""
+    from sympy import Rational
+    from sympy.solvers.simplex import InfeasibleLPError, UnboundedLPError, linprog
+
+    names = [v.name for v in model.variables]
+    idx = {n: j for j, n in enumerate(names)}
+    sgn = 1 if model.sense is Sense.MINIMIZE else -1
+    R = lambda f: Rational(f.numerator, f.denominator)  # noqa: E731
+    c = [Rational(0)] * len(names)
+    for n, a in model.objective:
+        c[idx[n]] = sgn * R(a)
+    A, b, Aeq, beq = [], [], [], []
+    for con in model.constraints:
+        row = [Rational(0)] * len(names)
+        for n, a in con.terms:
+            row[idx[n]] = R(a)
+        if con.is_equality:
+            Aeq.append(row)
+            beq.append(R(con.lower))
+            continue
+        if con.upper is not None:
+            A.append(row)
+            b.append(R(con.upper))
+        if con.lower is not None:
+            A.append([-a for a in row])
+            b.append(-R(con.lower))
+    bounds = [(None if v.lower is None else R(v.lower), None if v.upper is None else R(v.upper))
+              for v in model.variables]
+    from sympy import Matrix
+
+    try:
+        val, _ = linprog(Matrix([c]), Matrix(A) if A else None, Matrix(b) if b else None,
+                         Matrix(Aeq) if Aeq else None, Matrix(beq) if beq else None, bounds=bounds)
+    except InfeasibleLPError:
+        return "infeasible", None
+    except UnboundedLPError:
+        return "unbounded", None
+    v = Fraction(int(val.p), int(val.q))
+    return "optimal", sgn * v + model.objective_constant
+
+
+def solve_verified(model: Model, **kw):
+    """Solve, build the certificate, and assert the independent verifier accepts it."""
+    import exactlp
+    from exactlp.certificate import build_certificate, dump_certificate, parse_certificate_text
+
+    r = exactlp.solve(model, **kw)
+    if r.status.is_proven:
+        cert = build_certificate(model, r)
+        # through the file format and back, as a reviewer would receive it
+        back = parse_certificate_text(dump_certificate(cert), "<cert>")
+        v = exactlp.verify(model, back)
+        assert v.valid, v.failure
+    return r

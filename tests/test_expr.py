@@ -1,0 +1,119 @@
+"""The safe expression and formula parser (issue 2)."""
+
+from fractions import Fraction as F
+
+import pytest
+from hypothesis import given, strategies as st
+
+from exactlp.errors import InputError
+from exactlp.expr import parse_comparison, parse_expression
+
+
+def test_objective_expression_with_constant():
+    e = parse_expression("3 north + 2 south + 5/2 east - 1000")
+    assert e.terms == (("north", F(3)), ("south", F(2)), ("east", F(5, 2)))
+    assert e.constant == F(-1000)
+    assert all(type(c) is F for _, c in e.terms)
+
+
+def test_repeated_names_add_up_and_cancelled_terms_vanish():
+    e = parse_expression("x + 2*y - x + 0.5 y + 3")
+    assert e.terms == (("y", F(5, 2)),)
+    assert e.constant == 3
+
+
+def test_star_and_signs():
+    e = parse_expression("-x - -2 * y + +3z")
+    assert e.terms == (("x", F(-1)), ("y", F(2)), ("z", F(3)))
+
+
+def test_dotted_names():
+    assert parse_expression("2 X.1 + a_b.c").terms == (("X.1", F(2)), ("a_b.c", F(1)))
+
+
+def test_both_sides_are_moved_left():
+    c = parse_comparison("north - 2 south == transfer")
+    assert c.terms == (("north", F(1)), ("south", F(-2)), ("transfer", F(-1)))
+    assert (c.lower, c.upper) == (F(0), F(0))
+
+
+def test_constants_on_both_sides():
+    c = parse_comparison("x + 4 <= 10 - y")
+    assert c.terms == (("x", F(1)), ("y", F(1)))
+    assert (c.lower, c.upper) == (None, F(6))
+
+
+def test_ranged_and_reversed_ranged():
+    c = parse_comparison("10 <= east + transfer <= 90")
+    assert (c.lower, c.upper) == (F(10), F(90))
+    c = parse_comparison("90 >= east + 5 >= 10")
+    assert c.terms == (("east", F(1)),)
+    assert (c.lower, c.upper) == (F(5), F(85))
+
+
+def test_single_equals_is_equality():
+    c = parse_comparison("x = 3")
+    assert (c.lower, c.upper) == (F(3), F(3))
+
+
+@pytest.mark.parametrize(
+    "text, message, offset",
+    [
+        ("x <= y <= z", "in a chained comparison the outer parts must be numbers (write 'number <= expression <= number')", 0),
+        ("0 <= x <= y", "in a chained comparison the outer parts must be numbers (write 'number <= expression <= number')", 10),
+        ("0 <= x >= 1", "a chained comparison must be 'a <= expression <= b' or 'a >= expression >= b'", 7),
+        ("x < 3", "strict comparison '<' is not allowed in a linear program; use '<='", 2),
+        ("x + y", "a constraint needs a comparison: <=, >= or ==", 5),
+        ("3 / 4 x <= 1", "write fractions as p/q with no spaces, for example 3/4", 2),
+        ("x y <= 1", "expected '+', '-' or a comparison, found 'y'", 2),
+        ("x * 3 <= 1", "write the number before the name: '<number> x', not 'x * <number>'", 2),
+        ("2 * <= 1", "expected a variable name after '*', found '<='", 4),
+        ("x + <= 1", "expected a number or a variable name, found '<='", 4),
+        ("x $ 1", "unexpected character '$'", 2),
+        ("x <= 1/0", "'1/0' divides by zero", 5),
+        ("x <= 1 <= 2 <= 3", "at most two comparisons may be chained", 12),
+    ],
+)
+def test_formula_errors(text, message, offset):
+    with pytest.raises(InputError) as exc:
+        parse_comparison(text)
+    assert exc.value.message == message
+    assert exc.value.offset == offset
+
+
+def test_objective_refuses_comparison():
+    with pytest.raises(InputError) as exc:
+        parse_expression("x <= 3")
+    assert exc.value.message == "a comparison is not allowed in an objective"
+
+
+def test_code_is_never_evaluated():
+    # what eval() would run is just a malformed formula here
+    for text in ("__import__('os').system('echo hi') <= 1", "(lambda: 1)() <= 2"):
+        with pytest.raises(InputError):
+            parse_comparison(text)
+    # a dotted name is only a name: nothing is looked up on it
+    assert parse_comparison("x.__class__ <= 1").terms == (("x.__class__", F(1)),)
+
+
+_names = st.sampled_from(["x", "y", "z", "w.1", "_a"])
+_coef = st.fractions(min_value=-1000, max_value=1000, max_denominator=50)
+
+
+@given(st.lists(st.tuples(_coef, _names), min_size=1, max_size=6), _coef)
+def test_written_terms_parse_back(terms, const):
+    text = " + ".join(f"{'-' if c < 0 else ''}{abs(c.numerator)}/{c.denominator} {n}" for c, n in terms)
+    expect: dict = {}
+    for c, n in terms:
+        expect[n] = expect.get(n, F(0)) + c
+    e = parse_expression(text + f" + {const.numerator}/{const.denominator}" if const >= 0 else text + f" - {-const.numerator}/{const.denominator}")
+    assert dict(e.terms) == {k: v for k, v in expect.items() if v}
+    assert e.constant == const
+
+
+@given(st.text(alphabet="xyz0123456789.+-*/<=>() e", max_size=30))
+def test_any_formula_text_gives_a_result_or_our_error(text):
+    try:
+        parse_comparison(text)
+    except InputError:
+        pass

@@ -1,0 +1,318 @@
+"""The exactlp YAML model format: reading, strict validation, fingerprint (issue 2)."""
+
+from fractions import Fraction as F
+import os
+
+import pytest
+from hypothesis import given, settings, strategies as st
+
+import exactlp
+from exactlp.errors import InputError
+from exactlp.io import dump_yaml_model, model_from_text
+from exactlp.model import Constraint, Sense, Variable, build_model
+
+CONTRACT = """\
+name: Lower valley drought allocation      # optional text; also `description:`
+maximize: 3 north + 2 south + 5/2 east - 1000   # a constant term allowed
+variables:                      # every variable used anywhere must be declared here
+  north: {lower: 0, upper: 120} # lower defaults to 0, upper to +inf; `lower: -inf` allowed
+  south: {upper: 80}
+  east: {}                      # [0, +inf)
+  transfer: free                # (-inf, +inf)
+  reserve: {fixed: 15}          # lower = upper = 15
+  "odd name-1": {lower: -inf, upper: 7, unit: ML, note: any name in the structured form}
+constraints:                    # name: constraint; order is kept
+  canal: north + south <= 150
+  total: "north + south + east >= 60"
+  balance: north - 2 south == transfer     # variables may stand on both sides
+  window: 10 <= east + transfer <= 90      # ranged: number <= expression <= number
+  pumps: {terms: {north: 2, "odd name-1": 1/3}, upper: 100}
+  fill: {terms: {reserve: 1}, equals: 15}
+"""
+
+
+def test_contract_example_reads_exactly(write):
+    m = exactlp.load(write("m.yaml", CONTRACT))
+    assert m.name == "Lower valley drought allocation"
+    assert m.sense is Sense.MAXIMIZE
+    assert m.objective == (("north", F(3)), ("south", F(2)), ("east", F(5, 2)))
+    assert m.objective_constant == F(-1000) and type(m.objective_constant) is F
+    assert [v.name for v in m.variables] == ["north", "south", "east", "transfer", "reserve", "odd name-1"]
+    assert m.variables[0] == Variable("north", F(0), F(120))
+    assert m.variables[1] == Variable("south", F(0), F(80))
+    assert m.variables[2] == Variable("east", F(0), None)
+    assert m.variables[3] == Variable("transfer", None, None)
+    assert m.variables[4] == Variable("reserve", F(15), F(15))
+    assert m.variables[5] == Variable("odd name-1", None, F(7), "ML", "any name in the structured form")
+    assert [c.name for c in m.constraints] == ["canal", "total", "balance", "window", "pumps", "fill"]
+    assert m.constraints[0] == Constraint("canal", (("north", F(1)), ("south", F(1))), None, F(150))
+    assert m.constraints[1] == Constraint("total", (("north", F(1)), ("south", F(1)), ("east", F(1))), F(60), None)
+    assert m.constraints[2] == Constraint("balance", (("north", F(1)), ("south", F(-2)), ("transfer", F(-1))), F(0), F(0))
+    assert m.constraints[3] == Constraint("window", (("east", F(1)), ("transfer", F(1))), F(10), F(90))
+    assert m.constraints[4] == Constraint("pumps", (("north", F(2)), ("odd name-1", F(1, 3))), None, F(100))
+    assert m.constraints[5] == Constraint("fill", (("reserve", F(1)),), F(15), F(15))
+    for c in m.constraints:
+        assert all(type(a) is F for _, a in c.terms)
+
+
+def test_decimal_is_exact_through_yaml(write):
+    m = exactlp.load(write("m.yaml", "minimize: 0.1 x\nvariables:\n  x: {lower: 0.1, upper: 1e3}\n"))
+    assert m.objective == (("x", F(1, 10)),)
+    assert m.variables[0].lower == F(1, 10) and type(m.variables[0].lower) is F
+    assert m.variables[0].upper == F(1000)
+
+
+def test_quoted_numbers_are_numbers(write):
+    m = exactlp.load(write("m.yaml", 'minimize: x\nvariables:\n  x: {lower: "3/4", upper: \'2.5\'}\n'))
+    assert (m.variables[0].lower, m.variables[0].upper) == (F(3, 4), F(5, 2))
+
+
+def test_feasibility_model_and_no_constraints(write):
+    m = exactlp.load(write("m.yaml", "minimize: 0\nvariables:\n  x: {upper: 3}\n"))
+    assert m.objective == () and m.constraints == ()
+
+
+def test_lower_above_upper_is_not_a_load_error(write):
+    m = exactlp.load(write("m.yaml", "minimize: x\nvariables:\n  x: {lower: 5, upper: 3}\n"))
+    assert (m.variables[0].lower, m.variables[0].upper) == (F(5), F(3))
+    assert exactlp.solve(m).status.value == "infeasible"
+
+
+# --- every error kind, through the CLI: one line, file:line:col: field: message, exit 2 ---------
+ERRORS = [
+    ("maximize: x\nvariables:\n  x: {uper: 4}\n",
+     "3:7: variables.x.uper: unknown key 'uper' (did you mean 'upper'?)"),
+    ("maximise: x\nvariables:\n  x: {}\n",
+     "1:1: maximise: unknown key 'maximise' (did you mean 'maximize'?)"),
+    ("maximize: north\nvariables:\n  north: {}\n  south: {}\nconstraints:\n  c: north + sooth <= 4\n",
+     "6:14: constraints.c: undeclared variable 'sooth' (did you mean 'south'?)"),
+    ("maximize: 2 nort\nvariables:\n  north: {}\n",
+     "1:13: maximize: undeclared variable 'nort' (did you mean 'north'?)"),
+    ("maximize: x\nvariables:\n  x: {}\nconstraints:\n  c: {terms: {y: 1}, upper: 3}\n",
+     "5:15: constraints.c.terms.y: undeclared variable 'y'"),
+    ("maximize: x\nvariables:\n  x: {}\n  x: {upper: 3}\n",
+     "4:3: variables.x: key 'x' is given twice (first on line 3)"),
+    ("maximize: x\nminimize: x\nvariables:\n  x: {}\n",
+     "2:1: minimize: give exactly one of maximize: or minimize:, not both"),
+    ("variables:\n  x: {}\n",
+     "1:1: (document): missing the objective: give maximize: or minimize:"),
+    ("maximize: x\nvariables:\n  x: {}\nconstraints:\n  c: x + * 3 <= 4\n",
+     "5:10: constraints.c: expected a number or a variable name, found '*'"),
+    ("maximize: x\nvariables:\n  x: {}\n  y: {}\nconstraints:\n  c: 0 <= x <= y\n",
+     "6:16: constraints.c: in a chained comparison the outer parts must be numbers (write 'number <= expression <= number')"),
+    ("maximize: x\nvariables:\n  x: {}\nconstraints:\n  c: {terms: {x: nan}, upper: 3}\n",
+     "5:18: constraints.c.terms.x: 'nan' is not a number"),
+    ("maximize: x\nvariables:\n  x: {}\nconstraints:\n  c: {terms: {x: inf}, upper: 3}\n",
+     "5:18: constraints.c.terms.x: 'inf' is not allowed here: infinity is only allowed as a bound"),
+    ("maximize: x\nvariables:\n  x: {}\nconstraints:\n  c: 1/0 x <= 3\n",
+     "5:6: constraints.c: '1/0' divides by zero"),
+    ("maximize: x\nvariables:\n  x: {upper: 1e999}\n",
+     "3:14: variables.x.upper: '1e999' has exponent 999, beyond the limit of ±400"),
+    ("- a\n- b\n",
+     "1:1: (document): a model file must be a mapping of keys (name, maximize/minimize, variables, constraints), found a list"),
+    ("maximize: x\nvariables:\n  x: !!python/object:os.system {}\n",
+     "3:6: YAML tags (tag:yaml.org,2002:python/object:os.system) are not allowed in exactlp files"),
+    ("maximize: x\nvariables:\n  x: &b {upper: 3}\n  y: *b\n",
+     "3:6: anchors (&b) are not allowed in exactlp files"),
+    ("maximize: x\nvariables:\n  x: {}\n  y: *b\n",
+     "4:6: anchors and aliases (*name) are not allowed in exactlp files"),
+    ("maximize: x\nvariables: " + "[" * 100 + "]" * 100 + "\n",
+     "2:43: nesting is deeper than the limit of 32"),
+    ("maximize: x\nvariables: {x: {upper: 3}\n",
+     "3:1: invalid YAML: did not find expected ',' or '}'"),
+    ("maximize: x\nvariables:\n  x: {lower: inf}\n",
+     "3:14: variables.x.lower: a lower bound cannot be +inf"),
+    ("maximize: x\nvariables:\n  x: fre\n",
+     "3:6: variables.x: expected bounds such as {lower: 0, upper: 10}, {} or 'free', found 'fre' (did you mean 'free'?)"),
+    ("maximize: x\nvariables:\n  x: {fixed: 3, lower: 1}\n",
+     "3:17: variables.x.lower: give either fixed: or lower:, not both"),
+    ("maximize: 0\n",
+     "1:1: (document): missing key 'variables' (every variable must be declared)"),
+    ("maximize: x\nvariables:\n  x: {}\nconstraints:\n  c: x < 3\n",
+     "5:8: constraints.c: strict comparison '<' is not allowed in a linear program; use '<='"),
+    ('maximize: x\nvariables:\n  x: {}\nconstraints:\n  c: "x + yy <= 3"\n',
+     "5:11: constraints.c: undeclared variable 'yy'"),
+    ("maximize: x\nvariables:\n  x: {}\nconstraints:\n  c: {terms: {x: 1}}\n",
+     "5:6: constraints.c: give lower:, upper: or equals:"),
+    ("maximize: [x]\nvariables:\n  x: {}\n",
+     "1:11: maximize: expected an expression such as '3 x + 2 y', found a list"),
+    ("maximize: x\nvariables:\n  x: {}\n---\nmaximize: y\n",
+     "4:1: the file holds more than one YAML document"),
+]
+
+
+@pytest.mark.parametrize("text, tail", ERRORS, ids=[t for _, t in ERRORS])
+def test_model_errors_through_cli(cli, write, text, tail):
+    path = write("bad.yaml", text)
+    code, out, err = cli("check", path)
+    assert code == 2
+    assert out == ""
+    assert err == f"exactlp: {path}:{tail}\n"
+    assert "Traceback" not in err
+
+
+@pytest.mark.parametrize(
+    "content, tail",
+    [
+        (b"", ": the file is empty"),
+        (b"# only a comment\n\n", ": the file is empty"),
+        (b"maximize: x\nvariables:\n  x: {upper: \xff3}\n", ":3:14: bytes that are not UTF-8 text (byte 0xff)"),
+    ],
+)
+def test_file_level_errors(cli, write, content, tail):
+    path = write("bad.yaml", content)
+    code, out, err = cli("check", path)
+    assert (code, out) == (2, "")
+    assert err == f"exactlp: {path}{tail}\n"
+
+
+def test_missing_file(cli, tmp_path):
+    code, _, err = cli("check", tmp_path / "nope.yaml")
+    assert code == 2 and err == f"exactlp: {tmp_path / 'nope.yaml'}: no such file\n"
+
+
+def test_file_size_limit(write):
+    from exactlp.io import load_yaml_model
+    from exactlp.limits import Limits
+
+    path = write("big.yaml", "minimize: 0\nvariables: {}\n" + "#" * 200 + "\n")
+    with pytest.raises(InputError) as exc:
+        load_yaml_model(path, Limits(max_file_bytes=100))
+    assert str(exc.value) == f"{path}: file is larger than the limit of 100 bytes"
+
+
+def test_alias_bomb_is_refused_quickly(write):
+    lines = ["a0: &a0 [x, x, x, x, x, x, x, x, x]"]
+    for i in range(1, 10):
+        lines.append(f"a{i}: &a{i} [" + ", ".join([f"*a{i-1}"] * 9) + "]")
+    path = write("bomb.yaml", "\n".join(lines) + "\n")
+    with pytest.raises(InputError) as exc:
+        exactlp.load(path)
+    assert exc.value.message == "anchors (&a0) are not allowed in exactlp files"
+
+
+def test_bad_input_leaves_no_output_files(cli, write, tmp_path):
+    path = write("bad.yaml", "maximize: x\nvariables:\n  x: {uper: 4}\n")
+    code, _, _ = cli("solve", path, "-c", tmp_path / "out.cert.yaml", "-l", tmp_path / "out.log")
+    assert code == 2
+    assert sorted(os.listdir(tmp_path)) == ["bad.yaml"]
+
+
+# --- canonical form and fingerprint -----------------------------------------------------------
+A = "maximize: 3 x + 2 y\nvariables:\n  x: {upper: 4}\n  y: {}\nconstraints:\n  c1: x + y <= 5\n  c2: 0.5 x - y >= -2\n"
+A_RESPELLED = """\
+# the same model, written differently
+maximize: "2 y + 3*x"
+variables: {x: {lower: 0, upper: "4"}, y: {lower: 0.0}}
+constraints:
+  c1: {terms: {y: 1, x: 1}, upper: 5.0}
+  c2: "1/2 x - 1 y + 2 >= 0"
+"""
+
+
+def test_fingerprint_ignores_spelling():
+    a, b = model_from_text(A), model_from_text(A_RESPELLED)
+    assert a.fingerprint == b.fingerprint
+    assert a.fingerprint.startswith("sha256:") and len(a.fingerprint) == 7 + 64
+
+
+@pytest.mark.parametrize(
+    "changed",
+    [
+        A.replace("c1:", "cap:"),               # a name
+        A.replace("x + y <= 5", "x + y <= 6"),  # a bound
+        A.replace("3 x", "3.001 x"),            # a coefficient
+        A.replace("maximize", "minimize"),      # the sense
+        A.replace("{upper: 4}", "{upper: 4, lower: -1}"),
+    ],
+)
+def test_fingerprint_follows_meaning(changed):
+    assert model_from_text(changed).fingerprint != model_from_text(A).fingerprint
+
+
+def test_fingerprint_ignores_descriptive_text():
+    b = "name: something\ndescription: words\n" + A.replace("x: {upper: 4}", "x: {upper: 4, unit: ML, note: n}")
+    assert model_from_text(b).fingerprint == model_from_text(A).fingerprint
+
+
+# --- models built in code --------------------------------------------------------------------
+def test_build_model_in_code_matches_the_file():
+    m = build_model(
+        sense="maximize",
+        objective={"x": 3, "y": F(2)},
+        variables={"x": (0, 4), "y": None},
+        constraints={"c1": ({"x": 1, "y": 1}, None, 5), "c2": ({"x": "0.5", "y": -1}, -2, None)},
+    )
+    assert m.fingerprint == model_from_text(A).fingerprint
+
+
+def test_build_model_refuses_floats():
+    with pytest.raises(InputError) as exc:
+        build_model(objective={"x": 0.1}, variables={"x": None})
+    assert exc.value.message == (
+        "objective.x: the float 0.1 is not exact; pass it as text ('0.1') or as a Fraction "
+        "to say exactly which number is meant"
+    )
+
+
+def test_model_is_immutable():
+    import dataclasses
+
+    m = model_from_text(A)
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        m.name = "x"  # type: ignore[misc]
+
+
+# --- round trips -----------------------------------------------------------------------------
+def test_contract_round_trip(write):
+    m = exactlp.load(write("m.yaml", CONTRACT))
+    again = model_from_text(dump_yaml_model(m))
+    assert again.fingerprint == m.fingerprint
+    assert again == m
+
+
+names = st.one_of(
+    st.from_regex(r"[A-Za-z_][A-Za-z0-9_.]{0,6}", fullmatch=True),
+    st.text(alphabet="ab -:#'\"é{}[]*&!1", min_size=1, max_size=6),
+)
+nums = st.fractions(min_value=-10**6, max_value=10**6, max_denominator=10**4)
+bounds = st.one_of(st.none(), nums)
+
+
+@st.composite
+def models(draw):
+    vnames = draw(st.lists(names, min_size=1, max_size=5, unique=True))
+    variables = {}
+    for n in vnames:
+        lo, hi = draw(bounds), draw(bounds)
+        variables[n] = {"lower": lo, "upper": hi}
+    cons = {}
+    for cn in draw(st.lists(names, max_size=4, unique=True)):
+        terms = draw(st.dictionaries(st.sampled_from(vnames), nums, max_size=4))
+        lo, hi = draw(bounds), draw(bounds)
+        cons[cn] = (terms, lo, hi)
+    return build_model(
+        sense=draw(st.sampled_from(["minimize", "maximize"])),
+        objective=draw(st.dictionaries(st.sampled_from(vnames), nums, max_size=4)),
+        objective_constant=draw(nums),
+        variables=variables,
+        constraints=cons,
+        name=draw(st.one_of(st.none(), st.text(max_size=10))) or None,
+    )
+
+
+@settings(max_examples=150, deadline=None)
+@given(models())
+def test_any_model_round_trips_through_yaml(m):
+    again = model_from_text(dump_yaml_model(m))
+    assert again.fingerprint == m.fingerprint
+    assert again.variables == m.variables and again.constraints == m.constraints
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.text(max_size=200))
+def test_any_text_gives_a_model_or_our_error(text):
+    try:
+        model_from_text(text)
+    except InputError as e:
+        assert "\n" not in str(e)

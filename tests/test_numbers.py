@@ -1,0 +1,123 @@
+"""Exact numbers read from text (issue 2)."""
+
+from fractions import Fraction
+
+import pytest
+from hypothesis import given, strategies as st
+
+from exactlp.errors import InputError, NumberError
+from exactlp.numbers import format_decimal, format_number, parse_bound, parse_number, to_fraction
+
+
+@pytest.mark.parametrize(
+    "text, value",
+    [
+        ("0.1", Fraction(1, 10)),
+        ("3/4", Fraction(3, 4)),
+        ("-3/4", Fraction(-3, 4)),
+        ("+7", Fraction(7)),
+        ("1.5e-3", Fraction(3, 2000)),
+        ("1e3", Fraction(1000)),  # PyYAML's YAML 1.1 rules would leave this a string
+        ("2.5E+2", Fraction(250)),
+        (".5", Fraction(1, 2)),
+        ("5.", Fraction(5)),
+        ("  42  ", Fraction(42)),
+        ("0.30000000000000004", Fraction(30000000000000004, 10**17)),
+        ("6/4", Fraction(3, 2)),
+        ("-0", Fraction(0)),
+    ],
+)
+def test_parse_number_is_exact(text, value):
+    got = parse_number(text)
+    assert type(got) is Fraction
+    assert got == value
+
+
+def test_tenth_is_not_the_binary_float():
+    assert parse_number("0.1") != Fraction(0.1)
+    assert parse_number("0.1") * 10 == 1
+
+
+@pytest.mark.parametrize(
+    "text, message",
+    [
+        ("nan", "'nan' is not a number"),
+        ("inf", "'inf' is not allowed here: infinity is only allowed as a bound"),
+        ("-inf", "'-inf' is not allowed here: infinity is only allowed as a bound"),
+        ("1/0", "'1/0' divides by zero"),
+        ("1e401", "'1e401' has exponent 401, beyond the limit of ±400"),
+        ("1e-9999", "'1e-9999' has exponent -9999, beyond the limit of ±400"),
+        ("abc", "'abc' is not a number"),
+        ("", "'' is not a number"),
+        ("1/2/3", "'1/2/3' is not a number"),
+        ("0x10", "'0x10' is not a number"),
+        ("1_000", "'1_000' is not a number"),
+        ("1" * 401, "number has 401 characters, more than the limit of 400"),
+    ],
+)
+def test_parse_number_errors(text, message):
+    with pytest.raises(NumberError) as exc:
+        parse_number(text)
+    assert exc.value.message == message
+
+
+def test_bounds_accept_infinity():
+    assert parse_bound("inf") == "+inf"
+    assert parse_bound("-inf") == "-inf"
+    assert parse_bound("12.5") == Fraction(25, 2)
+
+
+def test_to_fraction_refuses_floats_and_says_how():
+    with pytest.raises(NumberError) as exc:
+        to_fraction(0.1, "coefficient")
+    assert exc.value.message == (
+        "coefficient: the float 0.1 is not exact; pass it as text ('0.1') or as a Fraction "
+        "to say exactly which number is meant"
+    )
+    assert to_fraction("0.1") == Fraction(1, 10)
+    assert to_fraction(3) == Fraction(3)
+    with pytest.raises(NumberError):
+        to_fraction(True)
+
+
+@pytest.mark.parametrize("value, text", [(Fraction(3), "3"), (Fraction(-7, 4), "-7/4"), (Fraction(0), "0")])
+def test_format_number(value, text):
+    assert format_number(value) == text
+
+
+@pytest.mark.parametrize(
+    "value, digits, text",
+    [
+        (Fraction(1, 3), 5, "0.33333"),
+        (Fraction(2, 3), 5, "0.66667"),
+        (Fraction(-46475314286, 10**8), 11, "-464.75314286"),
+        (Fraction(5, 2), 1, "2"),  # half to even, on the exact value
+        (Fraction(7, 2), 1, "4"),
+        (Fraction(1, 10**8), 3, "1e-8"),
+        (Fraction(999999), 3, "1e+6"),
+        (Fraction(0), 5, "0"),
+    ],
+)
+def test_format_decimal_rounds_the_exact_value(value, digits, text):
+    assert format_decimal(value, digits) == text
+
+
+@given(st.fractions(max_denominator=10**12))
+def test_format_then_parse_round_trips(f):
+    assert parse_number(format_number(f)) == f
+
+
+@given(st.decimals(allow_nan=False, allow_infinity=False, places=None))
+def test_decimal_text_reads_exactly(d):
+    text = str(d)
+    if "E" in text and abs(d.adjusted()) > 390:
+        return
+    assert parse_number(text) == Fraction(d)
+
+
+@given(st.text(max_size=40))
+def test_any_text_gives_a_number_or_our_error(text):
+    try:
+        assert type(parse_number(text)) is Fraction
+    except InputError:
+        pass
