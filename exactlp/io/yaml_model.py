@@ -327,11 +327,19 @@ _PLAIN_KEY = re.compile(r"[A-Za-z_][A-Za-z0-9_.]*")
 _YAML_WORDS = {"y", "n", "yes", "no", "on", "off", "true", "false", "null", "free", "inf"}
 
 
+_YAML_UNPRINTABLE = re.compile("[\x7f-\x9f\ud800-\udfff\ufeff\ufffe\uffff]")
+
+
 def quote(text: str) -> str:
-    """A YAML double-quoted scalar (JSON escapes are valid YAML)."""
+    """A YAML double-quoted scalar (JSON escapes are valid YAML).
+
+    JSON leaves DEL, the C1 controls and a few other characters as they are,
+    which YAML does not allow in a file; those are written as ``\\uXXXX``.
+    """
     import json
 
-    return json.dumps(text, ensure_ascii=False)
+    out = json.dumps(text, ensure_ascii=False)
+    return _YAML_UNPRINTABLE.sub(lambda m: f"\\u{ord(m.group()):04x}", out)
 
 
 def key(text: str) -> str:
