@@ -21,8 +21,8 @@ def solve(model, **options):
 
 
 def verify(model, certificate):
-    """Check ``certificate`` against ``model``; see :func:`exactlp.verify.verify`."""
-    from .verify import verify as _verify
+    """Check ``certificate`` against ``model``; see :func:`exactlp.verifier.verify`."""
+    from .verifier import verify as _verify
 
     return _verify(model, certificate)
 

@@ -216,7 +216,7 @@ def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, ti
     from .io.atomic import write_atomic
     from .solver import solve as run_solve
     from .solver.result import Status
-    from .verify import verify
+    from .verifier import verify
 
     stop = {"signal": None}
 
@@ -306,7 +306,7 @@ def verify(
     """
     with _Run(debug):
         from .certificate import read_certificate
-        from .verify import verify as run_verify
+        from .verifier import verify as run_verify
 
         m = _load(model)
         cert = read_certificate(certificate)

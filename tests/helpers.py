@@ -57,45 +57,49 @@ def scipy_solve(model: Model):
 
 
 def sympy_solve(model: Model):
-    """Exact optimum from SymPy's small exact LP routine (sympy.solvers.simplex.linprog)."""
-    from sympy import Rational
-    from sympy.solvers.simplex import InfeasibleLPError, UnboundedLPError, linprog
+    """Exact optimum from SymPy's small exact LP routines (sympy.solvers.simplex.lpmin/lpmax).
 
-    names = [v.name for v in model.variables]
-    idx = {n: j for j, n in enumerate(names)}
-    sgn = 1 if model.sense is Sense.MINIMIZE else -1
+    The symbolic form is used: bounds become ordinary relations.  (SymPy 1.14's
+    matrix ``linprog`` mis-handles some bound and equality-only shapes.)
+    """
+    from sympy import Eq, Rational, symbols
+    from sympy.solvers.simplex import InfeasibleLPError, UnboundedLPError, lpmax, lpmin
+
+    xs = symbols(f"v0:{len(model.variables)}") if model.variables else ()
+    sym = {v.name: xs[j] for j, v in enumerate(model.variables)}
     R = lambda f: Rational(f.numerator, f.denominator)  # noqa: E731
-    c = [Rational(0)] * len(names)
-    for n, a in model.objective:
-        c[idx[n]] = sgn * R(a)
-    A, b, Aeq, beq = [], [], [], []
-    for con in model.constraints:
-        row = [Rational(0)] * len(names)
-        for n, a in con.terms:
-            row[idx[n]] = R(a)
-        if con.is_equality:
-            Aeq.append(row)
-            beq.append(R(con.lower))
+    expr = lambda terms: sum((R(a) * sym[n] for n, a in terms), Rational(0))  # noqa: E731
+    rels = []
+    for v in model.variables:
+        if v.lower is not None and v.lower == v.upper:
+            rels.append(Eq(sym[v.name], R(v.lower)))
             continue
-        if con.upper is not None:
-            A.append(row)
-            b.append(R(con.upper))
-        if con.lower is not None:
-            A.append([-a for a in row])
-            b.append(-R(con.lower))
-    bounds = [(None if v.lower is None else R(v.lower), None if v.upper is None else R(v.upper))
-              for v in model.variables]
-    from sympy import Matrix
-
+        if v.lower is not None:
+            rels.append(sym[v.name] >= R(v.lower))
+        if v.upper is not None:
+            rels.append(sym[v.name] <= R(v.upper))
+    for c in model.constraints:
+        e = expr(c.terms)
+        if not c.terms:  # a row with no terms: 0 must lie within its bounds
+            if (c.lower is not None and c.lower > 0) or (c.upper is not None and c.upper < 0):
+                return "infeasible", None
+            continue
+        if c.is_equality:
+            rels.append(Eq(e, R(c.lower)))
+            continue
+        if c.lower is not None:
+            rels.append(e >= R(c.lower))
+        if c.upper is not None:
+            rels.append(e <= R(c.upper))
+    f = expr(model.objective) + xs[0] * 0 if xs else expr(model.objective)
     try:
-        val, _ = linprog(Matrix([c]), Matrix(A) if A else None, Matrix(b) if b else None,
-                         Matrix(Aeq) if Aeq else None, Matrix(beq) if beq else None, bounds=bounds)
+        val, _ = (lpmin if model.sense is Sense.MINIMIZE else lpmax)(f, rels)
     except InfeasibleLPError:
         return "infeasible", None
     except UnboundedLPError:
         return "unbounded", None
     v = Fraction(int(val.p), int(val.q))
-    return "optimal", sgn * v + model.objective_constant
+    return "optimal", v + model.objective_constant
 
 
 def solve_verified(model: Model, **kw):

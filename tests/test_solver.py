@@ -1,0 +1,133 @@
+"""The exact bounded two-phase simplex (issue 3).
+
+One table of models runs over every pricing rule; every outcome's certificate
+must pass the independent verifier.  Outside references: SymPy's exact LP
+routine (exact equality) and scipy's HiGHS (float, within its tolerance).
+"""
+
+from fractions import Fraction as F
+
+import pytest
+
+import exactlp
+from exactlp.io import model_from_text
+from exactlp.solver import PRICING_RULES, Status
+
+from .helpers import scipy_solve, solve_verified, sympy_solve
+from .models import KNOWN, klee_minty
+
+CASES = [pytest.param(text, status, obj, id=name) for name, text, status, obj, _ in KNOWN]
+
+
+@pytest.mark.parametrize("pricing", PRICING_RULES)
+@pytest.mark.parametrize("text, status, objective", CASES)
+def test_known_models_under_every_rule(pricing, text, status, objective):
+    m = model_from_text(text)
+    limit = 200 if pricing == "dantzig" else None  # plain Dantzig may cycle (Beale)
+    r = solve_verified(m, pricing=pricing, iteration_limit=limit)
+    if pricing == "dantzig" and r.status is Status.ITERATION_LIMIT:
+        assert text.startswith("minimize: -3/4 x4")  # only Beale's example may cycle
+        assert r.objective is None and not r.status.is_proven
+        return
+    assert r.status.value == status
+    if objective is not None:
+        assert r.objective == objective
+        assert type(r.objective) is F
+        assert all(type(v) is F for v in r.primal.values())
+        assert all(type(v) is F for v in r.duals.values())
+
+
+@pytest.mark.parametrize("text, status, objective", [c for c in CASES if "crossed" not in c.id])
+def test_known_models_agree_with_sympy_exactly(text, status, objective):
+    m = model_from_text(text)
+    ref_status, ref_obj = sympy_solve(m)
+    assert ref_status == status
+    if objective is not None:
+        assert ref_obj == objective
+
+
+@pytest.mark.parametrize("text, status, objective", CASES)
+def test_known_models_agree_with_scipy(text, status, objective):
+    m = model_from_text(text)
+    ref_status, ref_obj = scipy_solve(m)
+    assert ref_status == status
+    if objective is not None:
+        assert abs(ref_obj - float(objective)) <= 1e-9 * max(1.0, abs(float(objective)))
+
+
+def test_beale_multipliers_derived_by_hand():
+    m = model_from_text(KNOWN[2][1])
+    r = exactlp.solve(m, pricing="bland")
+    assert dict(r.primal) == {"x4": F(1), "x5": F(0), "x6": F(1), "x7": F(0)}
+    assert dict(r.duals) == {"r1": F(0), "r2": F(-3, 2), "r3": F(-5, 4)}  # minimising: y <= 0 on <= rows
+
+
+def test_beale_under_dantzig_never_hangs_or_lies():
+    m = model_from_text(KNOWN[2][1])
+    r = exactlp.solve(m, pricing="dantzig", iteration_limit=50)
+    assert (r.status, r.objective) in ((Status.OPTIMAL, F(-5, 4)), (Status.ITERATION_LIMIT, None))
+
+
+@pytest.mark.parametrize("n", range(2, 9))
+def test_klee_minty(n):
+    m = model_from_text(klee_minty(n))
+    for pricing in PRICING_RULES:
+        r = solve_verified(m, pricing=pricing)
+        assert r.status is Status.OPTIMAL and r.objective == 5**n
+        assert r.primal[f"x{n}"] == 5**n
+    r = exactlp.solve(m, pricing="dantzig")
+    assert r.pivots_phase1 == 0
+    assert r.pivots_phase2 + r.bound_flips == 2**n - 1  # Klee & Minty 1972: every vertex visited
+
+
+def test_hand_derived_duals_of_the_three_resource_example():
+    # by hand: at x = (2, 0, 1) rows r1 and r3 bind; y (r1, r3) solves
+    # 2 y1 + 3 y3 = 5 and y1 + 2 y3 = 3, so y1 = 1, y3 = 1; r2 slack, y2 = 0.
+    m = model_from_text(KNOWN[0][1])
+    r = exactlp.solve(m)
+    assert dict(r.primal) == {"x1": F(2), "x2": F(0), "x3": F(1)}
+    assert dict(r.duals) == {"r1": F(1), "r2": F(0), "r3": F(1)}
+    assert dict(r.reduced_costs) == {"x1": F(0), "x2": F(-3), "x3": F(0)}
+
+
+def test_limits_are_reported_as_such():
+    m = model_from_text(klee_minty(6))
+    r = exactlp.solve(m, pricing="dantzig", iteration_limit=5)
+    assert r.status is Status.ITERATION_LIMIT and r.iterations == 5
+    assert r.objective is None and dict(r.primal) == {}
+    r = exactlp.solve(m, time_limit=0)
+    assert r.status is Status.TIME_LIMIT
+
+
+@pytest.mark.parametrize(
+    "options, message",
+    [
+        ({"pricing": "dantsig"}, "pricing: unknown pricing rule 'dantsig' (choose hybrid, bland, dantzig) (did you mean 'dantzig'?)"),
+        ({"iteration_limit": -1}, "iteration_limit: must be a whole number >= 0, not -1"),
+        ({"time_limit": "soon"}, "time_limit: must be a number of seconds >= 0, not 'soon'"),
+    ],
+)
+def test_bad_options_name_the_field(options, message):
+    m = model_from_text(KNOWN[0][1])
+    with pytest.raises(exactlp.InputError) as exc:
+        exactlp.solve(m, **options)
+    assert str(exc.value) == message
+
+
+def test_result_is_frozen_and_versioned():
+    import dataclasses
+
+    r = exactlp.solve(model_from_text(KNOWN[0][1]))
+    assert r.version == 1
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        r.status = Status.INFEASIBLE  # type: ignore[misc]
+    with pytest.raises(TypeError):
+        r.primal["x1"] = F(9)  # type: ignore[index]
+
+
+def test_infeasible_farkas_multipliers_by_hand():
+    m = model_from_text(KNOWN[3][1])
+    r = exactlp.solve(m)
+    # 1 * (x + y >= 6) plus -1 * (x <= 3) plus -1 * (y <= 2) gives 0 >= 1
+    assert dict(r.farkas_rows) == {"need": F(1)}
+    assert dict(r.farkas_bounds) == {"x": F(-1), "y": F(-1)}
