@@ -9,6 +9,7 @@ never renamed)::
     model:        {name: ..., fingerprint: sha256:...}
     sense:        maximize | minimize
     status:       optimal | infeasible | unbounded
+    notice:       the caution that goes with every report (not part of the proof)
     objective:    the exact optimum, model sense, constant included  (optimal)
     primal:       variable -> value             (optimal; unbounded: a feasible point)
     activities:   constraint -> a_i x at primal (optimal, unbounded)
@@ -44,6 +45,14 @@ from .numbers import format_number
 
 CERTIFICATE_FORMAT = "exactlp-certificate/1"
 
+#: the caution every report carries (README, "Cautions")
+NOTICE = (
+    "This proves the stated outcome of the model as written (identified by its fingerprint); "
+    "it does not show that the model states the agreed rules or that its data are right. "
+    "Where it informs legal, regulatory or contractual decisions, local rules and qualified "
+    "review take precedence."
+)
+
 
 def _n(v: Fraction) -> str:
     return format_number(v)
@@ -61,6 +70,7 @@ def build_certificate(model: Model, result) -> dict[str, Any]:
         "model": {"name": model.name, "fingerprint": model.fingerprint},
         "sense": model.sense.value,
         "status": result.status.value,
+        "notice": NOTICE,
     }
     if result.status is Status.OPTIMAL:
         cert["objective"] = _n(result.objective)

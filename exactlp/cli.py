@@ -144,8 +144,10 @@ def import_(
         if again.fingerprint != m.fingerprint:  # pragma: no cover - a writer bug
             raise RuntimeError("the written YAML does not reproduce the model")
         write_atomic(output, text, protect=(source,))
-        _console().print(f"wrote {output}: {len(m.variables)} variables, {len(m.constraints)} constraints, "
-                         f"{m.fingerprint}", highlight=False, soft_wrap=True)
+        from rich.text import Text
+
+        _console().print(Text(f"wrote {output}: {len(m.variables)} variables, {len(m.constraints)} "
+                              f"constraints, {m.fingerprint}"), soft_wrap=True)
 
 
 def _result_json(model, result, cert, cert_path, log_path, digits):
@@ -161,7 +163,8 @@ def _result_json(model, result, cert, cert_path, log_path, digits):
         "log": log_path,
     }
     if cert is not None:
-        for k in ("objective", "primal", "activities", "duals", "reduced_costs", "farkas", "ray", "ray_objective"):
+        for k in ("objective", "primal", "activities", "duals", "reduced_costs", "farkas", "crossed_bounds",
+                  "ray", "ray_objective", "notice"):
             if k in cert:
                 doc[k] = cert[k]
         doc["verified"] = True
@@ -288,7 +291,7 @@ def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, ti
         from .render import solve_report
 
         solve_report(_console(), m, result, digits=digits, certificate=certificate if cert else None,
-                     verified=verified, log=log)
+                     verified=verified, log=log, cert=cert)
     if not result.status.is_proven:
         raise typer.Exit(EXIT_LIMIT)
 

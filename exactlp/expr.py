@@ -6,7 +6,8 @@ as code.  The grammar::
     formula  := expr ( cmp expr ){1,2}
     cmp      := "<=" | ">=" | "==" | "="
     expr     := sign* term ( ("+" | "-") sign* term )*
-    term     := NUMBER ["*"] NAME | NAME | NUMBER
+    term     := coef ["*"] NAME | NAME | coef
+    coef     := NUMBER ( "*" NUMBER )*           (a product of numbers: 0.35 * 12 x)
     NAME     := [A-Za-z_][A-Za-z0-9_.]*
     NUMBER   := see exactlp.numbers (``3``, ``0.25``, ``5/2``, ``1.5e-3``)
 
@@ -145,9 +146,12 @@ class _Parser:
                 self.advance()
                 coef = sign * self.number(tok)
                 star = False
-                if self.tok.kind == "op" and self.tok.text == "*":
+                while self.tok.kind == "op" and self.tok.text == "*":
                     self.advance()
                     star = True
+                    if self.tok.kind == "number":
+                        coef *= self.number(self.advance())
+                        star = False
                 if self.tok.kind == "name":
                     name = self.advance().text
                     terms[name] = terms.get(name, Fraction(0)) + coef

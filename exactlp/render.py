@@ -21,6 +21,11 @@ from .numbers import format_decimal, format_number
 BOX = box.SIMPLE_HEAD
 
 
+def add_row(table: Table, *cells: str) -> None:
+    """Add a row of plain text: names and notes are never read as rich markup."""
+    table.add_row(*(Text(c) for c in cells))
+
+
 def n(v: Fraction | None, inf: str = "") -> str:
     return inf if v is None else format_number(v)
 
@@ -105,21 +110,29 @@ def show_model(console: Console, model: Model) -> None:
     for h in ("variable", "lower", "upper", "unit", "note"):
         t.add_column(h, justify="right" if h in ("lower", "upper") else "left")
     for v in model.variables:
-        t.add_row(v.name, lo(v.lower), hi(v.upper), v.unit or "", v.note or "")
+        add_row(t, v.name, lo(v.lower), hi(v.upper), v.unit or "", v.note or "")
     console.print(t)
     t = Table(title="Constraints", box=BOX, title_justify="left")
     t.add_column("constraint")
     t.add_column("rule")
     for c in model.constraints:
-        t.add_row(c.name, row_formula(c))
+        add_row(t, c.name, row_formula(c))
     if model.constraints:
         console.print(t)
     else:
         console.print(Text("Constraints: none"))
 
 
+CAUTION = ("Caution: this is the proven outcome of the model as written, not proof that the model "
+           "states the agreed rules; decisions under legal or regulatory rules need qualified review.")
+
+
+def caution(console: Console) -> None:
+    console.print(Text(CAUTION), soft_wrap=True)
+
+
 def solve_report(console: Console, model: Model, result, *, digits: int, certificate: str | None,
-                 verified: bool | None, log: str | None) -> None:
+                 verified: bool | None, log: str | None, cert: dict | None = None) -> None:
     from .solver.result import Status
 
     st = result.status
@@ -170,7 +183,7 @@ def solve_report(console: Console, model: Model, result, *, digits: int, certifi
                 row += [format_number(result.reduced_costs[v.name]), pos]
             else:
                 row += [format_number(result.ray.get(v.name, Fraction(0)))]
-            t.add_row(*row)
+            add_row(t, *row)
         console.print(t)
         if model.constraints:
             t = Table(title="Constraints", box=BOX, title_justify="left")
@@ -185,7 +198,7 @@ def solve_report(console: Console, model: Model, result, *, digits: int, certifi
                 if st is Status.OPTIMAL:
                     tight = (c.lower is not None and a == c.lower) or (c.upper is not None and a == c.upper)
                     row += [format_number(result.duals[c.name]), "binding" if tight else "slack"]
-                t.add_row(*row)
+                add_row(t, *row)
             console.print(t)
     if st is Status.INFEASIBLE and result.crossed is not None:
         kind, name = result.crossed
@@ -198,11 +211,16 @@ def solve_report(console: Console, model: Model, result, *, digits: int, certifi
         t.add_column("rule")
         by_name = {c.name: c for c in model.constraints}
         for name, y in result.farkas_rows.items():
-            t.add_row(name, format_number(y), row_formula(by_name[name]))
+            add_row(t, name, format_number(y), row_formula(by_name[name]))
         for name, mu in result.farkas_bounds.items():
             v = model.variable(name)
-            t.add_row(f"bound of {name}", format_number(mu), f"{lo(v.lower)} <= {name} <= {hi(v.upper)}")
+            add_row(t, f"bound of {name}", format_number(mu), f"{lo(v.lower)} <= {name} <= {hi(v.upper)}")
         console.print(t)
+        if cert is not None:
+            console.print(Text(f"Adding these rules with these weights gives 0 >= {cert['farkas']['rhs']}, "
+                               "which no allocation can satisfy."), soft_wrap=True)
+    if st.is_proven:
+        caution(console)
 
 
 def verify_report(console: Console, verification, model_path: str, cert_path: str) -> None:
@@ -211,6 +229,7 @@ def verify_report(console: Console, verification, model_path: str, cert_path: st
         console.print(Text(f"{mark}  {c.name}: {c.detail}"), soft_wrap=True)
     if verification.valid:
         console.print(Text(f"valid: {cert_path} proves that {model_path} is {verification.status}"), soft_wrap=True)
+        caution(console)
     else:
         console.print(Text(f"invalid: {cert_path} does not prove its claim for {model_path}"), soft_wrap=True)
 
@@ -233,7 +252,7 @@ def trace_report(console: Console, records: list[dict], pivot: int | None) -> No
             leaving = r.get("leaving")
             lv = "bound flip" if not isinstance(leaving, dict) else f"{leaving['name']} -> {r.get('leaving_bound')}"
             ent = r["entering"]["name"] + (" ↑" if r.get("direction") == "increase" else " ↓")
-            t.add_row(str(r["iteration"]), str(r["phase"]), ent, lv, r.get("ratio") or "", r["step"],
+            add_row(t, str(r["iteration"]), str(r["phase"]), ent, lv, r.get("ratio") or "", r["step"],
                       r["objective"], r["rule"] + (" (degenerate)" if r.get("degenerate") else ""))
         console.print(t)
     else:
@@ -255,8 +274,8 @@ def trace_report(console: Console, records: list[dict], pivot: int | None) -> No
             for c in tab["columns"]:
                 t.add_column(c[0] + ("'" if c[1] == "slack" else "*" if c[1] == "artificial" else ""), justify="right")
             for b, val, row in zip(tab["basis"], tab["values"], tab["rows"]):
-                t.add_row(b[0], val, *row)
-            t.add_row("reduced cost", "", *[v if v is not None else "" for v in tab["reduced_costs"]])
+                add_row(t, b[0], val, *row)
+            add_row(t, "reduced cost", "", *[v if v is not None else "" for v in tab["reduced_costs"]])
             console.print(t)
             console.print(Text("(' marks a constraint's slack column, * an artificial one)"))
         elif tab:

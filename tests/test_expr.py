@@ -27,6 +27,12 @@ def test_star_and_signs():
     assert e.terms == (("x", F(-1)), ("y", F(2)), ("z", F(3)))
 
 
+def test_products_of_numbers():
+    e = parse_expression("0.35 * 12 a - 2 * 3 * b + 0.04 * 420")
+    assert e.terms == (("a", F(21, 5)), ("b", F(-6)))
+    assert e.constant == F(84, 5)
+
+
 def test_dotted_names():
     assert parse_expression("2 X.1 + a_b.c").terms == (("X.1", F(2)), ("a_b.c", F(1)))
 
