@@ -1,0 +1,200 @@
+"""The command line (issue 5): every command and exit code, pinned width, no colour."""
+
+import json
+import os
+
+import pytest
+
+import exactlp
+
+from .conftest import CASES
+
+DROUGHT = str(CASES / "drought.yaml")
+INFEASIBLE = str(CASES / "grants_overcommitted.yaml")
+UNBOUNDED = str(CASES / "pipeline_forgotten_cap.yaml")
+
+
+def lines(text):
+    return [line.rstrip() for line in text.splitlines()]
+
+
+def test_version(cli):
+    assert cli("--version") == (0, f"exactlp {exactlp.__version__}\n", "")
+
+
+def test_help_lists_the_commands(cli):
+    code, out, _ = cli("--help")
+    assert code == 0
+    for name in ("solve", "verify", "check", "show", "trace", "import"):
+        assert name in out
+
+
+@pytest.mark.parametrize("command", ["solve", "verify", "check", "show", "trace", "import"])
+def test_every_command_has_help_with_an_example(cli, command):
+    code, out, _ = cli(command, "--help")
+    assert code == 0 and "Example" in out
+
+
+def test_check(cli):
+    code, out, err = cli("check", DROUGHT)
+    m = exactlp.load(DROUGHT)
+    assert (code, err) == (0, "")
+    assert lines(out) == [
+        f"model        {DROUGHT} is valid",
+        "name         Lower valley drought allocation",
+        "objective    maximize, 3 terms",
+        "variables    4 (0 free, 0 fixed)",
+        "constraints  4 (0 equalities, 0 ranged)",
+        "nonzeros     12",
+        f"fingerprint  {m.fingerprint}",
+    ]
+
+
+def test_show(cli):
+    code, out, _ = cli("show", DROUGHT)
+    assert code == 0
+    out = lines(out)
+    assert out[0] == "Model: Lower valley drought allocation"
+    assert "Objective: maximize 41/2 orchard + 17 pasture + 23 town" in out
+    assert any(line.split() == ["orchard", "120", "900", "ML", "western", "district,", "tree", "crops"] for line in out)
+    assert any(line.split()[:2] == ["west_canal", "orchard"] and line.endswith("<= 2101/2") for line in out)
+
+
+def test_solve_optimal_report(cli, tmp_path):
+    cert, log = tmp_path / "c.yaml", tmp_path / "l.jsonl"
+    code, out, err = cli("solve", DROUGHT, "-c", cert, "-l", log)
+    assert (code, err) == (0, "")
+    out = lines(out)
+    assert out[1] == "outcome      optimal: proven by primal and dual feasibility with a zero gap"
+    assert out[2] == "objective    257335/8"
+    assert out[3] == "             ≈ 32166.875  (decimal rendering to 12 digits)"
+    assert out[5] == "check        the certificate passed the independent verifier"
+    assert any(line.split() == ["town", "[ML]", "640", "350", "640", "6", "at", "upper"] for line in out)
+    assert any(line.split() == ["release_cap", "1800", "-inf", "1800", "743/40", "binding"] for line in out)
+    assert out[-1].startswith("Caution: this is the proven outcome of the model as written")
+    assert cert.exists() and log.exists() and not (tmp_path / "l.jsonl.partial").exists()
+
+
+def test_solve_json(cli):
+    code, out, _ = cli("solve", DROUGHT, "--json")
+    doc = json.loads(out)
+    assert code == 0
+    assert doc["status"] == "optimal" and doc["objective"] == "257335/8" and doc["verified"] is True
+    assert doc["objective_decimal"] == "32166.875"
+    assert doc["primal"]["town"] == "640" and doc["duals"]["release_cap"] == "743/40"
+
+
+def test_solve_infeasible_names_the_clash(cli):
+    code, out, _ = cli("solve", INFEASIBLE)
+    assert code == 0  # a proven outcome
+    out = lines(out)
+    assert out[1] == "outcome  infeasible: proven by a Farkas combination of the constraints"
+    assert any(line.split()[:2] == ["fund", "-1"] for line in out)
+    assert "Adding these rules with these weights gives 0 >= 1, which no allocation can satisfy." in out
+
+
+def test_solve_unbounded_shows_the_ray(cli):
+    code, out, _ = cli("solve", UNBOUNDED)
+    assert code == 0
+    out = lines(out)
+    assert out[1] == "outcome  unbounded: proven by a feasible point and an improving ray"
+    assert any(line.split() == ["swap", "[kcm/d]", "0", "0", "inf", "1"] for line in out)
+
+
+def test_limit_exit_3_and_no_certificate(cli, tmp_path):
+    cert = tmp_path / "c.yaml"
+    cert.write_text("an earlier good certificate\n")
+    code, out, _ = cli("solve", CASES / "generated" / "water_network.yaml", "--iteration-limit", "3", "-c", cert)
+    assert code == 3
+    assert "stopped: iteration limit reached; nothing is proven" in out
+    assert cert.read_text() == "an earlier good certificate\n"  # untouched
+
+
+def test_pricing_choice_and_bad_pricing(cli):
+    code, out, _ = cli("solve", DROUGHT, "--pricing", "bland")
+    assert code == 0 and ["objective", "257335/8"] in [line.split() for line in lines(out)]
+    code, out, err = cli("solve", DROUGHT, "--pricing", "fastest")
+    assert (code, out) == (2, "")
+    assert err == "exactlp: pricing: unknown pricing rule 'fastest' (choose hybrid, bland, dantzig)\n"
+
+
+def test_refuses_to_write_over_the_model(cli, tmp_path):
+    model = tmp_path / "m.yaml"
+    model.write_text(open(DROUGHT).read())
+    code, _, err = cli("solve", model, "-c", model)
+    assert code == 2 and err == f"exactlp: {model}: refusing to write over the model file\n"
+    assert model.read_text() == open(DROUGHT).read()
+
+
+def test_verify_valid_invalid_unusable(cli, tmp_path):
+    cert = tmp_path / "c.yaml"
+    assert cli("solve", DROUGHT, "-c", cert)[0] == 0
+    code, out, _ = cli("verify", DROUGHT, cert)
+    assert code == 0
+    assert lines(out)[:2] == [
+        f"pass  model fingerprint: {exactlp.load(DROUGHT).fingerprint}",
+        "pass  primal feasibility: 4 bounds and 4 constraints hold exactly",
+    ]
+    assert f"valid: {cert} proves that {DROUGHT} is optimal" in lines(out)
+    bad = tmp_path / "bad.yaml"
+    bad.write_text(cert.read_text().replace('town: "640"', 'town: "639"'))
+    code, out, _ = cli("verify", DROUGHT, bad)
+    assert code == 1
+    assert "FAIL  certificate: activities.release_cap: stated 1800, but A x gives 1799" in lines(out)
+    assert f"invalid: {bad} does not prove its claim for {DROUGHT}" in lines(out)
+    other = CASES / "grants.yaml"
+    code, out, _ = cli("verify", other, cert)
+    assert code == 1
+    assert (f"FAIL  certificate: fingerprint: the certificate is for {exactlp.load(DROUGHT).fingerprint}, "
+            f"the model given is {exactlp.load(other).fingerprint}") in lines(out)
+    junk = tmp_path / "junk.yaml"
+    junk.write_text("- not\n- a certificate\n")
+    code, out, err = cli("verify", DROUGHT, junk)
+    assert (code, out) == (2, "") and err == f"exactlp: {junk}: a certificate must be a mapping\n"
+
+
+def test_verify_json(cli, tmp_path):
+    cert = tmp_path / "c.json"
+    assert cli("solve", INFEASIBLE, "-c", cert, "--certificate-format", "json")[0] == 0
+    code, out, _ = cli("verify", INFEASIBLE, cert, "--json")
+    doc = json.loads(out)
+    assert code == 0 and doc["valid"] is True and doc["status"] == "infeasible"
+    assert [c["name"] for c in doc["checks"]] == ["model fingerprint", "combination", "contradiction"]
+
+
+def test_trace_table_and_one_pivot(cli, tmp_path):
+    log = tmp_path / "l.jsonl"
+    assert cli("solve", DROUGHT, "-l", log, "--tableau")[0] == 0
+    code, out, _ = cli("trace", log)
+    assert code == 0
+    out = lines(out)
+    assert any(line.split()[:4] == ["1", "2", "town", "↑"] and "bound" in line for line in out)
+    assert out[-1] == "closed: optimal, objective 257335/8, pivots 0 + 2, bound flips 1"
+    code, out, _ = cli("trace", log, "--pivot", "2")
+    assert code == 0
+    assert "Pivot 2" in out and "Tableau before the pivot" in out
+    code, out, err = cli("trace", log, "--pivot", "9")
+    assert (code, err) == (2, "exactlp: --pivot: the log has no pivot 9 (it has 3)\n")
+
+
+def test_trace_bad_log(cli, write):
+    p = write("l.jsonl", "not json\n")
+    code, _, err = cli("trace", p)
+    assert code == 2 and err.startswith(f"exactlp: {p}:1:1: not a log record:")
+
+
+def test_internal_error_is_one_line_exit_4(cli, monkeypatch):
+    import exactlp.solver
+
+    def boom(*a, **k):
+        raise ZeroDivisionError("simulated")
+
+    monkeypatch.setattr(exactlp.solver, "solve", boom)
+    code, out, err = cli("solve", DROUGHT)
+    assert code == 4
+    assert err == "exactlp: internal error: ZeroDivisionError: simulated (run again with --debug for the traceback)\n"
+
+
+def test_no_colour_codes_when_piped(cli):
+    _, out, _ = cli("solve", DROUGHT)
+    assert "\x1b[" not in out
