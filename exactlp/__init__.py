@@ -27,7 +27,25 @@ def verify(model, certificate):
     return _verify(model, certificate)
 
 
+_LAZY = {
+    "Status": ("exactlp.solver.result", "Status"),
+    "SolveResult": ("exactlp.solver.result", "SolveResult"),
+    "build_certificate": ("exactlp.certificate", "build_certificate"),
+    "dump_certificate": ("exactlp.certificate", "dump_certificate"),
+    "read_certificate": ("exactlp.certificate", "read_certificate"),
+}
+
+
+def __getattr__(name):
+    if name in _LAZY:
+        import importlib
+
+        module, attr = _LAZY[name]
+        return getattr(importlib.import_module(module), attr)
+    raise AttributeError(f"module 'exactlp' has no attribute {name!r}")
+
+
 __all__ = [
     "__version__", "ExactLPError", "InputError", "ModelError", "load", "solve", "verify",
-    "Model", "Variable", "Constraint", "Sense", "build_model",
+    "Model", "Variable", "Constraint", "Sense", "build_model", *_LAZY,
 ]

@@ -7,6 +7,7 @@ a rendering.
 
 from __future__ import annotations
 
+import json
 import time
 from fractions import Fraction
 
@@ -240,7 +241,8 @@ def trace_report(console: Console, records: list[dict], pivot: int | None) -> No
     kv(console, [
         ("log", f"{header.get('tool', '?')}, {header.get('format', '?')}"),
         ("model", f"{model.get('name') or '(unnamed)'}  {model.get('fingerprint', '')}"),
-        ("settings", ", ".join(f"{k}={v}" for k, v in sorted((header.get("settings") or {}).items()))),
+        ("settings", ", ".join(f"{k}={v if isinstance(v, str) else json.dumps(v)}"
+                               for k, v in sorted((header.get("settings") or {}).items()))),
     ])
     steps = [r for r in records if r.get("record") in ("pivot", "flip")]
     close = next((r for r in records if r.get("record") == "close"), None)
