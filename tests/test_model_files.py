@@ -316,3 +316,12 @@ def test_any_text_gives_a_model_or_our_error(text):
         model_from_text(text)
     except InputError as e:
         assert "\n" not in str(e)
+
+
+def test_file_over_the_size_limit_through_cli(cli, tmp_path):
+    path = tmp_path / "huge.yaml"
+    with open(path, "wb") as fh:  # a sparse file just over the 64 MiB limit
+        fh.truncate(64 * 1024 * 1024 + 1)
+    code, out, err = cli("check", path)
+    assert (code, out) == (2, "")
+    assert err == f"exactlp: {path}: file is larger than the limit of 67108864 bytes\n"
