@@ -20,7 +20,7 @@ from typing import IO
 
 from . import __version__
 from .numbers import format_number
-from .solver.events import Finish, PhaseEnd, Pivot, Start
+from .solver.events import Finish, PhaseEnd, Pivot, Start, WarmStart
 
 LOG_FORMAT = "exactlp-log/1"
 
@@ -45,6 +45,9 @@ def col(ref) -> dict | None:
 
 
 def event_record(ev) -> dict:
+    if isinstance(ev, WarmStart):
+        return {"record": "warm_start", "source": ev.source, "float_status": ev.float_status,
+                "accepted": ev.accepted, "reason": ev.reason}
     if isinstance(ev, Start):
         return {
             "record": "start",

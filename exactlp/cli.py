@@ -178,7 +178,11 @@ def solve(
     model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
     certificate: Optional[str] = typer.Option(None, "-c", "--certificate", help="Write the certificate here."),
     log: Optional[str] = typer.Option(None, "-l", "--log", help="Write the pivot-by-pivot audit log here (JSON Lines)."),
-    pricing: str = typer.Option("hybrid", "--pricing", help="Pricing rule: hybrid (default), bland or dantzig."),
+    pricing: str = typer.Option("guarded", "--pricing", help="Pricing rule: guarded (default), hybrid, bland or dantzig."),
+    warm_start: Optional[bool] = typer.Option(
+        None, "--warm-start/--no-warm-start",
+        help="Start from a basis suggested by a floating-point solver (exactlp[fast] extra); "
+             "re-proven exactly. Default: on for models with 50 rows or more when highspy is installed."),
     iteration_limit: Optional[int] = typer.Option(None, "--iteration-limit", min=0, help="Stop after this many steps (nothing is proven then)."),
     time_limit: Optional[float] = typer.Option(None, "--time-limit", min=0, help="Stop after this many seconds (nothing is proven then)."),
     tableau: bool = typer.Option(False, "--tableau", help="Record the full exact tableau at each pivot in the log (small models)."),
@@ -209,11 +213,11 @@ def solve(
         if certificate is not None and log is not None and same_file(certificate, log):
             raise OutputError(f"{log}: the certificate and the log cannot be the same file")
         _solve_command(m, model, certificate, log, pricing, iteration_limit, time_limit, tableau,
-                       as_json, cert_format, digits, timestamps)
+                       as_json, cert_format, digits, timestamps, warm_start)
 
 
 def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, time_limit, tableau,
-                   as_json, cert_format, digits, timestamps):
+                   as_json, cert_format, digits, timestamps, warm_start=None):
     from .audit import AuditLog
     from .certificate import build_certificate, dump_certificate
     from .io.atomic import write_atomic
@@ -235,7 +239,8 @@ def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, ti
             partial = log + ".partial"
             log_fh = open(partial, "w", encoding="utf-8", newline="\n")
             settings = {"pricing": pricing, "iteration_limit": iteration_limit,
-                        "time_limit": None if time_limit is None else str(time_limit), "tableau": tableau}
+                        "time_limit": None if time_limit is None else str(time_limit), "tableau": tableau,
+                        "warm_start": "auto" if warm_start is None else ("on" if warm_start else "off")}
             listeners.append(AuditLog(log_fh, m, settings, timestamps=timestamps))
         status_line = None
         err_console = _console(stderr=True)
@@ -252,7 +257,7 @@ def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, ti
         def run():
             return run_solve(m, pricing=pricing, iteration_limit=iteration_limit, time_limit=time_limit,
                              listener=listener if listeners else None, tableau=tableau,
-                             should_stop=lambda: stop["signal"] is not None)
+                             should_stop=lambda: stop["signal"] is not None, warm_start=warm_start)
 
         if status_line is not None:
             with status_line:

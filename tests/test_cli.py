@@ -104,7 +104,7 @@ def test_solve_unbounded_shows_the_ray(cli):
 def test_limit_exit_3_and_no_certificate(cli, tmp_path):
     cert = tmp_path / "c.yaml"
     cert.write_text("an earlier good certificate\n")
-    code, out, _ = cli("solve", CASES / "generated" / "water_network.yaml", "--iteration-limit", "3", "-c", cert)
+    code, out, _ = cli("solve", CASES / "generated" / "water_network.yaml", "--iteration-limit", "3", "--no-warm-start", "-c", cert)
     assert code == 3
     assert "stopped: iteration limit reached; nothing is proven" in out
     assert cert.read_text() == "an earlier good certificate\n"  # untouched
@@ -115,7 +115,7 @@ def test_pricing_choice_and_bad_pricing(cli):
     assert code == 0 and ["objective", "257335/8"] in [line.split() for line in lines(out)]
     code, out, err = cli("solve", DROUGHT, "--pricing", "fastest")
     assert (code, out) == (2, "")
-    assert err == "exactlp: pricing: unknown pricing rule 'fastest' (choose hybrid, bland, dantzig)\n"
+    assert err == "exactlp: pricing: unknown pricing rule 'fastest' (choose guarded, hybrid, bland, dantzig)\n"
 
 
 def test_refuses_to_write_over_the_model(cli, tmp_path):

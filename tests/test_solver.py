@@ -102,7 +102,7 @@ def test_limits_are_reported_as_such():
 @pytest.mark.parametrize(
     "options, message",
     [
-        ({"pricing": "dantsig"}, "pricing: unknown pricing rule 'dantsig' (choose hybrid, bland, dantzig) (did you mean 'dantzig'?)"),
+        ({"pricing": "dantsig"}, "pricing: unknown pricing rule 'dantsig' (choose guarded, hybrid, bland, dantzig) (did you mean 'dantzig'?)"),
         ({"iteration_limit": -1}, "iteration_limit: must be a whole number >= 0, not -1"),
         ({"time_limit": "soon"}, "time_limit: must be a number of seconds >= 0, not 'soon'"),
     ],

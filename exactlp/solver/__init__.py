@@ -38,12 +38,13 @@ def _check_options(pricing, iteration_limit, time_limit) -> None:
 def solve(
     model: Model,
     *,
-    pricing: str = "hybrid",
+    pricing: str = "guarded",
     iteration_limit: int | None = None,
     time_limit: float | None = None,
     listener=None,
     tableau: bool = False,
     should_stop=None,
+    warm_start: bool | None = None,
 ) -> SolveResult:
     """Solve ``model`` exactly.
 
@@ -51,6 +52,13 @@ def solve(
     ``should_stop`` is polled once per iteration (for interruption).
     The time limit is the one float here: it bounds wall-clock time and
     never touches a number of the model.
+
+    ``warm_start``: ``True`` asks a floating-point solver (highspy, the
+    ``exactlp[fast]`` extra) for a starting basis, ``False`` never does, and
+    ``None`` (the default) does so when highspy is installed and the model has
+    at least ``exactlp.floatlp.WARM_START_MIN_ROWS`` rows.  The suggestion is
+    re-proven exactly (see :meth:`Simplex._setup_warm`); the certificate never
+    depends on it.
     """
     _check_options(pricing, iteration_limit, time_limit)
     started = time.monotonic()
@@ -64,6 +72,22 @@ def solve(
                 return SolveResult(status=Status.INFEASIBLE, crossed=(kind, item.name),
                                    seconds=time.monotonic() - started, pricing=pricing)
     form = build_form(model)
+    hint = None
+    use_warm = warm_start
+    if use_warm is None:
+        from ..floatlp import WARM_START_MIN_ROWS, highs_available
+
+        use_warm = len(model.constraints) >= WARM_START_MIN_ROWS and highs_available()
+    elif use_warm:
+        from ..floatlp import highs_available
+
+        if not highs_available():
+            raise InputError("the warm start needs highspy: install the exactlp[fast] extra", field="warm_start")
+    if use_warm and form.m:
+        from ..floatlp import highs_basis
+
+        left = None if time_limit is None else max(time_limit - (time.monotonic() - started), 0.0)
+        hint = highs_basis(model, left)
     sx = Simplex(
         form,
         pricing=pricing,
@@ -72,7 +96,10 @@ def solve(
         listener=listener,
         tableau=tableau,
         should_stop=should_stop,
+        hint=hint,
     )
+    if time_limit is not None:
+        sx.time_limit = max(time_limit - (time.monotonic() - started), 0.0)
     out = sx.run()
     n, m, sign = form.n, form.m, form.sign
     vnames = [v.name for v in model.variables]
@@ -84,6 +111,8 @@ def solve(
         pivots_phase2=sx.pivots[2],
         bound_flips=sx.flips,
         pricing=pricing,
+        warm_start=("off" if sx.warm is None else
+                    ("accepted: " if sx.warm.accepted else "rejected: ") + sx.warm.reason),
     )
     status = Status(out.status)
     extra: dict = {}

@@ -33,6 +33,8 @@ class EtaBasis:
         self.signs = list(signs)  # B0 diagonal
         self.etas: list[tuple[int, mpq, list[tuple[int, mpq]]]] = []  # (p, w_p, other entries)
         self.eta_nonzeros = 0
+        #: etas added by pivots since the file was last built (reinversion's own do not count)
+        self.updates = 0
 
     # -- solves --------------------------------------------------------
     def ftran(self, col: list[tuple[int, mpq]]) -> dict[int, mpq]:
@@ -74,6 +76,7 @@ class EtaBasis:
         rest = [(i, wi) for i, wi in sorted(w.items()) if i != p]
         self.etas.append((p, wp, rest))
         self.eta_nonzeros += len(rest) + 1
+        self.updates += 1
 
 
 def reinvert(
@@ -118,4 +121,5 @@ def reinvert(
         basis.replace(best, w)
         free[best] = False
         new_head[best] = c
+    basis.updates = 0
     return basis, new_head

@@ -13,6 +13,16 @@ from fractions import Fraction
 
 
 @dataclass(frozen=True)
+class WarmStart:
+    """A basis suggested by a floating-point solver, and what the exact check made of it."""
+
+    source: str  # e.g. "highs"
+    float_status: str  # what the float solver said (information only)
+    accepted: bool
+    reason: str  # why it was accepted or rejected, in words
+
+
+@dataclass(frozen=True)
 class Start:
     artificial_rows: tuple[str, ...]  # constraints that needed an artificial column
     basis: tuple[tuple[str, str], ...]  # (label, kind) by position

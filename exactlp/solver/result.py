@@ -60,7 +60,9 @@ class SolveResult:
     pivots_phase2: int = 0
     bound_flips: int = 0
     seconds: float = 0.0
-    pricing: str = "hybrid"
+    pricing: str = "guarded"
+    #: "off", or what became of a floating-point basis suggestion
+    warm_start: str = "off"
     version: int = RESULT_VERSION
 
     @property

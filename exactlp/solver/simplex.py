@@ -61,7 +61,7 @@ from dataclasses import dataclass
 from gmpy2 import mpq
 
 from .basis import EtaBasis, reinvert
-from .events import Finish, PhaseEnd, Pivot, Start
+from .events import Finish, PhaseEnd, Pivot, Start, WarmStart
 from .form import Form, frac
 
 ZERO = mpq(0)
@@ -69,7 +69,27 @@ ONE = mpq(1)
 
 BASIC, AT_LOWER, AT_UPPER, AT_ZERO = 0, 1, 2, 3
 
-PRICING_RULES = ("hybrid", "bland", "dantzig")
+PRICING_RULES = ("guarded", "hybrid", "bland", "dantzig")
+#: under the guarded rule, Bland's rule takes over after this many degenerate
+#: pivots in one run (times the number of rows): a last resort, never needed in tests
+GUARD_RUN_FACTOR = 50
+
+
+def _lex_less(a: list[tuple[int, mpq]], b: list[tuple[int, mpq]]) -> bool:
+    """Compare two sparse vectors (sorted (rank, value) pairs) lexicographically."""
+    i = j = 0
+    while i < len(a) or j < len(b):
+        ka = a[i][0] if i < len(a) else None
+        kb = b[j][0] if j < len(b) else None
+        if ka is not None and (kb is None or ka < kb):
+            return a[i][1] < 0  # b has 0 here
+        if kb is not None and (ka is None or kb < ka):
+            return b[j][1] > 0
+        if a[i][1] != b[j][1]:
+            return a[i][1] < b[j][1]
+        i += 1
+        j += 1
+    return False
 #: rebuild the eta file after this many updates
 REINVERT_EVERY = 64
 #: largest model (rows x columns) for which the full tableau can be recorded
@@ -89,12 +109,13 @@ class Simplex:
         self,
         form: Form,
         *,
-        pricing: str = "hybrid",
+        pricing: str = "guarded",
         iteration_limit: int | None = None,
         time_limit: float | None = None,
         listener=None,
         tableau: bool = False,
         should_stop=None,
+        hint=None,
     ) -> None:
         if pricing not in PRICING_RULES:
             raise ValueError(pricing)
@@ -116,7 +137,65 @@ class Simplex:
         self.flips = 0
         self.started = time.monotonic()
         self.artificials: list[int] = []
+        self.warm: WarmStart | None = None
+        if hint is not None:
+            reason = self._setup_warm(hint)
+            self.warm = WarmStart(hint.source, hint.float_status, reason is None,
+                                  reason or "the suggested basis is exactly primal feasible")
+            if reason is None:
+                return
         self._setup()
+
+    def _setup_warm(self, hint) -> str | None:
+        """Start from a suggested basis; return why it was rejected, or None.
+
+        The suggestion only names columns: the basis is factored exactly here,
+        the basic values are recomputed from ``B x_B = -N x_N``, and the start
+        is taken only if every basic value lies within its bounds exactly.
+        Dual feasibility is not assumed: phase 2 prices from this basis and
+        pivots on if any reduced cost still has the wrong sign.
+        """
+        f, m = self.f, self.m
+        ncol = f.ncols
+        basic = set(hint.basic)
+        if len(basic) != m or any(not 0 <= j < ncol for j in basic):
+            return "the suggested basis does not have one column per row"
+        x = [ZERO] * ncol
+        state = [BASIC] * ncol
+        for j in range(ncol):
+            if j in basic:
+                continue
+            lo, hi = self.lower[j], self.upper[j]
+            if j in hint.at_upper and hi is not None and lo != hi:
+                x[j], state[j] = hi, AT_UPPER
+            elif lo is not None:
+                x[j], state[j] = lo, AT_LOWER
+            elif hi is not None:
+                x[j], state[j] = hi, AT_UPPER
+            else:
+                x[j], state[j] = ZERO, AT_ZERO
+        unit_row = {f.n + i: (i, -1) for i in range(m)}
+        try:
+            basis, head = reinvert(m, sorted(basic), self.cols, unit_row)
+        except ArithmeticError:
+            return "the suggested basis is singular"
+        rhs: dict[int, mpq] = {}
+        for j in range(ncol):
+            if state[j] != BASIC and x[j]:
+                for i, a in self.cols[j]:
+                    rhs[i] = rhs.get(i, ZERO) - a * x[j]
+        xb = basis.ftran([(i, v) for i, v in sorted(rhs.items()) if v])
+        for p, c in enumerate(head):
+            v = xb.get(p, ZERO)
+            lo, hi = self.lower[c], self.upper[c]
+            if (lo is not None and v < lo) or (hi is not None and v > hi):
+                return f"not primal feasible in exact arithmetic ({self.kinds[c]} {self.labels[c]!r} = {frac(v)})"
+            x[c] = v
+        self.x, self.state, self.head, self.basis, self.unit_row = x, state, head, basis, unit_row
+        self.pos_of = [-1] * ncol
+        for p, c in enumerate(head):
+            self.pos_of[c] = p
+        return None
 
     # ------------------------------------------------------------------
     def _setup(self) -> None:
@@ -179,6 +258,8 @@ class Simplex:
     def run(self) -> Outcome:
         ncol = len(self.cols)
         phase = 1 if self.artificials else 2
+        if self.listener and self.warm is not None:
+            self.listener(self.warm)
         if self.listener:
             at_up = tuple(self.ref(j) for j in range(ncol) if self.state[j] == AT_UPPER)
             z0 = sum((self.x[a] for a in self.artificials), ZERO) if phase == 1 else self._z(self.f.cost + [ZERO] * (ncol - self.f.ncols))
@@ -252,11 +333,15 @@ class Simplex:
             return 1 if d < 0 else (-1 if d > 0 else 0)
         return 0
 
-    def _ratio(self, q: int, direction: int, alpha: dict[int, mpq]):
-        """Return (t, leaving column or None for a flip or unbounded, bound hit)."""
+    def _ratio(self, q: int, direction: int, alpha: dict[int, mpq], rank: list[int] | None = None):
+        """Return (t, leaving column or None for a flip or unbounded, bound hit).
+
+        Ties in the smallest ratio go to the lowest column index, or, when
+        ``rank`` is given (a degenerate run under the guarded rule), to the
+        lexicographically smallest perturbed ratio (:meth:`_lex_choice`).
+        """
         best_t = None
-        best_b = -1
-        best_bound = None
+        ties: list[tuple[int, int, str]] = []  # (column, position, bound)
         x, lower, upper, head = self.x, self.lower, self.upper, self.head
         for p, a in alpha.items():
             rate = -a if direction > 0 else a  # d x_b / d t
@@ -273,19 +358,99 @@ class Simplex:
                     continue
                 t = (hi - x[b]) / rate
                 bound = "upper"
-            if best_t is None or t < best_t or (t == best_t and b < best_b):
-                best_t, best_b, best_bound = t, b, bound
+            if best_t is None or t < best_t:
+                best_t, ties = t, [(b, p, bound)]
+            elif t == best_t:
+                ties.append((b, p, bound))
         lo, hi = lower[q], upper[q]
-        if lo is not None and hi is not None:
-            span = hi - lo
-            if best_t is None or span <= best_t:
-                return span, None, ("upper" if direction > 0 else "lower")
+        flip_bound = "upper" if direction > 0 else "lower"
+        flip = lo is not None and hi is not None and (best_t is None or hi - lo <= best_t)
+        if flip and (best_t is None or hi - lo < best_t):
+            return hi - lo, None, flip_bound
         if best_t is None:
             return None, None, None
-        return best_t, best_b, best_bound
+        if rank is not None and (len(ties) > 1 or flip):
+            choice = self._lex_choice(q, direction, alpha, ties, flip, rank)
+            if choice is None:
+                return best_t, None, flip_bound
+            return best_t, choice[0], choice[2]
+        if flip:  # a flip changes no basis: preferred on a tie
+            return best_t, None, flip_bound
+        b, _, bound = min(ties)
+        return best_t, b, bound
+
+    def _lex_choice(self, q, direction, alpha, ties, flip, rank):
+        """Break a ratio tie by the perturbed problem of the current degenerate run.
+
+        Each bound is widened by its own infinitesimal, ``l_j - e_j`` and
+        ``u_j + e_j``, with ``e_i >> e_j`` when ``rank[i] < rank[j]``; the
+        columns basic when the run began rank first, so that basis is
+        feasible for the perturbed problem (each basic value's own ``e_b``
+        dominates the others in it).  The perturbed ratios of the tied rows
+        differ, and taking the smallest keeps every basic value strictly
+        inside its widened bounds: every pivot then makes a positive step in
+        the perturbed problem, its objective strictly falls, and no basis can
+        come back within the run, whichever improving column enters.
+
+        In the perturbed problem ``x_B = -B^-1 sum_N a_j x_j`` with
+        ``x_j = l_j - e_j`` (lower) or ``u_j + e_j`` (upper), so the ``e_j``
+        part of basic ``x_b`` is ``-s_j (rho_b . a_j)``, ``rho_b`` the row of
+        ``B^-1`` at b's position and ``s_j = -1`` at lower, ``+1`` at upper.
+        Returns the winning tie ``(column, position, bound)``, or None for
+        the entering column's own bound flip.
+
+        The comparison is lazy: the ranks are walked in order and only the
+        candidates still tied are kept.  At the rank of a basic column only
+        that column's own distance has a term (``+e_b / |rate_b|``), which
+        rules it out; at the rank of a nonbasic column ``j`` one ftran,
+        ``B^-1 a_j``, gives the ``e_j`` term of every candidate at once.
+        """
+        state = self.state
+        # candidate: (column or None for the flip, position, bound, |rate|, sign of distance)
+        alive = [(b, p, bound, abs(alpha[p]), 1 if bound == "lower" else -1) for b, p, bound in ties]
+        if flip:
+            alive.append((None, -1, None, ONE, 0))
+        by_column = {c[0]: c for c in alive if c[0] is not None}
+        for j in self._run_order:
+            if len(alive) == 1:
+                break
+            sj = state[j]
+            if sj == BASIC:
+                if j in by_column and by_column[j] in alive:
+                    alive = [c for c in alive if c[0] != j]  # +e_j / |rate_j| > 0 = the others' 0
+                continue
+            if sj == AT_ZERO:
+                continue  # a free column at zero carries no perturbation
+            w = alpha if j == q else self.basis.ftran(self.cols[j])
+            s_j = -1 if sj == AT_LOWER else 1
+            coefs = []
+            for c in alive:
+                if c[0] is None:
+                    coefs.append(mpq(2) if j == q else ZERO)  # the flip: span + 2 e_q
+                else:
+                    coefs.append(-s_j * w.get(c[1], ZERO) * c[4] / c[3])
+            low = min(coefs)
+            alive = [c for c, v in zip(alive, coefs) if v == low]
+        if any(c[0] is None for c in alive):
+            return None
+        b, p, bound, _, _ = min(alive, key=lambda c: c[0])
+        return b, p, bound
+
+    def _run_rank(self) -> list[int]:
+        """The perturbation order for a new degenerate run: basic columns first."""
+        rank = [0] * len(self.cols)
+        order = list(self.head) + [j for j in range(len(self.cols)) if self.state[j] != BASIC]
+        for r, j in enumerate(order):
+            rank[j] = r
+        self._run_order = order
+        return rank
 
     def _phase(self, phase: int, cost: list[mpq]) -> Outcome:
-        bland_mode = self.pricing == "bland"
+        pricing = self.pricing
+        bland_mode = pricing == "bland"
+        rank: list[int] | None = None  # guarded: the perturbation order of the current degenerate run
+        run_degenerate = 0
+        guard_limit = GUARD_RUN_FACTOR * (self.m + 1)
         f = self.f
         z = self._z(cost)
         while True:
@@ -311,14 +476,23 @@ class Simplex:
                     best, best_abs = j, a
             if first < 0:
                 return Outcome("optimal", z, y)
-            if self.pricing == "dantzig" or (self.pricing == "hybrid" and not bland_mode):
+            if pricing == "dantzig" or (pricing in ("hybrid", "guarded") and not bland_mode):
                 q, rule = best, "dantzig"
             else:
                 q, rule = first, "bland"
             direction = self._eligible(q, d[q])  # type: ignore[arg-type]
             alpha = self.basis.ftran(self.cols[q])
-            t, b, bound = self._ratio(q, direction, alpha)
-            if self.pricing == "hybrid" and rule == "dantzig" and t is not None and t == 0:
+            lex = rank if (pricing == "guarded" and not bland_mode) else None
+            t, b, bound = self._ratio(q, direction, alpha, lex)
+            if pricing == "guarded" and not bland_mode:
+                if t is not None and t == 0 and rank is None:
+                    rank = self._run_rank()  # a degenerate run begins: fix its perturbation
+                    t, b, bound = self._ratio(q, direction, alpha, rank)
+                if rank is not None:
+                    rule = "dantzig (lexicographic ties)"
+            elif pricing == "guarded":
+                rule = "bland (last resort)"
+            if pricing == "hybrid" and rule == "dantzig" and t is not None and t == 0:
                 bland_mode = True
                 if first != q:
                     q = first
@@ -326,7 +500,7 @@ class Simplex:
                     alpha = self.basis.ftran(self.cols[q])
                     t, b, bound = self._ratio(q, direction, alpha)
                 rule = "bland (degenerate run)"
-            elif self.pricing == "hybrid" and rule == "bland":
+            elif pricing == "hybrid" and rule == "bland":
                 rule = "bland (degenerate run)"
             if t is None:
                 ray = {q: mpq(direction)}
@@ -357,10 +531,16 @@ class Simplex:
                 self.pos_of[q] = p
                 self.head[p] = q
                 self.basis.replace(p, alpha)
-                if len(self.basis.etas) >= REINVERT_EVERY:
+                if self.basis.updates >= REINVERT_EVERY:
                     self._reinvert()
-            if t:
-                bland_mode = self.pricing == "bland"
+            if t:  # a positive step ends any degenerate run
+                bland_mode = pricing == "bland"
+                rank = None
+                run_degenerate = 0
+            elif pricing == "guarded":
+                run_degenerate += 1
+                if run_degenerate > guard_limit:
+                    bland_mode = True  # last resort: Bland's rule for the rest of this run
             if self.listener:
                 shown = z if phase == 1 else f.sign * z + f.constant
                 self.listener(Pivot(

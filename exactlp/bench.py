@@ -1,0 +1,185 @@
+"""Benchmark: exact solves of Netlib LP problems beside a floating-point solver.
+
+    python -m exactlp.bench [--list short|small|medium|large|all|NAME,NAME...]
+                            [--netlib DIR] [--time-limit S] [--no-warm-start] [--no-cold]
+
+For each problem it prints one row: rows, columns, nonzeros; for the exact
+solve without the warm start (cold) and with it (warm): seconds, pivots and
+verification seconds; the time of ``scipy.optimize.linprog(method="highs")``
+on the same model in the same run; the ratio warm/float; the exact objective
+rendered to 11 significant digits; and whether it matches the published
+value in ``optimal-values.csv`` (source: the Netlib LP readme) to all of its
+11 digits, reading the csv's notes (E226's constant, SCAGR7's 7th digit).
+
+Timings are wall-clock seconds on whatever machine runs it; the figures in
+DEVELOPERS.md say which machine.
+"""
+
+from __future__ import annotations
+
+import argparse
+import csv
+import os
+import sys
+import time
+from fractions import Fraction
+from pathlib import Path
+
+SHORT = ["AFIRO", "SC50B", "KB2", "ADLITTLE", "BLEND", "SHARE2B"]
+
+
+def default_netlib() -> Path:
+    env = os.environ.get("EXACTLP_NETLIB")
+    if env:
+        return Path(env)
+    here = Path(__file__).resolve().parents[1]
+    return here.parent / "shared" / "netlib"
+
+
+def read_table(netlib: Path) -> list[dict]:
+    with open(netlib / "optimal-values.csv", newline="") as fh:
+        return list(csv.DictReader(fh))
+
+
+def choose(table: list[dict], which: str) -> list[dict]:
+    by_name = {r["name"]: r for r in table}
+    if which == "short":
+        return [by_name[n] for n in SHORT if n in by_name]
+    limits = {"small": 500, "medium": 1000, "large": 10**9, "all": 10**9}
+    if which in limits:
+        rows = [r for r in table if int(r["rows"]) <= limits[which]]
+        if which == "large":
+            rows = [r for r in table if int(r["rows"]) > 1000]
+        return sorted(rows, key=lambda r: int(r["nonzeros"]))
+    names = [n.strip().upper() for n in which.split(",") if n.strip()]
+    missing = [n for n in names if n not in by_name]
+    if missing:
+        raise SystemExit(f"bench: not in optimal-values.csv: {', '.join(missing)}")
+    return [by_name[n] for n in names]
+
+
+def published_match(value: Fraction, row: dict) -> str:
+    """'yes' when the exact value rounds to the published 11 significant digits."""
+    from .numbers import format_decimal, parse_number
+
+    published = parse_number(row["published_optimum"])
+    candidates = [value]
+    note = row.get("note") or ""
+    if row["name"] == "E226" and "constant" in note:
+        # the published value leaves out the objective constant (+7.113): compare both
+        candidates.append(value - Fraction(7113, 1000))
+    for v in candidates:
+        if parse_number(format_decimal(v, 11)) == published:
+            return "yes" if v is value else "yes (note)"
+    if note:
+        rel = abs(value - published) / abs(published) if published else abs(value)
+        if rel <= Fraction(1, 10**6):
+            return "note"
+    return "NO"
+
+
+def float_time(model) -> tuple[float | None, float | None]:
+    try:
+        from scipy.optimize import linprog
+    except ImportError:
+        return None, None
+    from .floatlp import linprog_arguments
+
+    kw, sign = linprog_arguments(model)
+    t = time.perf_counter()
+    r = linprog(**kw)
+    dt = time.perf_counter() - t
+    obj = sign * r.fun + float(model.objective_constant) if r.status == 0 else None
+    return dt, obj
+
+
+def run(rows: list[dict], netlib: Path, time_limit: float | None, cold: bool, warm: bool, out=sys.stdout) -> list[dict]:
+    import exactlp
+    from .certificate import build_certificate
+    from .io import read_mps
+    from .numbers import format_decimal
+
+    header = (f"{'problem':10} {'rows':>5} {'cols':>5} {'nnz':>6} | {'cold s':>8} {'piv':>6} {'ver s':>6} | "
+              f"{'warm s':>7} {'piv':>5} {'ver s':>6} | {'float s':>7} {'ratio':>6} | {'objective':>18} match")
+    print(header, file=out)
+    print("-" * len(header), file=out)
+    results = []
+    for row in rows:
+        model = read_mps(netlib / row["file"])
+        rec = {"name": row["name"], "rows": len(model.constraints), "cols": len(model.variables), "nnz": model.nonzeros}
+        objective = None
+        for mode, on in (("cold", cold), ("warm", warm)):
+            if not on:
+                continue
+            t = time.perf_counter()
+            r = exactlp.solve(model, time_limit=time_limit, warm_start=(mode == "warm"))
+            rec[f"{mode}_s"] = time.perf_counter() - t
+            rec[f"{mode}_pivots"] = r.iterations
+            rec[f"{mode}_status"] = r.status.value
+            if r.status.is_proven:
+                cert = build_certificate(model, r)
+                t = time.perf_counter()
+                ok = exactlp.verify(model, cert).valid
+                rec[f"{mode}_verify_s"] = time.perf_counter() - t
+                if not ok:
+                    raise SystemExit(f"bench: {row['name']}: the certificate failed verification")
+                if objective is not None and r.objective != objective:
+                    raise SystemExit(f"bench: {row['name']}: cold and warm objectives differ")
+                objective = r.objective
+        rec["float_s"], _ = float_time(model)
+        rec["objective"] = objective
+
+        def cell(mode: str) -> str:
+            if f"{mode}_s" not in rec:
+                return f"{'-':>8} {'':>6} {'':>6}" if mode == "cold" else f"{'-':>7} {'':>5} {'':>6}"
+            w = 8 if mode == "cold" else 7
+            pw = 6 if mode == "cold" else 5
+            if rec[f"{mode}_status"] != "optimal" and f"{mode}_verify_s" not in rec:
+                return f"{rec[f'{mode}_status'][:w]:>{w}} {rec[f'{mode}_pivots']:>{pw}} {'':>6}"
+            return f"{rec[f'{mode}_s']:>{w}.3f} {rec[f'{mode}_pivots']:>{pw}} {rec[f'{mode}_verify_s']:>6.3f}"
+
+        fl = rec["float_s"]
+        best = rec.get("warm_s") if "warm_verify_s" in rec else rec.get("cold_s") if "cold_verify_s" in rec else None
+        ratio = f"{best / fl:6.1f}" if (fl and best) else f"{'-':>6}"
+        rec["ratio"] = best / fl if (fl and best) else None
+        obj = format_decimal(objective, 11) if objective is not None else "-"
+        match = published_match(objective, row) if objective is not None else "-"
+        rec["match"] = match
+        fls = f"{fl:7.3f}" if fl is not None else f"{'-':>7}"
+        print(f"{row['name']:10} {rec['rows']:>5} {rec['cols']:>5} {rec['nnz']:>6} | {cell('cold')} | {cell('warm')} | "
+              f"{fls} {ratio} | {obj:>18} {match}", file=out, flush=True)
+        results.append(rec)
+    ratios = sorted(r["ratio"] for r in results if r.get("ratio"))
+    if ratios:
+        med = ratios[len(ratios) // 2] if len(ratios) % 2 else (ratios[len(ratios) // 2 - 1] + ratios[len(ratios) // 2]) / 2
+        print(f"exact/float ratio: median {med:.1f}, worst {ratios[-1]:.1f} over {len(ratios)} problems", file=out)
+    return results
+
+
+def main(argv: list[str] | None = None) -> int:
+    ap = argparse.ArgumentParser(prog="python -m exactlp.bench", description=__doc__.splitlines()[0])
+    ap.add_argument("--list", default="short", help="short (default), small (<= 500 rows), medium (<= 1000), large, all, or names")
+    ap.add_argument("--netlib", type=Path, default=None, help="folder with the MPS files and optimal-values.csv")
+    ap.add_argument("--time-limit", type=float, default=None, help="seconds per exact solve")
+    ap.add_argument("--no-warm-start", action="store_true", help="skip the warm-started exact solve")
+    ap.add_argument("--no-cold", action="store_true", help="skip the exact solve without warm start")
+    a = ap.parse_args(argv)
+    netlib = a.netlib or default_netlib()
+    if not (netlib / "optimal-values.csv").is_file():
+        print(f"bench: no Netlib set at {netlib} (pass --netlib DIR)", file=sys.stderr)
+        return 2
+    from . import __version__
+
+    print(f"exactlp {__version__} benchmark, {time.strftime('%Y-%m-%d')}, {os.cpu_count()} cores, Python {sys.version.split()[0]}")
+    rows = choose(read_table(netlib), a.list)
+    for heavy in ("highspy", "scipy.optimize", "scipy.sparse"):  # imports are not what is measured
+        try:
+            __import__(heavy)
+        except ImportError:
+            pass
+    run(rows, netlib, a.time_limit, cold=not a.no_cold, warm=not a.no_warm_start)
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

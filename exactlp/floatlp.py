@@ -1,0 +1,171 @@
+"""The floating-point side, off the trust path: it only *suggests* a basis.
+
+Nothing computed here reaches a certificate.  A basis suggested by a float
+solver is a list of column indices and bound choices; the exact solver
+factors it in rational arithmetic, recomputes every value, checks primal and
+dual feasibility exactly, and pivots exactly from it when it is not optimal.
+If the suggestion is unusable (singular, or not primal feasible), the solver
+starts from its own slack basis.  highspy (the ``exactlp[fast]`` extra) and
+scipy are imported only when these functions run.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import sys
+from dataclasses import dataclass
+
+from .model import Model, Sense
+
+#: with highspy installed, the warm start is used by default above this many rows
+WARM_START_MIN_ROWS = 50
+
+
+def highs_available() -> bool:
+    try:
+        import highspy  # noqa: F401
+    except ImportError:
+        return False
+    return True
+
+
+@dataclass(frozen=True)
+class BasisHint:
+    """A suggested basis: for each column (structurals, then logicals) its status."""
+
+    basic: tuple[int, ...]  # column indices (structural j, logical n + i)
+    at_upper: frozenset[int]  # nonbasic columns resting on their upper bound
+    source: str
+    float_status: str
+
+
+def _arrays(model: Model):
+    import numpy as np
+
+    n, m = len(model.variables), len(model.constraints)
+    index = {v.name: j for j, v in enumerate(model.variables)}
+    sign = 1.0 if model.sense is Sense.MINIMIZE else -1.0
+    cost = np.zeros(n)
+    for name, c in model.objective:
+        cost[index[name]] = sign * float(c)
+    inf = float("inf")
+    lo = np.array([-inf if v.lower is None else float(v.lower) for v in model.variables])
+    hi = np.array([inf if v.upper is None else float(v.upper) for v in model.variables])
+    rlo = np.array([-inf if c.lower is None else float(c.lower) for c in model.constraints])
+    rhi = np.array([inf if c.upper is None else float(c.upper) for c in model.constraints])
+    cols: list[list[tuple[int, float]]] = [[] for _ in range(n)]
+    for i, c in enumerate(model.constraints):
+        for name, a in c.terms:
+            cols[index[name]].append((i, float(a)))
+    start, idx, val = [0], [], []
+    for col in cols:
+        for i, a in col:
+            idx.append(i)
+            val.append(a)
+        start.append(len(idx))
+    return n, m, sign, cost, lo, hi, rlo, rhi, np.array(start), np.array(idx, dtype=np.int32), np.array(val)
+
+
+@contextlib.contextmanager
+def _quiet_stdout():
+    """Silence C-level writes to stdout (HiGHS prints a banner when first created).
+
+    Our own stdout may carry a JSON document, so nothing else may reach it.
+    """
+    try:
+        sys.stdout.flush()
+        fd = sys.__stdout__.fileno() if sys.__stdout__ is not None else 1
+        saved = os.dup(fd)
+    except (OSError, ValueError, AttributeError):
+        yield
+        return
+    try:
+        with open(os.devnull, "w") as null:
+            os.dup2(null.fileno(), fd)
+            yield
+    finally:
+        os.dup2(saved, fd)
+        os.close(saved)
+
+
+def highs_basis(model: Model, time_limit: float | None = None) -> BasisHint | None:
+    """Solve in double precision with HiGHS and return its final basis, or None."""
+    import highspy
+    import numpy as np
+
+    n, m, _, cost, lo, hi, rlo, rhi, start, idx, val = _arrays(model)
+    if m == 0:
+        return None
+    with _quiet_stdout():
+        h = highspy.Highs()
+        h.setOptionValue("output_flag", False)
+    h.setOptionValue("random_seed", 0)
+    h.setOptionValue("threads", 1)
+    if time_limit is not None:
+        h.setOptionValue("time_limit", float(max(time_limit, 0.01)))
+    lp = highspy.HighsLp()
+    lp.num_col_, lp.num_row_ = n, m
+    big = highspy.kHighsInf
+    lp.col_cost_ = cost
+    lp.col_lower_ = np.where(np.isinf(lo), -big, lo)
+    lp.col_upper_ = np.where(np.isinf(hi), big, hi)
+    lp.row_lower_ = np.where(np.isinf(rlo), -big, rlo)
+    lp.row_upper_ = np.where(np.isinf(rhi), big, rhi)
+    lp.a_matrix_.format_ = highspy.MatrixFormat.kColwise
+    lp.a_matrix_.start_ = start.astype(np.int32)
+    lp.a_matrix_.index_ = idx
+    lp.a_matrix_.value_ = val
+    lp.a_matrix_.num_col_, lp.a_matrix_.num_row_ = n, m
+    h.passModel(lp)
+    h.run()
+    status = h.modelStatusToString(h.getModelStatus())
+    basis = h.getBasis()
+    if not basis.valid:
+        return None
+    B = highspy.HighsBasisStatus
+    basic, upper = [], set()
+    for j, s in enumerate(list(basis.col_status) + list(basis.row_status)):
+        if s == B.kBasic:
+            basic.append(j)
+        elif s == B.kUpper:
+            upper.add(j)
+    if len(basic) != m:
+        return None
+    return BasisHint(tuple(basic), frozenset(upper), "highs", status)
+
+
+def linprog_arguments(model: Model):
+    """Arguments for scipy.optimize.linprog(method="highs") (sparse), and the sense sign."""
+    import numpy as np
+    from scipy.sparse import csr_matrix
+
+    n, m, sign, cost, lo, hi, rlo, rhi, start, idx, val = _arrays(model)
+    rows_ub, cols_ub, vals_ub, b_ub = [], [], [], []
+    rows_eq, cols_eq, vals_eq, b_eq = [], [], [], []
+    per_row: list[list[tuple[int, float]]] = [[] for _ in range(m)]
+    for j in range(n):
+        for k in range(start[j], start[j + 1]):
+            per_row[idx[k]].append((j, val[k]))
+    for i in range(m):
+        terms = per_row[i]
+        if rlo[i] == rhi[i]:
+            r = len(b_eq)
+            for j, a in terms:
+                rows_eq.append(r), cols_eq.append(j), vals_eq.append(a)
+            b_eq.append(rlo[i])
+            continue
+        for side, bound in ((1.0, rhi[i]), (-1.0, rlo[i])):
+            if np.isinf(bound):
+                continue
+            r = len(b_ub)
+            for j, a in terms:
+                rows_ub.append(r), cols_ub.append(j), vals_ub.append(side * a)
+            b_ub.append(side * bound)
+    bounds = [(None if np.isinf(a) else a, None if np.isinf(b) else b) for a, b in zip(lo, hi)]
+    kw = dict(c=cost if n else np.zeros(1), bounds=bounds if n else [(0, 0)], method="highs")
+    if b_ub:
+        kw.update(A_ub=csr_matrix((vals_ub, (rows_ub, cols_ub)), shape=(len(b_ub), n)), b_ub=np.array(b_ub))
+    if b_eq:
+        kw.update(A_eq=csr_matrix((vals_eq, (rows_eq, cols_eq)), shape=(len(b_eq), n)), b_eq=np.array(b_eq))
+    return kw, sign

@@ -1,0 +1,78 @@
+"""Exact solves of Netlib problems, with and without the warm start (issue 6).
+
+Objectives are checked against optimal-values.csv (source: the Netlib LP readme,
+as copied in ../shared/netlib) to all of the published 11 significant digits.
+"""
+
+from fractions import Fraction
+
+import pytest
+
+import exactlp
+from exactlp.certificate import build_certificate
+from exactlp.floatlp import highs_available
+from exactlp.io import read_mps
+from exactlp.numbers import format_decimal, parse_number
+
+from .conftest import NETLIB, needs_netlib, netlib_table
+
+CI_SET = ["AFIRO", "SC50B", "KB2", "ADLITTLE", "BLEND", "SHARE2B"]
+
+
+@needs_netlib
+@pytest.mark.parametrize("warm", [False, pytest.param(True, marks=pytest.mark.skipif(
+    not highs_available(), reason="the warm start needs highspy (the exactlp[fast] extra)"))])
+@pytest.mark.parametrize("name", CI_SET)
+def test_netlib_exact_objective_and_certificate(name, warm):
+    row = netlib_table()[name]
+    m = read_mps(NETLIB / row["file"])
+    r = exactlp.solve(m, warm_start=warm)
+    assert r.status is exactlp.Status.OPTIMAL
+    assert type(r.objective) is Fraction
+    assert parse_number(format_decimal(r.objective, 11)) == parse_number(row["published_optimum"])
+    assert exactlp.verify(m, build_certificate(m, r)).valid
+    if warm:
+        assert r.warm_start.startswith("accepted")
+    else:
+        assert r.warm_start == "off"
+
+
+@needs_netlib
+@pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
+def test_warm_and_cold_reach_the_same_exact_optimum():
+    m = read_mps(NETLIB / "sc105.mps.gz")
+    cold, warm = exactlp.solve(m, warm_start=False), exactlp.solve(m, warm_start=True)
+    assert cold.objective == warm.objective
+    assert warm.iterations < cold.iterations
+
+
+def test_warm_start_rejects_an_infeasible_suggestion():
+    # A hand-made suggestion that is not primal feasible is refused, and the solve
+    # proceeds from the slack basis to the same exact optimum.
+    from exactlp.floatlp import BasisHint
+    from exactlp.io import model_from_text
+    from exactlp.solver.form import build_form
+    from exactlp.solver.simplex import Simplex
+
+    m = model_from_text("maximize: x + y\nvariables: {x: {}, y: {}}\nconstraints:\n  a: x + 2 y <= 4\n  b: 3 x + y <= 6\n")
+    form = build_form(m)
+    events = []
+    # x basic with row a at its upper side and y at 0 forces x = 4, so 3 x + y = 12 > 6
+    bad = BasisHint(basic=(0, 3), at_upper=frozenset({2}), source="test", float_status="made up")
+    sx = Simplex(form, hint=bad, listener=events.append)
+    assert sx.warm is not None and not sx.warm.accepted
+    out = sx.run()
+    assert out.status == "optimal"
+    good = exactlp.solve(m, warm_start=False)
+    assert form.sign * out.z == good.objective
+    assert events[0].reason.startswith("not primal feasible in exact arithmetic")
+
+
+def test_bench_prints_figures(capsys):
+    if NETLIB is None:
+        pytest.skip("../shared/netlib is absent")
+    from exactlp import bench
+
+    assert bench.main(["--list", "AFIRO,SC50B", "--netlib", str(NETLIB)]) == 0
+    out = capsys.readouterr().out
+    assert "AFIRO" in out and "SC50B" in out and "yes" in out
