@@ -28,6 +28,9 @@ class Limits:
     max_nonzeros: int = 20_000_000
     #: most characters in one expression or formula
     max_expression_chars: int = 1_000_000
+    #: most characters in one number of a certificate or log (exact solutions are
+    #: ratios of basis determinants and legitimately run to thousands of digits)
+    max_result_number_chars: int = 200_000
 
 
 DEFAULT_LIMITS = Limits()

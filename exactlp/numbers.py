@@ -38,6 +38,30 @@ _NUMBER = re.compile(
 )
 
 _INF_WORDS = {"inf", "+inf", "infinity", "+infinity"}
+
+# CPython refuses int <-> str conversions beyond a few thousand digits (a guard
+# against slow quadratic conversions).  Exact results can be longer, so long
+# digit strings are converted in halves; the caps in Limits bound the cost.
+_CHUNK = 3000
+
+
+def int_from_digits(digits: str) -> int:
+    """int(digits) for a string of decimal digits of any length."""
+    if len(digits) <= _CHUNK:
+        return int(digits)
+    k = len(digits) // 2
+    return int_from_digits(digits[:-k]) * 10**k + int_from_digits(digits[-k:])
+
+
+def int_to_digits(n: int) -> str:
+    """str(n) for an int of any size."""
+    if n < 0:
+        return "-" + int_to_digits(-n)
+    if n.bit_length() <= _CHUNK * 3:  # fewer than about 2,700 digits
+        return str(n)
+    k = (n.bit_length() * 3) // 20  # about half the number of digits
+    hi, lo = divmod(n, 10**k)
+    return int_to_digits(hi) + int_to_digits(lo).rjust(k, "0")
 _NEG_INF_WORDS = {"-inf", "-infinity"}
 
 
@@ -68,10 +92,10 @@ def parse_number(text: str, limits: Limits = DEFAULT_LIMITS) -> Fraction:
         raise NumberError(f"'{s}' is not a number")
     sign = -1 if m.group("sign") == "-" else 1
     if m.group("num") is not None:
-        den = int(m.group("den"))
+        den = int_from_digits(m.group("den"))
         if den == 0:
             raise NumberError(f"'{s}' divides by zero")
-        return Fraction(sign * int(m.group("num")), den)
+        return Fraction(sign * int_from_digits(m.group("num")), den)
     int_part = m.group("int") or ""
     frac_part = m.group("frac") or ""
     exp = int(m.group("exp")) if m.group("exp") is not None else 0
@@ -80,7 +104,7 @@ def parse_number(text: str, limits: Limits = DEFAULT_LIMITS) -> Fraction:
             f"'{s}' has exponent {exp}, beyond the limit of ±{limits.max_exponent}"
         )
     # digits * 10**(exp - len(frac)) is the exact value of the decimal text.
-    mantissa = int(int_part + frac_part or "0")
+    mantissa = int_from_digits(int_part + frac_part or "0")
     shift = exp - len(frac_part)
     if shift >= 0:
         return Fraction(sign * mantissa * 10**shift)
@@ -132,10 +156,10 @@ def to_fraction(value: object, what: str = "value") -> Fraction:
 def format_number(value: Fraction | int) -> str:
     """The one written spelling of an exact number: ``'3'``, ``'-3/4'``."""
     if isinstance(value, int):
-        return str(value)
+        return int_to_digits(value)
     if value.denominator == 1:
-        return str(value.numerator)
-    return f"{value.numerator}/{value.denominator}"
+        return int_to_digits(value.numerator)
+    return f"{int_to_digits(value.numerator)}/{int_to_digits(value.denominator)}"
 
 
 def format_decimal(value: Fraction, digits: int = 12) -> str:
@@ -150,7 +174,7 @@ def format_decimal(value: Fraction, digits: int = 12) -> str:
     sign = "-" if value < 0 else ""
     v = abs(Fraction(value))
     # find e with 10**e <= v < 10**(e+1)
-    e = len(str(v.numerator)) - len(str(v.denominator))
+    e = len(int_to_digits(v.numerator)) - len(int_to_digits(v.denominator))
     if Fraction(10) ** e > v:
         e -= 1
     elif Fraction(10) ** (e + 1) <= v:
@@ -162,7 +186,7 @@ def format_decimal(value: Fraction, digits: int = 12) -> str:
         q //= 10
         scale -= 1
         e += 1
-    s = str(q)
+    s = int_to_digits(q)
     if -5 <= e < digits:
         if scale <= 0:
             out = s + "0" * (-scale)

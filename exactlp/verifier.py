@@ -34,8 +34,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 from fractions import Fraction
 
+from .limits import DEFAULT_LIMITS
 from .model import Model, Sense
 from .numbers import format_number as fmt, parse_number
+
+#: numbers in certificates may be long (exact solutions); their own cap applies
+_LIMITS = type(DEFAULT_LIMITS)(max_number_chars=DEFAULT_LIMITS.max_result_number_chars)
 
 FORMAT = "exactlp-certificate/1"
 
@@ -66,7 +70,7 @@ def _num(text, where: str) -> Fraction:
     if not isinstance(text, str):
         raise _Invalid(f"{where}: expected an exact number as a string, found {text!r}")
     try:
-        return parse_number(text)
+        return parse_number(text, _LIMITS)
     except Exception as exc:
         raise _Invalid(f"{where}: {getattr(exc, 'message', exc)}") from None
 

@@ -76,3 +76,17 @@ def test_bench_prints_figures(capsys):
     assert bench.main(["--list", "AFIRO,SC50B", "--netlib", str(NETLIB)]) == 0
     out = capsys.readouterr().out
     assert "AFIRO" in out and "SC50B" in out and "yes" in out
+
+
+@needs_netlib
+@pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
+def test_grow7_certificate_with_long_exact_numbers():
+    # GROW7's exact optimum has values of almost 900 digits: more than the model
+    # number cap, well inside the certificate cap (found by the benchmark).
+    row = netlib_table()["GROW7"]
+    m = read_mps(NETLIB / row["file"])
+    r = exactlp.solve(m, warm_start=True)
+    cert = build_certificate(m, r)
+    assert max(len(v) for v in cert["primal"].values()) > 400
+    assert exactlp.verify(m, cert).valid
+    assert parse_number(format_decimal(r.objective, 11)) == parse_number(row["published_optimum"])

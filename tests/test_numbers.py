@@ -121,3 +121,32 @@ def test_any_text_gives_a_number_or_our_error(text):
         assert type(parse_number(text)) is Fraction
     except InputError:
         pass
+
+
+def test_numbers_longer_than_the_interpreter_conversion_guard():
+    # CPython refuses int <-> str beyond about 4,300 digits; exact results can be longer
+    big = Fraction(7**20000 + 1, 3**9000)
+    text = format_number(big)
+    assert len(text) > 20000
+    from exactlp.limits import Limits
+
+    back = parse_number(text, Limits(max_number_chars=100_000))
+    assert back == big and type(back) is Fraction
+    assert parse_number("1" * 5000 + ".5", Limits(max_number_chars=10_000)) == Fraction((10**5000 - 1) // 9 * 10 + 5, 10)
+    assert format_decimal(big, 5).startswith("1.") or "e+" in format_decimal(big, 5)
+
+
+def test_model_numbers_stay_short_but_certificates_may_be_long():
+    from exactlp.io import model_from_text
+    from exactlp.verifier import verify
+
+    m = model_from_text("minimize: x\nvariables:\n  x: {lower: 0}\nconstraints:\n  c: x >= 0\n")
+    r = __import__("exactlp").solve(m)
+    from exactlp.certificate import build_certificate
+
+    cert = build_certificate(m, r)
+    long_zero = "0/" + "1" * 900  # 0 written with a 900-digit denominator: still exactly 0
+    cert["primal"]["x"] = long_zero
+    assert verify(m, cert).valid
+    with pytest.raises(NumberError):
+        parse_number(long_zero)  # in a model, the 400-character cap applies
