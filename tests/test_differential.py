@@ -8,6 +8,8 @@ derandomised so CI is reproducible; the long run is in DEVELOPERS.md.
 
 import os
 
+import pytest
+
 from hypothesis import HealthCheck, given, settings
 
 from exactlp.solver import PRICING_RULES
@@ -37,3 +39,14 @@ def test_every_pricing_rule_reaches_the_same_exact_optimum(model):
     results = [solve_verified(model, pricing=p) for p in PRICING_RULES]
     assert len({r.status for r in results}) == 1
     assert len({r.objective for r in results}) == 1
+
+
+@settings(max_examples=200, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.too_slow])
+@given(lp_models())
+def test_random_models_with_the_warm_start_forced(model):
+    # exercises the float suggestion, its exact check and the repair path
+    pytest.importorskip("highspy")
+    ours = solve_verified(model, warm_start=True)
+    cold = solve_verified(model, warm_start=False)
+    assert ours.status == cold.status and ours.objective == cold.objective

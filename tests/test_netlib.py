@@ -59,7 +59,7 @@ def test_warm_start_rejects_an_infeasible_suggestion():
     events = []
     # x basic with row a at its upper side and y at 0 forces x = 4, so 3 x + y = 12 > 6
     bad = BasisHint(basic=(0, 3), at_upper=frozenset({2}), source="test", float_status="made up")
-    sx = Simplex(form, hint=bad, listener=events.append)
+    sx = Simplex(form, hint=bad, listener=events.append, allow_repair=False)
     assert sx.warm is not None and not sx.warm.accepted
     out = sx.run()
     assert out.status == "optimal"
@@ -90,3 +90,26 @@ def test_grow7_certificate_with_long_exact_numbers():
     assert max(len(v) for v in cert["primal"].values()) > 400
     assert exactlp.verify(m, cert).valid
     assert parse_number(format_decimal(r.objective, 11)) == parse_number(row["published_optimum"])
+
+
+def test_warm_start_repairs_an_infeasible_suggestion():
+    # The same infeasible suggestion, with repair allowed (the default): the basis
+    # is kept, its out-of-bounds value is driven back, and the optimum is the same.
+    from exactlp.floatlp import BasisHint
+    from exactlp.io import model_from_text
+    from exactlp.solver.events import PhaseEnd, Pivot, WarmStart
+    from exactlp.solver.form import build_form
+    from exactlp.solver.simplex import Simplex
+
+    m = model_from_text("maximize: x + y\nvariables: {x: {}, y: {}}\nconstraints:\n  a: x + 2 y <= 4\n  b: 3 x + y <= 6\n")
+    form = build_form(m)
+    events = []
+    hint = BasisHint(basic=(0, 3), at_upper=frozenset({2}), source="test", float_status="made up")
+    sx = Simplex(form, hint=hint, listener=events.append)
+    assert sx.warm.accepted and set(sx.repair) == {3}
+    out = sx.run()
+    assert out.status == "optimal" and form.sign * out.z == exactlp.solve(m, warm_start=False).objective
+    assert isinstance(events[0], WarmStart) and "repairing" in events[0].reason
+    repair_steps = [e for e in events if isinstance(e, Pivot) and e.phase == 1]
+    assert repair_steps and repair_steps[-1].objective == 0  # no infeasibility left
+    assert any(isinstance(e, PhaseEnd) and e.phase == 1 for e in events)

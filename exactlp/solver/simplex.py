@@ -116,6 +116,7 @@ class Simplex:
         tableau: bool = False,
         should_stop=None,
         hint=None,
+        allow_repair: bool = True,
     ) -> None:
         if pricing not in PRICING_RULES:
             raise ValueError(pricing)
@@ -138,10 +139,17 @@ class Simplex:
         self.started = time.monotonic()
         self.artificials: list[int] = []
         self.warm: WarmStart | None = None
+        self.repair: dict[int, tuple] = {}
+        self.allow_repair = allow_repair
+        self._after_step = None
         if hint is not None:
             reason = self._setup_warm(hint)
-            self.warm = WarmStart(hint.source, hint.float_status, reason is None,
-                                  reason or "the suggested basis is exactly primal feasible")
+            if reason is None and self.repair:
+                reason_text = (f"{len(self.repair)} basic values lie outside their bounds in exact "
+                               "arithmetic; repairing from this basis")
+            else:
+                reason_text = reason or "the suggested basis is exactly primal feasible"
+            self.warm = WarmStart(hint.source, hint.float_status, reason is None, reason_text)
             if reason is None:
                 return
         self._setup()
@@ -185,12 +193,17 @@ class Simplex:
                 for i, a in self.cols[j]:
                     rhs[i] = rhs.get(i, ZERO) - a * x[j]
         xb = basis.ftran([(i, v) for i, v in sorted(rhs.items()) if v])
+        repair: dict[int, tuple] = {}
         for p, c in enumerate(head):
             v = xb.get(p, ZERO)
             lo, hi = self.lower[c], self.upper[c]
             if (lo is not None and v < lo) or (hi is not None and v > hi):
-                return f"not primal feasible in exact arithmetic ({self.kinds[c]} {self.labels[c]!r} = {frac(v)})"
+                repair[c] = (lo, hi)
             x[c] = v
+        if repair and not self.allow_repair:
+            c = min(repair)
+            return f"not primal feasible in exact arithmetic ({self.kinds[c]} {self.labels[c]!r} = {frac(x[c])})"
+        self.repair = repair
         self.x, self.state, self.head, self.basis, self.unit_row = x, state, head, basis, unit_row
         self.pos_of = [-1] * ncol
         for p, c in enumerate(head):
@@ -255,10 +268,85 @@ class Simplex:
         return time.monotonic() - self.started
 
     # ------------------------------------------------------------------
+    def _repair(self) -> Outcome | None:
+        """Phase 1 from a suggested basis whose basic values break some bounds.
+
+        Each such basic column gets a temporary box from its current value to
+        the bound it violates, and a cost of -1 (below its lower bound) or +1
+        (above its upper bound): the phase-1 objective is then the sum of the
+        infeasibilities (up to a constant).  Whenever one of them reaches its
+        true bound, its own bounds and a zero cost are restored, and the current
+        degenerate run is ended because the problem has changed; the box never
+        lets a column become more infeasible.  This is a restriction of the
+        true problem, so when it stalls with some infeasibility left nothing is
+        concluded from it: the solve starts again from the slack basis, whose
+        phase 1 proves infeasibility if there is any.  Returns None when every
+        bound holds again, else the outcome that stopped it.
+        """
+        ncol = len(self.cols)
+        cost = [ZERO] * ncol
+        for c, (lo, hi) in self.repair.items():
+            v = self.x[c]
+            if lo is not None and v < lo:
+                self.lower[c], self.upper[c], cost[c] = v, lo, -ONE
+            else:
+                self.lower[c], self.upper[c], cost[c] = hi, v, ONE
+
+        def restore() -> bool:
+            changed = False
+            for c in list(self.repair):
+                lo, hi = self.repair[c]
+                v = self.x[c]
+                if (lo is None or v >= lo) and (hi is None or v <= hi):
+                    self.lower[c], self.upper[c], cost[c] = lo, hi, ZERO
+                    if self.state[c] != BASIC:
+                        self.state[c] = AT_LOWER if (lo is not None and v == lo) else AT_UPPER
+                    del self.repair[c]
+                    changed = True
+            return changed
+
+        self._after_step = restore
+        out = self._phase(1, cost)
+        self._after_step = None
+        if out.status != "optimal":
+            return out
+        return None
+
+    def _infeasibility(self) -> mpq:
+        """During a warm-start repair: the sum of the bound violations left."""
+        total = ZERO
+        for c, (lo, hi) in self.repair.items():
+            v = self.x[c]
+            if lo is not None and v < lo:
+                total += lo - v
+            elif hi is not None and v > hi:
+                total += v - hi
+        return total
+
     def run(self) -> Outcome:
+        if self.repair and self.listener:
+            self.listener(self.warm)
+            self._announced = True
+        if self.repair:
+            out = self._repair()
+            if out is not None:
+                return self._finish(out)
+            if self.repair:  # stalled: start again from the slack basis
+                for c, (lo, hi) in self.repair.items():
+                    self.lower[c], self.upper[c] = lo, hi
+                self.repair = {}
+                if self.listener:
+                    self.listener(WarmStart(self.warm.source, self.warm.float_status, False,
+                                            "the repair from the suggested basis stalled; "
+                                            "starting again from the slack basis"))
+                self.warm = WarmStart(self.warm.source, self.warm.float_status, False,
+                                      "the repair from the suggested basis stalled")
+                self._setup()
+            elif self.listener:
+                self.listener(PhaseEnd(1, ZERO, self.pivots[1]))
         ncol = len(self.cols)
         phase = 1 if self.artificials else 2
-        if self.listener and self.warm is not None:
+        if self.listener and self.warm is not None and not getattr(self, "_announced", False):
             self.listener(self.warm)
         if self.listener:
             at_up = tuple(self.ref(j) for j in range(ncol) if self.state[j] == AT_UPPER)
@@ -533,7 +621,10 @@ class Simplex:
                 self.basis.replace(p, alpha)
                 if self.basis.updates >= REINVERT_EVERY:
                     self._reinvert()
-            if t:  # a positive step ends any degenerate run
+            changed = self._after_step is not None and self._after_step()
+            if changed:
+                z = self._z(cost)  # costs or bounds changed (warm-start repair)
+            if t or changed:  # a positive step, or a changed problem, ends any degenerate run
                 bland_mode = pricing == "bland"
                 rank = None
                 run_degenerate = 0
@@ -542,7 +633,8 @@ class Simplex:
                 if run_degenerate > guard_limit:
                     bland_mode = True  # last resort: Bland's rule for the rest of this run
             if self.listener:
-                shown = z if phase == 1 else f.sign * z + f.constant
+                shown = (self._infeasibility() if self._after_step is not None else z) if phase == 1 \
+                    else f.sign * z + f.constant
                 self.listener(Pivot(
                     iteration=self.iterations,
                     phase=phase,
