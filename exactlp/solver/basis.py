@@ -22,6 +22,8 @@ acceptable pivot, so the order aims purely at sparsity.
 
 from __future__ import annotations
 
+import heapq
+
 from gmpy2 import mpq
 
 ZERO = mpq(0)
@@ -123,3 +125,210 @@ def reinvert(
         new_head[best] = c
     basis.updates = 0
     return basis, new_head
+
+
+class LUBasis(EtaBasis):
+    """An exact sparse LU factorisation of the basis, with eta updates on top.
+
+    ``B`` is factored by Gaussian elimination with Markowitz ordering: at each
+    step the pivot is a nonzero ``a_rc`` of the remaining submatrix that keeps
+    ``(row count - 1) * (column count - 1)`` smallest, so little fill is made.
+    In exact arithmetic every nonzero is an acceptable pivot (there is no
+    rounding to guard against), so sparsity is the only aim.
+
+    Step k (pivot row ``r_k``, column ``c_k``) records the multipliers
+    ``l_ik = a_i,ck / a_rk,ck`` (the row operations of L) and the pivot row
+    (a row of U).  Then, with the pivot row taken as the *position* of the
+    basic column ``c_k``:
+
+        ftran:  v = a;  for k = 1..m: v_i -= l_ik v_rk;  then back-substitute U
+        btran:  w^T U = c^T (forward, by the columns of U);  then
+                for k = m..1: w_rk -= sum_i l_ik w_i
+
+    Pivots made after the factorisation are kept as etas, exactly as in
+    :class:`EtaBasis`, and applied after (ftran) or before (btran) the LU part.
+    """
+
+    def __init__(self, m: int, lsteps, ucols, pivots) -> None:
+        super().__init__(m, [1] * m)
+        self.lsteps = lsteps  # [(r_k, [(i, l_ik), ...])] in elimination order
+        self.ucols = ucols  # [(r_k, u_kk, [(r_j, u_jk) for j < k])] in elimination order
+        self.pivots = pivots
+
+    def ftran(self, col):
+        v: dict[int, mpq] = {}
+        for i, a in col:
+            v[i] = a
+        for r, ls in self.lsteps:
+            t = v.get(r)
+            if t:
+                for i, l in ls:
+                    nv = v.get(i, ZERO) - l * t
+                    if nv:
+                        v[i] = nv
+                    else:
+                        v.pop(i, None)
+        x: dict[int, mpq] = {}
+        for r, ukk, above in reversed(self.ucols):
+            t = v.get(r)
+            if not t:
+                continue
+            t = t / ukk
+            x[r] = t
+            for rj, u in above:
+                nv = v.get(rj, ZERO) - u * t
+                if nv:
+                    v[rj] = nv
+                else:
+                    v.pop(rj, None)
+        for p, wp, rest in self.etas:
+            vp = x.get(p)
+            if not vp:
+                continue
+            vp = vp / wp
+            x[p] = vp
+            for i, wi in rest:
+                nv = x.get(i, ZERO) - wi * vp
+                if nv:
+                    x[i] = nv
+                else:
+                    x.pop(i, None)
+        return x
+
+    def btran(self, cb):
+        u = [ZERO] * self.m
+        for p, c in cb.items():
+            u[p] = c
+        for p, wp, rest in reversed(self.etas):
+            s = u[p]
+            for i, wi in rest:
+                ui = u[i]
+                if ui:
+                    s -= ui * wi
+            u[p] = s / wp if s else ZERO
+        w = [ZERO] * self.m
+        for r, ukk, above in self.ucols:
+            s = u[r]
+            for rj, uu in above:
+                wj = w[rj]
+                if wj:
+                    s -= wj * uu
+            w[r] = s / ukk if s else ZERO
+        for r, ls in reversed(self.lsteps):
+            s = w[r]
+            for i, l in ls:
+                wi = w[i]
+                if wi:
+                    s -= l * wi
+            w[r] = s
+        return w
+
+
+def factor_lu(
+    m: int,
+    head: list[int],
+    cols: list[list[tuple[int, mpq]]],
+    unit_row: dict[int, tuple[int, int]],
+) -> tuple[LUBasis, list[int]]:
+    """Factor the basis of columns ``head``; return it and the position -> column list.
+
+    Raises ArithmeticError when the columns are linearly dependent.
+    """
+    # active submatrix: rows[i] = {col: value}, colsets[c] = set of rows
+    rows: list[dict[int, mpq]] = [dict() for _ in range(m)]
+    colrows: dict[int, set[int]] = {}
+    for c in head:
+        rs = set()
+        for i, a in cols[c]:
+            if a:
+                rows[i][c] = rows[i].get(c, ZERO) + a
+                rs.add(i)
+        colrows[c] = rs
+    row_alive = [True] * m
+    lsteps = []
+    ucols_by_col: dict[int, list] = {c: [] for c in head}  # entries of U above the diagonal, by column
+    pivot_of_col: dict[int, tuple[int, mpq]] = {}
+    order: list[int] = []  # columns in elimination order
+    remaining = set(head)
+    # a lazy heap of (column count, column): stale entries are skipped when popped
+    heap = [(len(colrows[c]), c) for c in head]
+    heapq.heapify(heap)
+    while remaining:
+        best = None
+        best_cost = None
+        # look at the sparsest columns first; a few candidates are enough
+        cand_cols = []
+        while heap and len(cand_cols) < 4:
+            cnt, c = heapq.heappop(heap)
+            if c in remaining and cnt == len(colrows[c]) and c not in cand_cols:
+                cand_cols.append(c)
+        for c in cand_cols:
+            heapq.heappush(heap, (len(colrows[c]), c))
+        for c in cand_cols:
+            cc = len(colrows[c])
+            if cc == 0:
+                raise ArithmeticError("singular basis")
+            for i in sorted(colrows[c]):
+                cost = (len(rows[i]) - 1) * (cc - 1)
+                if best_cost is None or cost < best_cost:
+                    best, best_cost = (i, c), cost
+                    if cost == 0:
+                        break
+            if best_cost == 0:
+                break
+        r, c = best
+        piv = rows[r][c]
+        # the pivot row becomes a row of U; record it by columns
+        for cj, val in rows[r].items():
+            if cj != c:
+                ucols_by_col[cj].append((r, val))
+        pivot_of_col[c] = (r, piv)
+        order.append(c)
+        # eliminate column c from the other active rows
+        touched: set[int] = set()
+        ls = []
+        prow = rows[r]
+        for i in sorted(colrows[c]):
+            if i == r:
+                continue
+            l = rows[i][c] / piv
+            ls.append((i, l))
+            ri = rows[i]
+            del ri[c]
+            for cj, val in prow.items():
+                if cj == c:
+                    continue
+                nv = ri.get(cj, ZERO) - l * val
+                if nv:
+                    if cj not in ri:
+                        colrows[cj].add(i)
+                        touched.add(cj)
+                    ri[cj] = nv
+                elif cj in ri:
+                    del ri[cj]
+                    colrows[cj].discard(i)
+                    touched.add(cj)
+        lsteps.append((r, ls))
+        # retire the pivot row and column
+        for cj in prow:
+            if cj != c:
+                colrows[cj].discard(r)
+                touched.add(cj)
+        row_alive[r] = False
+        rows[r] = {}
+        remaining.discard(c)
+        del colrows[c]
+        for cj in touched:
+            if cj in remaining:
+                heapq.heappush(heap, (len(colrows[cj]), cj))
+    # U columns in elimination order: entries above the diagonal are those from
+    # pivot rows eliminated before this column's own pivot
+    position = {c: pivot_of_col[c][0] for c in order}
+    ucols = []
+    for c in order:
+        r, piv = pivot_of_col[c]
+        ucols.append((r, piv, ucols_by_col[c]))
+    new_head = [-1] * m
+    for c, r in position.items():
+        new_head[r] = c
+    return LUBasis(m, lsteps, ucols, position), new_head

@@ -60,7 +60,10 @@ from dataclasses import dataclass
 
 from gmpy2 import mpq
 
-from .basis import EtaBasis, reinvert
+from .basis import EtaBasis, factor_lu, reinvert
+
+#: the exact factorisation used to (re)build the basis: sparse LU (Markowitz)
+FACTOR = factor_lu
 from .events import Finish, PhaseEnd, Pivot, Start, WarmStart
 from .form import Form, frac
 
@@ -184,7 +187,7 @@ class Simplex:
                 x[j], state[j] = ZERO, AT_ZERO
         unit_row = {f.n + i: (i, -1) for i in range(m)}
         try:
-            basis, head = reinvert(m, sorted(basic), self.cols, unit_row)
+            basis, head = FACTOR(m, sorted(basic), self.cols, unit_row)
         except ArithmeticError:
             return "the suggested basis is singular"
         rhs: dict[int, mpq] = {}
@@ -499,6 +502,7 @@ class Simplex:
         if flip:
             alive.append((None, -1, None, ONE, 0))
         by_column = {c[0]: c for c in alive if c[0] is not None}
+        rows: dict[int, list[mpq]] = {}  # position -> row of B^-1, fetched lazily
         for j in self._run_order:
             if len(alive) == 1:
                 break
@@ -509,14 +513,26 @@ class Simplex:
                 continue
             if sj == AT_ZERO:
                 continue  # a free column at zero carries no perturbation
-            w = alpha if j == q else self.basis.ftran(self.cols[j])
+            # (B^-1 a_j) at each candidate's position: from one ftran, or, once few
+            # candidates are left, from their rows of B^-1 (one btran each, kept)
+            if j == q:
+                entry = lambda c: alpha.get(c[1], ZERO)  # noqa: E731
+            elif len(alive) <= 3 or all(c[1] in rows for c in alive if c[0] is not None):
+                for c in alive:
+                    if c[0] is not None and c[1] not in rows:
+                        rows[c[1]] = self.basis.btran({c[1]: ONE})
+                col = self.cols[j]
+                entry = lambda c: sum((rows[c[1]][i] * v for i, v in col), ZERO)  # noqa: E731
+            else:
+                w = self.basis.ftran(self.cols[j])
+                entry = lambda c: w.get(c[1], ZERO)  # noqa: E731
             s_j = -1 if sj == AT_LOWER else 1
             coefs = []
             for c in alive:
                 if c[0] is None:
                     coefs.append(mpq(2) if j == q else ZERO)  # the flip: span + 2 e_q
                 else:
-                    coefs.append(-s_j * w.get(c[1], ZERO) * c[4] / c[3])
+                    coefs.append(-s_j * entry(c) * c[4] / c[3])
             low = min(coefs)
             alive = [c for c, v in zip(alive, coefs) if v == low]
         if any(c[0] is None for c in alive):
@@ -652,7 +668,7 @@ class Simplex:
                 ))
 
     def _reinvert(self) -> None:
-        self.basis, self.head = reinvert(self.m, self.head, self.cols, self.unit_row)
+        self.basis, self.head = FACTOR(self.m, self.head, self.cols, self.unit_row)
         for p, c in enumerate(self.head):
             self.pos_of[c] = p
 
