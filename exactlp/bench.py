@@ -205,9 +205,11 @@ def main(argv: list[str] | None = None) -> int:
 
     print(f"exactlp {__version__} benchmark, {time.strftime('%Y-%m-%d')}, {os.cpu_count()} cores, Python {sys.version.split()[0]}")
     rows = choose(read_table(netlib), a.list)
+    import importlib
+
     for heavy in ("highspy", "scipy.optimize", "scipy.sparse"):  # imports are not what is measured
         try:
-            __import__(heavy)
+            importlib.import_module(heavy)
         except ImportError:
             pass
     run(rows, netlib, a.time_limit, cold=not a.no_cold, warm=not a.no_warm_start)

@@ -1,0 +1,193 @@
+"""Reliability and security (issue 9): interrupted runs, hostile inputs, caps."""
+
+import ast
+import json
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+from hypothesis import HealthCheck, given, settings, strategies as st
+
+import exactlp
+from exactlp.errors import InputError
+from exactlp.limits import Limits
+
+from .models import klee_minty
+
+PACKAGE = Path(exactlp.__file__).parent
+
+
+@pytest.fixture
+def long_model(tmp_path):
+    """A model whose solve under plain Dantzig takes a few seconds (2^15 - 1 pivots)."""
+    p = tmp_path / "km.yaml"
+    p.write_text(klee_minty(15))
+    return p
+
+
+def start_solve(model, cert, log):
+    return subprocess.Popen(
+        [sys.executable, "-m", "exactlp.cli", "solve", str(model), "--pricing", "dantzig",
+         "--no-warm-start", "-c", str(cert), "-l", str(log)],
+        stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+
+
+def wait_for_pivots(path: Path, count: int = 20, timeout: float = 60) -> None:
+    end = time.monotonic() + timeout
+    while time.monotonic() < end:
+        if path.exists() and path.read_text().count("\n") > count:
+            return
+        time.sleep(0.05)
+    raise AssertionError("the solve wrote no pivots in time")
+
+
+@pytest.mark.parametrize("sig, code", [(signal.SIGINT, 130), (signal.SIGTERM, 143)])
+def test_interrupt_closes_the_log_and_writes_no_certificate(tmp_path, long_model, sig, code):
+    cert, log = tmp_path / "c.yaml", tmp_path / "l.jsonl"
+    cert.write_text("an earlier certificate\n")
+    p = start_solve(long_model, cert, log)
+    wait_for_pivots(Path(str(log) + ".partial"))
+    p.send_signal(sig)
+    out, err = p.communicate(timeout=60)
+    assert p.returncode == code
+    assert err.decode().startswith("exactlp: interrupted: no certificate written; the log is")
+    records = [json.loads(line) for line in log.read_text().splitlines()]
+    assert records[-1]["record"] == "close" and records[-1]["outcome"] == "interrupted"
+    assert cert.read_text() == "an earlier certificate\n"
+
+
+def test_sigkill_leaves_a_log_readable_to_the_last_pivot(tmp_path, long_model):
+    cert, log = tmp_path / "c.yaml", tmp_path / "l.jsonl"
+    cert.write_text("an earlier certificate\n")
+    p = start_solve(long_model, cert, log)
+    partial = Path(str(log) + ".partial")
+    wait_for_pivots(partial, 50)
+    p.kill()
+    p.wait(timeout=30)
+    lines = partial.read_text().splitlines()
+    records = [json.loads(line) for line in lines]  # every line is a whole record
+    assert records[0]["record"] == "header" and records[-1]["record"] == "pivot"
+    assert [r["iteration"] for r in records[2:]] == list(range(1, len(records) - 1))
+    assert not log.exists()
+    assert cert.read_text() == "an earlier certificate\n"
+    assert [f for f in os.listdir(tmp_path) if f.endswith(".tmp")] == []
+
+
+def test_no_eval_exec_pickle_or_unsafe_yaml_in_the_package():
+    banned_calls = {"eval", "exec", "compile", "__import__"}
+    for path in PACKAGE.rglob("*.py"):
+        tree = ast.parse(path.read_text())
+        for node in ast.walk(tree):
+            if isinstance(node, ast.Call) and isinstance(node.func, ast.Name):
+                assert node.func.id not in banned_calls, (path, node.func.id)
+            if isinstance(node, ast.Attribute):
+                assert node.attr not in ("load", "unsafe_load", "full_load") or not (
+                    isinstance(node.value, ast.Name) and node.value.id == "yaml"), path
+            if isinstance(node, (ast.Import, ast.ImportFrom)):
+                names = [a.name for a in node.names] + [getattr(node, "module", None) or ""]
+                assert not any(n and n.split(".")[0] in ("pickle", "marshal", "shelve") for n in names), path
+
+
+def test_object_tags_and_code_do_nothing(write, tmp_path):
+    marker = tmp_path / "touched"
+    text = (f"maximize: x\nvariables:\n  x: !!python/object/apply:os.system ['touch {marker}']\n")
+    with pytest.raises(InputError):
+        exactlp.load(write("evil.yaml", text))
+    text = f"maximize: __import__('os').system('touch {marker}')\nvariables: {{x: {{}}}}\n"
+    with pytest.raises(InputError):
+        exactlp.load(write("evil2.yaml", text))
+    assert not marker.exists()
+
+
+@pytest.mark.parametrize(
+    "limits, text, message",
+    [
+        (Limits(max_variables=2), "minimize: 0\nvariables: {a: {}, b: {}, c: {}}\n",
+         "variables: 3 variables, more than the limit of 2"),
+        (Limits(max_constraints=1), "minimize: 0\nvariables: {a: {}}\nconstraints: {r: a <= 1, s: a >= 0}\n",
+         "constraints: 2 constraints, more than the limit of 1"),
+        (Limits(max_nonzeros=2), "minimize: 0\nvariables: {a: {}, b: {}}\nconstraints: {r: a + b <= 1, s: a >= 0}\n",
+         "constraints.s: more than the limit of 2 nonzeros"),
+        (Limits(max_depth=3), "minimize: 0\nvariables: {a: {b: {c: {d: 1}}}}\n",
+         "nesting is deeper than the limit of 3"),
+        (Limits(max_exponent=10), "minimize: 1e11 a\nvariables: {a: {}}\n",
+         "minimize: '1e11' has exponent 11, beyond the limit of ±10"),
+    ],
+)
+def test_resource_caps(limits, text, message):
+    from exactlp.io import model_from_text
+
+    with pytest.raises(InputError) as exc:
+        model_from_text(text, "m.yaml", limits)
+    assert str(exc.value).endswith(message)
+
+
+# --- fuzzing: any input gives a valid object or our own error -------------------------------
+FUZZ = int(os.environ.get("EXACTLP_FUZZ_EXAMPLES", "300"))
+fuzz = settings(max_examples=FUZZ, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+
+yamlish = st.text(alphabet=st.sampled_from(list("abxyz019 :-{}[],'\"#&*!|>\n\t.=<+/e")), max_size=200)
+
+
+@fuzz
+@given(st.one_of(st.binary(max_size=300), yamlish.map(lambda s: s.encode())))
+def test_fuzz_yaml_model_loader(tmp_path_factory, data):
+    p = tmp_path_factory.mktemp("f") / "m.yaml"
+    p.write_bytes(data)
+    try:
+        exactlp.load(p)
+    except InputError as e:
+        assert "\n" not in str(e)
+
+
+mpsish = st.lists(st.sampled_from([
+    "NAME X", "ROWS", " N obj", " L r1", " G r2", " E r3", "COLUMNS", "    x obj 1 r1 2", "    y r2 -1.5",
+    "    x r9 1", "RHS", "    rhs r1 4", "    rhs obj 3", "RANGES", "    rng r3 -2", "BOUNDS", " UP b x 4",
+    " MI b y", " FR b x", " BV b x", "ENDATA", "garbage", "    x", "", "* comment", " UP b x 1e999",
+]), max_size=25).map("\n".join)
+
+
+@fuzz
+@given(mpsish)
+def test_fuzz_mps_reader(text):
+    from exactlp.io import mps_from_text
+
+    try:
+        mps_from_text(text)
+    except InputError as e:
+        assert "\n" not in str(e)
+
+
+@fuzz
+@given(st.one_of(yamlish, st.text(max_size=200)))
+def test_fuzz_certificate_reader_and_verifier(text):
+    from exactlp.certificate import parse_certificate_text
+    from exactlp.io import model_from_text
+
+    m = model_from_text("minimize: x\nvariables: {x: {}}\nconstraints: {c: x >= 1}\n")
+    try:
+        cert = parse_certificate_text(text, "c.yaml")
+    except InputError:
+        return
+    v = exactlp.verify(m, cert)  # never raises on a mapping: invalid is an answer
+    assert v.valid in (True, False)
+
+
+@fuzz
+@given(st.dictionaries(st.sampled_from(["format", "status", "model", "sense", "primal", "duals", "farkas",
+                                        "activities", "objective", "ray", "reduced_costs", "dual_objective"]),
+                       st.recursive(st.one_of(st.none(), st.text(max_size=8), st.integers()),
+                                    lambda inner: st.one_of(st.lists(inner, max_size=3),
+                                                            st.dictionaries(st.text(max_size=3), inner, max_size=3)),
+                                    max_leaves=8)))
+def test_fuzz_verifier_on_shaped_garbage(cert):
+    from exactlp.io import model_from_text
+
+    m = model_from_text("minimize: x\nvariables: {x: {}}\nconstraints: {c: x >= 1}\n")
+    cert = dict(cert, format="exactlp-certificate/1", model={"fingerprint": m.fingerprint}, sense="minimize")
+    v = exactlp.verify(m, cert)
+    assert v.valid in (True, False)
