@@ -40,6 +40,11 @@ class BasisHint:
     float_status: str
 
 
+def _f(x) -> float:
+    """A Fraction rounded to the nearest double (int / int is correctly rounded)."""
+    return x.numerator / x.denominator
+
+
 def _arrays(model: Model):
     import numpy as np
 
@@ -48,16 +53,16 @@ def _arrays(model: Model):
     sign = 1.0 if model.sense is Sense.MINIMIZE else -1.0
     cost = np.zeros(n)
     for name, c in model.objective:
-        cost[index[name]] = sign * float(c)
+        cost[index[name]] = sign * _f(c)
     inf = float("inf")
-    lo = np.array([-inf if v.lower is None else float(v.lower) for v in model.variables])
-    hi = np.array([inf if v.upper is None else float(v.upper) for v in model.variables])
-    rlo = np.array([-inf if c.lower is None else float(c.lower) for c in model.constraints])
-    rhi = np.array([inf if c.upper is None else float(c.upper) for c in model.constraints])
+    lo = np.array([-inf if v.lower is None else _f(v.lower) for v in model.variables])
+    hi = np.array([inf if v.upper is None else _f(v.upper) for v in model.variables])
+    rlo = np.array([-inf if c.lower is None else _f(c.lower) for c in model.constraints])
+    rhi = np.array([inf if c.upper is None else _f(c.upper) for c in model.constraints])
     cols: list[list[tuple[int, float]]] = [[] for _ in range(n)]
     for i, c in enumerate(model.constraints):
         for name, a in c.terms:
-            cols[index[name]].append((i, float(a)))
+            cols[index[name]].append((i, _f(a)))
     start, idx, val = [0], [], []
     for col in cols:
         for i, a in col:

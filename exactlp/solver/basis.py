@@ -245,13 +245,34 @@ def factor_lu(
                 rs.add(i)
         colrows[c] = rs
     row_alive = [True] * m
-    lsteps = []
     ucols_by_col: dict[int, list] = {c: [] for c in head}  # entries of U above the diagonal, by column
     pivot_of_col: dict[int, tuple[int, mpq]] = {}
     order: list[int] = []  # columns in elimination order
     remaining = set(head)
+    lsteps = []
+    # Column singletons first, in one pass: a column with one nonzero (every basic
+    # logical) is its own pivot with no elimination and no fill.  Its pivot row
+    # becomes a row of U; the row is retired from the other columns.
+    for c in head:
+        rs = colrows[c]
+        if len(rs) == 1:
+            (r,) = rs
+            if not row_alive[r]:
+                continue
+            piv = rows[r][c]
+            for cj, val in rows[r].items():
+                if cj != c:
+                    ucols_by_col[cj].append((r, val))
+                    colrows[cj].discard(r)
+            pivot_of_col[c] = (r, piv)
+            order.append(c)
+            lsteps.append((r, []))
+            row_alive[r] = False
+            rows[r] = {}
+            remaining.discard(c)
+            del colrows[c]
     # a lazy heap of (column count, column): stale entries are skipped when popped
-    heap = [(len(colrows[c]), c) for c in head]
+    heap = [(len(colrows[c]), c) for c in remaining]
     heapq.heapify(heap)
     while remaining:
         best = None
