@@ -13,7 +13,10 @@ from exactlp.model import build_model
 
 small = st.integers(-6, 6).map(F)
 frac = st.builds(lambda p, q: F(p, q), st.integers(-12, 12), st.integers(1, 7))
-coef = st.one_of(small, small, frac)
+# huge and tiny exact coefficients, mixed within one model (within what a double
+# carries comfortably, so that the float reference can still answer)
+scaled = st.builds(lambda a, k: F(a) * F(10) ** k, st.integers(-9, 9).filter(bool), st.integers(-5, 5))
+coef = st.one_of(small, small, frac, scaled)
 rhs = st.one_of(st.just(F(0)), st.integers(-10, 10).map(F), frac)
 
 
