@@ -152,6 +152,8 @@ def read_log(path: str) -> list[dict]:
                 rec = json.loads(line, parse_float=no_float, parse_constant=no_float)
             except ValueError as exc:
                 raise InputError(f"not a log record: {exc}", file=path, line=lineno, column=1) from None
+            except RecursionError:
+                raise InputError("not a log record: nesting is too deep", file=path, line=lineno, column=1) from None
             if not isinstance(rec, dict) or "record" not in rec:
                 raise InputError("not a log record (no 'record' key)", file=path, line=lineno, column=1)
             records.append(rec)

@@ -208,7 +208,8 @@ def parse_certificate_text(text: str, path: str, limits: Limits = DEFAULT_LIMITS
             doc = json.loads(text, parse_float=no_float, parse_constant=no_float)
         except ValueError as exc:
             raise CertificateError(f"not a JSON certificate: {exc}", file=path) from None
-        # nesting is bounded by the JSON decoder's recursion guard
+        except RecursionError:
+            raise CertificateError("nesting is too deep", file=path) from None
     else:
         doc = _plain(parse_yaml(text, path, limits))
     if not isinstance(doc, dict):

@@ -191,3 +191,13 @@ def test_fuzz_verifier_on_shaped_garbage(cert):
     cert = dict(cert, format="exactlp-certificate/1", model={"fingerprint": m.fingerprint}, sense="minimize")
     v = exactlp.verify(m, cert)
     assert v.valid in (True, False)
+
+
+def test_deep_json_nesting_is_our_error(cli, write):
+    deep = "[" * 100000 + "]" * 100000
+    cert = write("c.json", "{\"a\": " + deep + "}")
+    code, out, err = cli("verify", str(Path(__file__).parent.parent / "cases" / "drought.yaml"), cert)
+    assert (code, out) == (2, "") and err == f"exactlp: {cert}: nesting is too deep\n"
+    log = write("l.jsonl", "{\"record\": " + deep + "}\n")
+    code, out, err = cli("trace", log)
+    assert (code, out) == (2, "") and err == f"exactlp: {log}:1:1: not a log record: nesting is too deep\n"
