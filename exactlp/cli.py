@@ -349,6 +349,76 @@ def trace(
         trace_report(_console(), read_log(log), pivot)
 
 
+def _interval(iv) -> dict:
+    from .numbers import format_number
+
+    return {"lower": None if iv.lower is None else format_number(iv.lower),
+            "upper": None if iv.upper is None else format_number(iv.upper)}
+
+
+@app.command()
+def sensitivity(
+    model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
+    as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
+    debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
+) -> None:
+    """Exact ranges over which the optimal basis stays optimal (objective) or feasible (limits).
+
+    Example:  exactlp sensitivity cases/grants.yaml
+    """
+    with _Run(debug):
+        from .analysis import sensitivity as run_sensitivity
+        from .numbers import format_number
+
+        m = _load(model)
+        s = run_sensitivity(m)
+        if as_json:
+            doc = {
+                "model": {"name": m.name, "fingerprint": m.fingerprint},
+                "objective": format_number(s.result.objective),
+                "objective_ranges": {k: _interval(v) for k, v in s.objective_ranges.items()},
+                "rhs_ranges": {k: dict(_interval(v.interval), dual=format_number(v.dual), bound=v.bound,
+                                       value=format_number(v.value)) for k, v in s.rhs_ranges.items()},
+            }
+            typer.echo(json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False))
+        else:
+            from .render import sensitivity_report
+
+            sensitivity_report(_console(), m, s)
+
+
+@app.command()
+def conflict(
+    model: str = typer.Argument(..., help="An infeasible model file."),
+    as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
+    debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
+) -> None:
+    """Name a minimal set of rules that cannot all hold (each one-out subset is feasible).
+
+    Example:  exactlp conflict cases/grants_overcommitted.yaml
+    """
+    with _Run(debug):
+        from .analysis import conflict as run_conflict
+        from .numbers import format_number
+
+        m = _load(model)
+        c = run_conflict(m)
+        if as_json:
+            doc = {
+                "model": {"name": m.name, "fingerprint": m.fingerprint},
+                "constraints": list(c.constraints),
+                "bounds": list(c.bounds),
+                "multipliers": {k: format_number(v) for k, v in c.result.farkas_rows.items()},
+                "bound_multipliers": {k: format_number(v) for k, v in c.result.farkas_bounds.items()},
+                "solves": c.solves,
+            }
+            typer.echo(json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False))
+        else:
+            from .render import conflict_report
+
+            conflict_report(_console(), m, c)
+
+
 def main() -> None:  # console script entry
     app()
 

@@ -324,3 +324,51 @@ class StatusLine:
             f"phase {event.phase} · {event.iteration} steps · objective ≈ "
             f"{format_decimal(event.objective, 8)} · {now - self.started:.1f} s"
         )
+
+
+def _iv(iv) -> str:
+    return f"[{lo(iv.lower)}, {hi(iv.upper)}]"
+
+
+def sensitivity_report(console: Console, model: Model, s) -> None:
+    console.print(Text(f"Sensitivity of the optimum of {model_title(model)} (objective {format_number(s.result.objective)})"),
+                  soft_wrap=True)
+    t = Table(title="Objective coefficients (the basis stays optimal within each range)", box=BOX,
+              title_justify="left")
+    for h in ("variable", "coefficient", "range"):
+        t.add_column(h, justify="left" if h == "variable" else "right")
+    coef = dict(model.objective)
+    for v in model.variables:
+        add_row(t, v.name, format_number(coef.get(v.name, Fraction(0))), _iv(s.objective_ranges[v.name]))
+    console.print(t)
+    t = Table(title="Constraint limits (each dual holds within its range)", box=BOX, title_justify="left")
+    for h in ("constraint", "limit", "value", "dual", "range"):
+        t.add_column(h, justify="left" if h in ("constraint", "limit") else "right")
+    for name, rr in s.rhs_ranges.items():
+        add_row(t, name, rr.bound, format_number(rr.value), format_number(rr.dual), _iv(rr.interval))
+    console.print(t)
+    for name, rr in s.rhs_ranges.items():
+        if rr.dual:
+            verb = "raises" if rr.dual > 0 else "lowers"
+            console.print(Text(f"Raising the {name} limit by 1 {verb} the objective by {format_number(abs(rr.dual))}, "
+                               f"valid while the limit stays within {_iv(rr.interval)}."), soft_wrap=True)
+    caution(console)
+
+
+def conflict_report(console: Console, model: Model, c) -> None:
+    n_items = len(c.constraints) + len(c.bounds)
+    console.print(Text(f"These {n_items} rules cannot all hold together; dropping any one of them makes the rest "
+                       f"feasible (checked by {c.solves} exact solves):"), soft_wrap=True)
+    t = Table(box=BOX)
+    t.add_column("rule")
+    t.add_column("multiplier", justify="right")
+    t.add_column("formula")
+    by_name = {x.name: x for x in model.constraints}
+    for name in c.constraints:
+        add_row(t, name, format_number(c.result.farkas_rows.get(name, Fraction(0))), row_formula(by_name[name]))
+    for name in c.bounds:
+        v = model.variable(name)
+        add_row(t, f"bound of {name}", format_number(c.result.farkas_bounds.get(name, Fraction(0))),
+                f"{lo(v.lower)} <= {name} <= {hi(v.upper)}")
+    console.print(t)
+    caution(console)

@@ -107,6 +107,8 @@ def solve(
     common = dict(
         basis=tuple(sx.labels[c] for c in sx.head if sx.kinds[c] != "artificial"),
         at_upper=tuple(sx.labels[j] for j in range(form.ncols) if sx.state[j] == 2 and sx.lower[j] != sx.upper[j]),
+        basis_columns=tuple(sx.head) if all(sx.kinds[c] != "artificial" for c in sx.head) else (),
+        at_upper_columns=tuple(j for j in range(form.ncols) if sx.state[j] == 2),
         pivots_phase1=sx.pivots[1],
         pivots_phase2=sx.pivots[2],
         bound_flips=sx.flips,

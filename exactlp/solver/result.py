@@ -56,6 +56,9 @@ class SolveResult:
     #: final basis: labels of the basic columns, and nonbasic columns at their upper bound
     basis: tuple[str, ...] = ()
     at_upper: tuple[str, ...] = ()
+    #: the same basis by column index: structural j, or n + i for constraint i's logical
+    basis_columns: tuple[int, ...] = ()
+    at_upper_columns: tuple[int, ...] = ()
     pivots_phase1: int = 0
     pivots_phase2: int = 0
     bound_flips: int = 0

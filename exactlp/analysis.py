@@ -1,0 +1,263 @@
+"""Post-optimal work: conflict explanation and sensitivity ranging, exactly.
+
+Everything here is built on proven results: each step of the conflict filter is
+an exact solve whose infeasibility is certified, and the ranges come from the
+exact optimal basis.  No tolerance is used anywhere: a zero-width range is
+exactly zero.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+from fractions import Fraction
+
+from .errors import InputError
+from .model import Constraint, Model, Sense, Variable
+
+
+# ----------------------------------------------------------------------
+# conflict explanation
+# ----------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Conflict:
+    """A minimal infeasible subset: removing any one member makes it feasible."""
+
+    constraints: tuple[str, ...]  # constraints that take part
+    bounds: tuple[str, ...]  # variables whose bounds take part
+    model: Model  # the subset as a model of its own (others dropped, other bounds freed)
+    result: object  # its infeasible SolveResult (with the Farkas multipliers)
+    solves: int  # exact solves the filter made
+
+
+def _subset(model: Model, rows: set[str], bounded: set[str]) -> Model:
+    cons = tuple(c for c in model.constraints if c.name in rows)
+    vars_ = tuple(v if v.name in bounded else replace(v, lower=None, upper=None) for v in model.variables)
+    return replace(model, constraints=cons, variables=vars_, objective=(), objective_constant=Fraction(0))
+
+
+def conflict(model: Model, **solve_options) -> Conflict:
+    """Find a minimal set of constraints and bounds that cannot all hold.
+
+    A deletion filter: start from the support of the Farkas certificate (the
+    constraints and bounds it uses, already infeasible together); then try to
+    drop each member in turn, keeping the drop when what is left is still
+    infeasible (proven by a new Farkas certificate, whose support then
+    replaces the working set).  Each member the filter keeps was needed: the
+    set without it was solved and found feasible.  So the final set is
+    minimal: removing any one member makes it feasible.
+    """
+    from .solver import Status, solve
+
+    first = solve(model, **solve_options)
+    if first.status is not Status.INFEASIBLE:
+        raise InputError(f"the model is {first.status.value}, not infeasible: there is no conflict to explain",
+                         field="model")
+    solves = 1
+    if first.crossed is not None:
+        kind, name = first.crossed
+        rows = {name} if kind == "constraint" else set()
+        bounded = {name} if kind == "variable" else set()
+        sub = _subset(model, rows, bounded)
+        return Conflict(tuple(sorted(rows)), tuple(sorted(bounded)), sub, solve(sub, **solve_options), solves + 1)
+    rows = set(first.farkas_rows)
+    bounded = set(first.farkas_bounds)
+    order = [("constraint", c.name) for c in model.constraints] + [("bound", v.name) for v in model.variables]
+    kept: set[tuple[str, str]] = set()
+    for item in order:
+        kind, name = item
+        if (kind == "constraint" and name not in rows) or (kind == "bound" and name not in bounded):
+            continue
+        trial_rows = rows - {name} if kind == "constraint" else rows
+        trial_bounded = bounded - {name} if kind == "bound" else bounded
+        r = solve(_subset(model, trial_rows, trial_bounded), **solve_options)
+        solves += 1
+        if r.status is Status.INFEASIBLE:
+            # still infeasible without it: shrink to what the new proof uses
+            if r.crossed is not None:
+                k2, n2 = r.crossed
+                rows = {n2} if k2 == "constraint" else set()
+                bounded = {n2} if k2 == "variable" else set()
+            else:
+                rows = set(r.farkas_rows)
+                bounded = set(r.farkas_bounds)
+            # members already found necessary stay necessary for any subset
+        elif not r.status.is_proven:
+            raise InputError(f"a step of the conflict filter stopped ({r.status.value}); nothing is proven",
+                             field="conflict")
+        else:
+            kept.add(item)
+    sub = _subset(model, rows, bounded)
+    final = solve(sub, **solve_options)
+    solves += 1
+    names = [c.name for c in model.constraints if c.name in rows]
+    bnames = [v.name for v in model.variables if v.name in bounded]
+    return Conflict(tuple(names), tuple(bnames), sub, final, solves)
+
+
+# ----------------------------------------------------------------------
+# sensitivity ranging
+# ----------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class Interval:
+    lower: Fraction | None  # None: minus infinity
+    upper: Fraction | None  # None: plus infinity
+
+
+@dataclass(frozen=True)
+class RhsRange:
+    bound: str  # "upper", "lower" or "equals": which finite side is ranged
+    value: Fraction
+    interval: Interval
+    dual: Fraction
+
+
+@dataclass(frozen=True)
+class Sensitivity:
+    result: object
+    objective_ranges: dict  # variable -> Interval of its objective coefficient
+    rhs_ranges: dict  # constraint -> RhsRange
+
+
+def _clip(lo, hi, value):
+    return Interval(None if lo is None else value + lo, None if hi is None else value + hi)
+
+
+def sensitivity(model: Model, **solve_options) -> Sensitivity:
+    """Exact ranges over which the optimal basis stays optimal (costs) or feasible (bounds).
+
+    Objective coefficient ``c_j`` (minimising sense ``c``, reduced costs ``d``):
+    a nonbasic ``j`` keeps the basis optimal while ``d_j`` keeps its sign, so
+    ``c_j`` may fall by ``d_j`` (at lower) or rise by ``-d_j`` (at upper); for a
+    basic ``j`` at position ``p``, moving ``c_j`` by ``t`` moves every nonbasic
+    ``d_k`` by ``-t alpha_pk`` (``alpha_p`` the row p of ``B^-1 A``), and ``t``
+    is limited by the first ``d_k`` to change sign.
+
+    A binding constraint bound ``b_i`` (its logical nonbasic): moving ``b_i`` by
+    ``t`` moves the basic values by ``t B^-1 e_i``; the range is where all stay
+    within their bounds, and the dual ``y_i`` is the objective's rate there.  A
+    slack constraint's finite bound may move until it meets the activity.
+    """
+    from .floatlp import BasisHint
+    from .solver import Status, solve
+    from .solver.form import build_form, frac, q
+    from .solver.simplex import AT_LOWER, AT_UPPER, BASIC, Simplex
+
+    r = solve(model, **solve_options)
+    if r.status is not Status.OPTIMAL:
+        raise InputError(f"the model is {r.status.value}: sensitivity ranging needs an optimum", field="model")
+    form = build_form(model)
+    n, m = form.n, form.m
+    basic_cols = list(r.basis_columns)
+    upper = frozenset(r.at_upper_columns)
+    sx = Simplex(form, hint=BasisHint(tuple(basic_cols), upper, "optimal basis", "exact"), allow_repair=False)
+    if sx.warm is None or not sx.warm.accepted or len(basic_cols) != m:
+        raise InputError("could not rebuild the optimal basis", field="model")
+    y = sx.basis.btran({p: form.cost[c] for p, c in enumerate(sx.head) if form.cost[c]})
+    d = []
+    for j in range(form.ncols):
+        dj = form.cost[j]
+        for i, a in form.cols[j]:
+            if y[i]:
+                dj -= y[i] * a
+        d.append(dj)
+    sign = form.sign
+    nonbasic = [k for k in range(form.ncols) if sx.state[k] != BASIC]
+
+    def movable(k):
+        lo, hi = sx.lower[k], sx.upper[k]
+        return not (lo is not None and lo == hi)
+
+    obj_ranges = {}
+    for j, v in enumerate(model.variables):
+        cj = form.cost[j]
+        if sx.state[j] != BASIC:
+            if not movable(j):
+                lo_t, hi_t = None, None
+            elif sx.state[j] == AT_LOWER:
+                lo_t, hi_t = -d[j], None
+            elif sx.state[j] == AT_UPPER:
+                lo_t, hi_t = None, -d[j]
+            else:  # free at zero: d_j is 0 and must stay 0
+                lo_t = hi_t = q(0)
+        else:
+            p = sx.pos_of[j]
+            rho = sx.basis.btran({p: q(1)})
+            lo_t, hi_t = None, None
+            for k in nonbasic:
+                if not movable(k):
+                    continue
+                a = sum((rho[i] * val for i, val in form.cols[k] if rho[i]), q(0)) if k < form.ncols else q(0)
+                if not a:
+                    continue
+                limit = d[k] / a  # the t at which d_k - t a reaches zero
+                st = sx.state[k]
+                # d_k - t a must keep d_k's sign: >= 0 at lower, <= 0 at upper, = 0 if free
+                if st == AT_LOWER:
+                    if a > 0:
+                        hi_t = limit if hi_t is None else min(hi_t, limit)
+                    else:
+                        lo_t = limit if lo_t is None else max(lo_t, limit)
+                elif st == AT_UPPER:
+                    if a > 0:
+                        lo_t = limit if lo_t is None else max(lo_t, limit)
+                    else:
+                        hi_t = limit if hi_t is None else min(hi_t, limit)
+                else:
+                    lo_t = hi_t = q(0)
+        # back to the model's sense: c_model = sign * c_min
+        base = frac(sign * cj)
+        if sign > 0:
+            iv = _clip(None if lo_t is None else frac(lo_t), None if hi_t is None else frac(hi_t), base)
+        else:
+            iv = _clip(None if hi_t is None else -frac(hi_t), None if lo_t is None else -frac(lo_t), base)
+        obj_ranges[v.name] = iv
+
+    rhs_ranges = {}
+    for i, c in enumerate(model.constraints):
+        s = n + i
+        act = r.activities[c.name]
+        dual = r.duals[c.name]
+        if c.lower is None and c.upper is None:
+            continue
+        if sx.state[s] == BASIC:
+            # slack: its finite bound(s) may move up to the activity
+            if c.upper is not None and (c.lower is None or act - c.lower >= c.upper - act):
+                rhs_ranges[c.name] = RhsRange("upper", c.upper, Interval(act, None), dual)
+            else:
+                rhs_ranges[c.name] = RhsRange("lower", c.lower, Interval(None, act), dual)
+            continue
+        which = "equals" if c.is_equality else ("upper" if sx.state[s] == AT_UPPER else "lower")
+        b = c.upper if which == "upper" else c.lower
+        w = sx.basis.ftran([(i, q(1))])  # d x_B / d b_i = B^-1 e_i
+        lo_t = hi_t = None
+        for p, wp in w.items():
+            col = sx.head[p]
+            x, lb, ub = sx.x[col], sx.lower[col], sx.upper[col]
+            for bound, towards in ((lb, -1), (ub, 1)):
+                if bound is None:
+                    continue
+                # x + t wp stays <= ub and >= lb
+                if wp > 0:
+                    lim = (bound - x) / wp
+                    if towards > 0:
+                        hi_t = lim if hi_t is None else min(hi_t, lim)
+                    else:
+                        lo_t = lim if lo_t is None else max(lo_t, lim)
+                else:
+                    lim = (bound - x) / wp
+                    if towards > 0:
+                        lo_t = lim if lo_t is None else max(lo_t, lim)
+                    else:
+                        hi_t = lim if hi_t is None else min(hi_t, lim)
+        # the moving bound may not cross the row's other bound
+        if which == "upper" and c.lower is not None:
+            other = q(c.lower) - q(b)
+            lo_t = other if lo_t is None else max(lo_t, other)
+        if which == "lower" and c.upper is not None:
+            other = q(c.upper) - q(b)
+            hi_t = other if hi_t is None else min(hi_t, other)
+        rhs_ranges[c.name] = RhsRange(which, b, _clip(None if lo_t is None else frac(lo_t),
+                                                      None if hi_t is None else frac(hi_t), b), dual)
+    return Sensitivity(r, obj_ranges, rhs_ranges)

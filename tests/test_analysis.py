@@ -1,0 +1,138 @@
+"""Post-optimal analysis (issue 7, in part): sensitivity ranges and conflicts.
+
+Ranges are derived by hand in the comments and cross-checked with scipy:
+moving a coefficient or limit just inside a reported end keeps the optimal
+vertex; just outside it, the optimal vertex changes.
+"""
+
+import json
+from dataclasses import replace
+from fractions import Fraction as F
+
+import pytest
+
+import exactlp
+from exactlp.analysis import Interval, conflict, sensitivity
+from exactlp.io import model_from_text
+from exactlp.model import Constraint
+
+from .conftest import CASES
+from .helpers import scipy_solve, sympy_solve
+from .models import KNOWN
+
+THREE = KNOWN[0][1]  # maximize 5 x1 + 4 x2 + 3 x3; optimum 13 at (2, 0, 1), y = (1, 0, 1)
+
+
+def test_three_resource_ranges_by_hand():
+    s = sensitivity(model_from_text(THREE))
+    # basic x1: with r1, r3 binding, y3 = 6 - c1 and y1 = 2 c1 - 9 stay >= 0 for 9/2 <= c1 <= 6
+    # basic x3: y3 = 2 c3 - 5, y1 = 10 - 3 c3 >= 0 for 5/2 <= c3 <= 10/3
+    # nonbasic x2 (reduced cost -3): c2 may rise by 3
+    assert s.objective_ranges == {"x1": Interval(F(9, 2), F(6)), "x2": Interval(None, F(7)),
+                                  "x3": Interval(F(5, 2), F(10, 3))}
+    # r1: x1 = 2 b1 - 8 >= 0 and x3 = 16 - 3 b1 >= 0 give 4 <= b1 <= 16/3
+    # r3: x1 = 10 - b3 >= 0 and x3 = 2 b3 - 15 >= 0 give 15/2 <= b3 <= 10; r2 is slack at 10
+    rr = s.rhs_ranges
+    assert (rr["r1"].interval, rr["r1"].dual) == (Interval(F(4), F(16, 3)), F(1))
+    assert (rr["r3"].interval, rr["r3"].dual) == (Interval(F(15, 2), F(10)), F(1))
+    assert (rr["r2"].interval, rr["r2"].dual) == (Interval(F(10), None), F(0))
+
+
+def _with_coefficient(m, name, value):
+    obj = tuple((n, value if n == name else c) for n, c in m.objective)
+    if name not in dict(m.objective):
+        obj = obj + ((name, value),)
+    order = {v.name: i for i, v in enumerate(m.variables)}
+    return replace(m, objective=tuple(sorted(obj, key=lambda t: order[t[0]])))
+
+
+def _with_limit(m, name, which, value):
+    cons = []
+    for c in m.constraints:
+        if c.name == name:
+            c = Constraint(c.name, c.terms, value if which in ("lower", "equals") else c.lower,
+                           value if which in ("upper", "equals") else c.upper)
+        cons.append(c)
+    return replace(m, constraints=tuple(cons))
+
+
+def _vertex(m):
+    from scipy.optimize import linprog
+
+    from .helpers import to_linprog
+
+    kw, _ = to_linprog(m)
+    r = linprog(**kw)
+    return tuple(round(v, 7) for v in r.x)
+
+
+@pytest.mark.parametrize("path", [None, CASES / "grants.yaml", CASES / "drought.yaml"])
+def test_objective_ranges_against_scipy(path):
+    m = model_from_text(THREE) if path is None else exactlp.load(path)
+    s = sensitivity(m)
+    base = _vertex(m)
+    x_star = dict(exactlp.solve(m).primal)
+    eps = F(1, 1000)
+    better = (lambda a, b: a > b) if m.sense.value == "maximize" else (lambda a, b: a < b)
+    for name, iv in s.objective_ranges.items():
+        for end, inward in ((iv.lower, 1), (iv.upper, -1)):
+            if end is None:
+                continue
+            # just inside: scipy finds the same vertex
+            assert _vertex(_with_coefficient(m, name, end + inward * eps)) == base, (name, end)
+            # just outside: the old optimum is strictly beaten (SymPy's exact optimum)
+            outside = _with_coefficient(m, name, end - inward * eps)
+            assert better(sympy_solve(outside)[1], outside.objective_value(x_star)), (name, end)
+
+
+def test_rhs_ranges_keep_the_dual_as_the_slope():
+    m = model_from_text(THREE)
+    s = sensitivity(m)
+    z = exactlp.solve(m).objective
+    for name, rr in s.rhs_ranges.items():
+        iv = rr.interval
+        for end in (iv.lower, iv.upper):
+            if end is None:
+                continue
+            moved = exactlp.solve(_with_limit(m, name, rr.bound, end)).objective
+            assert moved == z + rr.dual * (end - rr.value)  # the dual is the exact rate up to the ends
+        if iv.upper is not None:  # beyond the end the rate changes
+            far = exactlp.solve(_with_limit(m, name, rr.bound, iv.upper + 1))
+            if far.objective is not None:
+                assert far.objective != z + rr.dual * (iv.upper + 1 - rr.value)
+
+
+def test_conflict_on_the_overcommitted_case_is_minimal():
+    m = exactlp.load(CASES / "grants_overcommitted.yaml")
+    c = conflict(m)
+    assert c.constraints == ("fund", "uplands_floor", "metro_floor")
+    assert c.bounds == ("north", "coast")
+    assert exactlp.verify(c.model, exactlp.build_certificate(c.model, c.result)).valid
+    from exactlp.analysis import _subset
+
+    rows, bounded = set(c.constraints), set(c.bounds)
+    for name in c.constraints:  # every one-out subset is feasible
+        assert exactlp.solve(_subset(m, rows - {name}, bounded)).status.value == "optimal"
+    for name in c.bounds:
+        assert exactlp.solve(_subset(m, rows, bounded - {name})).status.value == "optimal"
+
+
+def test_conflict_of_a_feasible_model_is_refused():
+    with pytest.raises(exactlp.InputError) as exc:
+        conflict(exactlp.load(CASES / "grants.yaml"))
+    assert str(exc.value) == "model: the model is optimal, not infeasible: there is no conflict to explain"
+
+
+def test_cli_sensitivity_and_conflict_json(cli):
+    code, out, _ = cli("sensitivity", CASES / "grants.yaml", "--json")
+    doc = json.loads(out)
+    assert code == 0
+    assert doc["objective_ranges"]["north"] == {"lower": "79/10", "upper": None}
+    assert doc["rhs_ranges"]["fund"] == {"lower": "12", "upper": "259/20", "dual": "79/10", "bound": "upper", "value": "25/2"}
+    code, out, _ = cli("conflict", CASES / "grants_overcommitted.yaml", "--json")
+    doc = json.loads(out)
+    assert code == 0 and doc["constraints"] == ["fund", "uplands_floor", "metro_floor"] and doc["bounds"] == ["north", "coast"]
+    code, out, _ = cli("sensitivity", CASES / "grants.yaml")
+    assert "Raising the fund limit by 1 raises the objective by 79/10, valid while the limit stays within [12, 259/20]." in out
+    code, out, err = cli("conflict", CASES / "grants.yaml")
+    assert code == 2 and err == "exactlp: model: the model is optimal, not infeasible: there is no conflict to explain\n"
