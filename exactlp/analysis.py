@@ -261,3 +261,113 @@ def sensitivity(model: Model, **solve_options) -> Sensitivity:
         rhs_ranges[c.name] = RhsRange(which, b, _clip(None if lo_t is None else frac(lo_t),
                                                       None if hi_t is None else frac(hi_t), b), dual)
     return Sensitivity(r, obj_ranges, rhs_ranges)
+
+
+# ----------------------------------------------------------------------
+# allocation ranges over the optimal set, and uniqueness
+# ----------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class VarRange:
+    minimum: Fraction | None  # None: unbounded below over the optimal set
+    maximum: Fraction | None
+    method: str  # "reduced cost" (decided by the optimal duals) or "solved" (two exact solves)
+
+
+@dataclass(frozen=True)
+class Ranges:
+    result: object  # the optimal SolveResult
+    ranges: dict  # variable -> VarRange
+    unique: bool
+    proof: str  # how uniqueness (or its absence) was decided
+    fixed_model: Model  # the model with the objective held at its optimum (what was solved)
+    solves: int
+    #: variable -> (probe model, its result) for each solved end: (min, max)
+    endpoints: dict
+
+
+def fixed_objective_model(model: Model, optimum: Fraction, name: str = "optimal_objective") -> Model:
+    """The model plus one equality row holding the objective exactly at ``optimum``."""
+    taken = {c.name for c in model.constraints}
+    while name in taken:
+        name = name + "_"
+    value = optimum - model.objective_constant
+    row = Constraint(name, model.objective, value, value, note="the objective held at its proven optimum")
+    return replace(model, constraints=model.constraints + (row,))
+
+
+def ranges(model: Model, variables: list[str] | None = None, **solve_options) -> Ranges:
+    """The exact minimum and maximum of each variable over all optimal solutions.
+
+    First pass, no solves: a variable resting on a bound with a nonzero reduced
+    cost takes that value in every optimal solution (with the certified duals,
+    ``c^T x - z* = sum_j d_j (x_j - bound_j) + sum_i y_i (a_i x - side_i)``,
+    every term >= 0 for feasible x, so an optimal x makes each term zero).  If
+    that holds for every nonbasic column, the optimum is unique (the dual is
+    nondegenerate).  Otherwise each undecided variable is minimised and
+    maximised exactly with the objective held at its optimum by an equality
+    row; each of those solves carries its own certificate.
+    """
+    from .solver import Status, solve
+
+    r = solve(model, **solve_options)
+    if r.status is not Status.OPTIMAL:
+        raise InputError(f"the model is {r.status.value}: allocation ranges need an optimum", field="model")
+    names = [v.name for v in model.variables]
+    chosen = names if not variables else list(variables)
+    for v in chosen:
+        if v not in names:
+            from .errors import did_you_mean
+
+            raise InputError(f"no variable '{v}'{did_you_mean(v, names)}", field="variables")
+    basic = set(r.basis_columns)
+    n = len(model.variables)
+    decided: dict[str, VarRange] = {}
+    nondegenerate = True
+    for j, v in enumerate(model.variables):
+        at_bound = j not in basic
+        if at_bound and r.reduced_costs[v.name] != 0:
+            decided[v.name] = VarRange(r.primal[v.name], r.primal[v.name], "reduced cost")
+        elif at_bound and v.lower is not None and v.lower == v.upper:
+            decided[v.name] = VarRange(v.lower, v.lower, "fixed bounds")
+        elif at_bound:
+            nondegenerate = False
+    for i, c in enumerate(model.constraints):  # a nonbasic logical with a zero dual also leaves room
+        if n + i not in basic and r.duals[c.name] == 0 and not c.is_equality:
+            nondegenerate = False
+    fixed = fixed_objective_model(model, r.objective)
+    out: dict[str, VarRange] = {}
+    endpoints: dict[str, tuple] = {}
+    solves = 1
+    for name in chosen:
+        if name in decided:
+            out[name] = decided[name]
+            continue
+        if nondegenerate:  # the optimum is unique: the range is the point
+            out[name] = VarRange(r.primal[name], r.primal[name], "unique optimum")
+            continue
+        ends = []
+        probes = []
+        for sense in ("minimize", "maximize"):
+            probe = replace(fixed, sense=Sense(sense), objective=((name, Fraction(1)),), objective_constant=Fraction(0))
+            pr = solve(probe, **solve_options)
+            probes.append((probe, pr))
+            solves += 1
+            if pr.status is Status.OPTIMAL:
+                ends.append(pr.objective)
+            elif pr.status is Status.UNBOUNDED:
+                ends.append(None)
+            else:
+                raise InputError(f"ranging '{name}' stopped ({pr.status.value}); nothing is proven", field="ranges")
+        out[name] = VarRange(ends[0], ends[1], "solved")
+        endpoints[name] = tuple(probes)
+    widths = [rg.minimum != rg.maximum for rg in out.values()]
+    if nondegenerate:
+        unique, proof = True, "every nonbasic column has a nonzero reduced cost: the dual is nondegenerate, so the optimum is unique"
+    elif not any(widths) and set(chosen) == set(names):
+        unique, proof = True, "every variable's range over the optimal set has zero width"
+    elif any(widths):
+        unique, proof = False, "some variables take different values in different optimal solutions"
+    else:
+        unique, proof = False, "undecided: only some variables were ranged, and all of those have zero width"
+    return Ranges(r, out, unique, proof, fixed, solves, endpoints)

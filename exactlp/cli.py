@@ -387,6 +387,40 @@ def sensitivity(
             sensitivity_report(_console(), m, s)
 
 
+@app.command("ranges")
+def ranges_(
+    model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
+    variables: Optional[list[str]] = typer.Argument(None, help="Variables to range (default: all)."),
+    as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
+    debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
+) -> None:
+    """The exact least and greatest value of each variable over all optimal allocations.
+
+    Example:  exactlp ranges cases/grants.yaml north metro
+    """
+    with _Run(debug):
+        from .analysis import ranges as run_ranges
+        from .numbers import format_number
+
+        m = _load(model)
+        rg = run_ranges(m, variables or None)
+        if as_json:
+            doc = {
+                "model": {"name": m.name, "fingerprint": m.fingerprint},
+                "objective": format_number(rg.result.objective),
+                "unique": rg.unique,
+                "proof": rg.proof,
+                "ranges": {k: {"min": None if v.minimum is None else format_number(v.minimum),
+                               "max": None if v.maximum is None else format_number(v.maximum),
+                               "method": v.method} for k, v in rg.ranges.items()},
+            }
+            typer.echo(json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False))
+        else:
+            from .render import ranges_report
+
+            ranges_report(_console(), m, rg)
+
+
 @app.command()
 def conflict(
     model: str = typer.Argument(..., help="An infeasible model file."),

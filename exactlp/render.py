@@ -355,6 +355,19 @@ def sensitivity_report(console: Console, model: Model, s) -> None:
     caution(console)
 
 
+def ranges_report(console: Console, model: Model, rg) -> None:
+    verdict = "unique" if rg.unique else "not unique"
+    console.print(Text(f"The optimal allocation of {model_title(model)} (objective "
+                       f"{format_number(rg.result.objective)}) is {verdict}: {rg.proof}."), soft_wrap=True)
+    t = Table(title="Each variable over all optimal allocations", box=BOX, title_justify="left")
+    for h in ("variable", "least", "greatest", "decided by"):
+        t.add_column(h, justify="right" if h in ("least", "greatest") else "left")
+    for name, v in rg.ranges.items():
+        add_row(t, name, lo(v.minimum), hi(v.maximum), v.method)
+    console.print(t)
+    caution(console)
+
+
 def conflict_report(console: Console, model: Model, c) -> None:
     n_items = len(c.constraints) + len(c.bounds)
     console.print(Text(f"These {n_items} rules cannot all hold together; dropping any one of them makes the rest "

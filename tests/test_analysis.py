@@ -136,3 +136,42 @@ def test_cli_sensitivity_and_conflict_json(cli):
     assert "Raising the fund limit by 1 raises the objective by 79/10, valid while the limit stays within [12, 259/20]." in out
     code, out, err = cli("conflict", CASES / "grants.yaml")
     assert code == 2 and err == "exactlp: model: the model is optimal, not infeasible: there is no conflict to explain\n"
+
+
+ALTERNATIVE = "maximize: x + y\nvariables: {x: {upper: 3}, y: {upper: 3}}\nconstraints:\n  cap: x + y <= 4\n"
+
+
+def test_alternative_optima_by_hand():
+    # every point of x + y = 4 with 1 <= x <= 3 is optimal (objective 4): x and y range over [1, 3]
+    from exactlp.analysis import ranges
+
+    rg = ranges(model_from_text(ALTERNATIVE))
+    assert rg.unique is False
+    assert {k: (v.minimum, v.maximum) for k, v in rg.ranges.items()} == {"x": (F(1), F(3)), "y": (F(1), F(3))}
+    for name, ends in rg.endpoints.items():  # each end carries a certificate the verifier accepts
+        for probe, result in ends:
+            assert exactlp.verify(probe, exactlp.build_certificate(probe, result)).valid
+    # the probes hold the objective exactly at its optimum
+    row = rg.fixed_model.constraints[-1]
+    assert (row.name, row.terms, row.lower, row.upper) == ("optimal_objective", (("x", F(1)), ("y", F(1))), F(4), F(4))
+
+
+def test_unique_optimum_by_reduced_costs():
+    from exactlp.analysis import ranges
+
+    rg = ranges(model_from_text(ALTERNATIVE.replace("maximize: x + y", "maximize: 2 x + y")))
+    assert rg.unique is True and rg.solves == 1
+    assert rg.proof.startswith("every nonbasic column has a nonzero reduced cost")
+    assert {k: (v.minimum, v.maximum) for k, v in rg.ranges.items()} == {"x": (F(3), F(3)), "y": (F(1), F(1))}
+
+
+def test_cli_ranges_json(cli, write):
+    path = write("alt.yaml", ALTERNATIVE)
+    code, out, _ = cli("ranges", path, "--json")
+    doc = json.loads(out)
+    assert code == 0 and doc["unique"] is False
+    assert doc["ranges"]["x"] == {"min": "1", "max": "3", "method": "solved"}
+    code, out, _ = cli("ranges", CASES / "berth.yaml", "a_container")
+    assert code == 0 and "is unique" in out
+    code, out, err = cli("ranges", path, "z")
+    assert code == 2 and err == "exactlp: variables: no variable 'z'\n"
