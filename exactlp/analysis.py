@@ -28,6 +28,8 @@ class Conflict:
     model: Model  # the subset as a model of its own (others dropped, other bounds freed)
     result: object  # its infeasible SolveResult (with the Farkas multipliers)
     solves: int  # exact solves the filter made
+    #: ("constraint" | "bound", name) -> a point that satisfies every other member
+    witnesses: dict
 
 
 def _subset(model: Model, rows: set[str], bounded: set[str]) -> Model:
@@ -59,11 +61,15 @@ def conflict(model: Model, **solve_options) -> Conflict:
         rows = {name} if kind == "constraint" else set()
         bounded = {name} if kind == "variable" else set()
         sub = _subset(model, rows, bounded)
-        return Conflict(tuple(sorted(rows)), tuple(sorted(bounded)), sub, solve(sub, **solve_options), solves + 1)
+        # one member only: without it nothing is left, and any point satisfies nothing
+        zero = {v.name: Fraction(0) for v in model.variables}
+        wit = {("constraint" if rows else "bound", name): zero}
+        return Conflict(tuple(sorted(rows)), tuple(sorted(bounded)), sub, solve(sub, **solve_options), solves + 1, wit)
     rows = set(first.farkas_rows)
     bounded = set(first.farkas_bounds)
     order = [("constraint", c.name) for c in model.constraints] + [("bound", v.name) for v in model.variables]
     kept: set[tuple[str, str]] = set()
+    witnesses: dict = {}
     for item in order:
         kind, name = item
         if (kind == "constraint" and name not in rows) or (kind == "bound" and name not in bounded):
@@ -86,13 +92,17 @@ def conflict(model: Model, **solve_options) -> Conflict:
             raise InputError(f"a step of the conflict filter stopped ({r.status.value}); nothing is proven",
                              field="conflict")
         else:
+            # feasible without it: the point found stays feasible for every smaller set
             kept.add(item)
+            witnesses[item] = dict(r.primal)
     sub = _subset(model, rows, bounded)
     final = solve(sub, **solve_options)
     solves += 1
     names = [c.name for c in model.constraints if c.name in rows]
     bnames = [v.name for v in model.variables if v.name in bounded]
-    return Conflict(tuple(names), tuple(bnames), sub, final, solves)
+    wit = {k: v for k, v in witnesses.items()
+           if (k[0] == "constraint" and k[1] in rows) or (k[0] == "bound" and k[1] in bounded)}
+    return Conflict(tuple(names), tuple(bnames), sub, final, solves, wit)
 
 
 # ----------------------------------------------------------------------

@@ -230,8 +230,11 @@ def verify_report(console: Console, verification, model_path: str, cert_path: st
     for c in verification.checks:
         mark = "pass" if c.ok else "FAIL"
         console.print(Text(f"{mark}  {c.name}: {c.detail}"), soft_wrap=True)
-    if verification.valid:
+    if verification.valid and verification.status in ("optimal", "infeasible", "unbounded"):
         console.print(Text(f"valid: {cert_path} proves that {model_path} is {verification.status}"), soft_wrap=True)
+        caution(console)
+    elif verification.valid:
+        console.print(Text(f"valid: {cert_path} proves {verification.status} of {model_path}"), soft_wrap=True)
         caution(console)
     else:
         console.print(Text(f"invalid: {cert_path} does not prove its claim for {model_path}"), soft_wrap=True)

@@ -175,3 +175,84 @@ def test_cli_ranges_json(cli, write):
     assert code == 0 and "is unique" in out
     code, out, err = cli("ranges", path, "z")
     assert code == 2 and err == "exactlp: variables: no variable 'z'\n"
+
+
+# --- reports: every claim carries its proof, and tampering is caught --------------------------
+def _conflict_report():
+    from exactlp.reports import conflict_report
+
+    m = exactlp.load(CASES / "grants_overcommitted.yaml")
+    return m, conflict_report(m, conflict(m))
+
+
+def _ranges_report(text=ALTERNATIVE):
+    from exactlp.analysis import ranges
+    from exactlp.reports import ranges_report
+
+    m = model_from_text(text)
+    return m, ranges_report(m, ranges(m))
+
+
+def test_reports_check_and_round_trip():
+    from exactlp.certificate import dump_certificate, parse_certificate_text
+    from exactlp.report_check import check_report
+
+    for m, rep in (_conflict_report(), _ranges_report(), _ranges_report(ALTERNATIVE.replace("x + y", "2 x + y", 1))):
+        back = parse_certificate_text(dump_certificate(rep), "<report>")
+        v = check_report(m, back)
+        assert v.valid, v.failure
+
+
+def test_conflict_report_tampering_is_caught():
+    import copy
+
+    from exactlp.report_check import check_report
+
+    m, rep = _conflict_report()
+    bad = copy.deepcopy(rep)
+    bad["minimality"] = bad["minimality"][1:]  # one member's necessity left unproven
+    assert check_report(m, bad).failure.detail == (
+        "minimality: no point shows that dropping constraint 'fund' leaves a feasible set")
+    bad = copy.deepcopy(rep)
+    bad["minimality"][0]["point"]["north"] = "100"  # the point no longer satisfies the others
+    assert "minimality: dropping constraint 'fund': 'north' = 100 breaks its bounds" == check_report(m, bad).failure.detail
+    bad = copy.deepcopy(rep)
+    bad["constraints"] = ["fund", "uplands_floor"]  # a smaller set that is not infeasible
+    assert not check_report(m, bad).valid
+
+
+def test_ranges_report_tampering_is_caught():
+    import copy
+
+    from exactlp.report_check import check_report
+
+    m, rep = _ranges_report()
+    bad = copy.deepcopy(rep)
+    bad["ranges"]["x"]["max"] = "5/2"
+    assert check_report(m, bad).failure.detail == "ranges.x.max: the certificate gives 3, the report 5/2"
+    bad = copy.deepcopy(rep)
+    bad["unique"] = True
+    assert check_report(m, bad).failure.detail == "unique: neither the duals nor the ranges prove the optimum unique"
+    bad = copy.deepcopy(rep)
+    bad["ranges"]["x"]["method"] = "unique optimum"
+    assert check_report(m, bad).failure.detail == "ranges.x: the optimum is not shown to be unique"
+    m2, rep2 = _ranges_report(ALTERNATIVE.replace("x + y", "2 x + y", 1))
+    bad = copy.deepcopy(rep2)
+    bad["ranges"]["x"]["min"] = "2"
+    assert check_report(m2, bad).failure.detail == "ranges.x: not decided by a nonzero reduced cost at a bound"
+
+
+def test_cli_writes_and_verifies_reports(cli, tmp_path):
+    report = tmp_path / "conflict.yaml"
+    code, _, _ = cli("conflict", CASES / "grants_overcommitted.yaml", "-o", report)
+    assert code == 0
+    code, out, _ = cli("verify", CASES / "grants_overcommitted.yaml", report)
+    assert code == 0
+    assert f"valid: {report} proves a minimal conflict of {CASES / 'grants_overcommitted.yaml'}" in out
+    code, out, _ = cli("verify", CASES / "grants.yaml", report)
+    assert code == 1 and "FAIL  report: fingerprint:" in out
+    report = tmp_path / "ranges.json"
+    code, _, _ = cli("ranges", CASES / "berth.yaml", "-o", report)
+    assert code == 0 and report.read_text().lstrip().startswith("{")
+    code, out, _ = cli("verify", CASES / "berth.yaml", report)
+    assert code == 0 and "proves its ranges over the optimal set" in out
