@@ -121,6 +121,8 @@ class RhsRange:
     value: Fraction
     interval: Interval
     dual: Fraction
+    #: binding rows: variable -> d x / d b (the allocation's rate as the bound moves)
+    direction: dict | None = None
 
 
 @dataclass(frozen=True)
@@ -128,6 +130,8 @@ class Sensitivity:
     result: object
     objective_ranges: dict  # variable -> Interval of its objective coefficient
     rhs_ranges: dict  # constraint -> RhsRange
+    #: variable -> constraint -> d y / d c_j (model sense): how the duals move with c_j
+    dual_directions: dict
 
 
 def _clip(lo, hi, value):
@@ -180,8 +184,10 @@ def sensitivity(model: Model, **solve_options) -> Sensitivity:
         return not (lo is not None and lo == hi)
 
     obj_ranges = {}
+    dual_dirs: dict = {}
     for j, v in enumerate(model.variables):
         cj = form.cost[j]
+        dual_dirs[v.name] = {}
         if sx.state[j] != BASIC:
             if not movable(j):
                 lo_t, hi_t = None, None
@@ -194,6 +200,8 @@ def sensitivity(model: Model, **solve_options) -> Sensitivity:
         else:
             p = sx.pos_of[j]
             rho = sx.basis.btran({p: q(1)})
+            # model-sense duals move by t * rho when c_j (model sense) moves by t
+            dual_dirs[v.name] = {model.constraints[i].name: frac(rho[i]) for i in range(m) if rho[i]}
             lo_t, hi_t = None, None
             for k in nonbasic:
                 if not movable(k):
@@ -268,9 +276,11 @@ def sensitivity(model: Model, **solve_options) -> Sensitivity:
         if which == "lower" and c.upper is not None:
             other = q(c.upper) - q(b)
             hi_t = other if hi_t is None else min(hi_t, other)
+        direction = {model.variables[col].name: frac(wp) for p, wp in w.items()
+                     if (col := sx.head[p]) < n and wp}
         rhs_ranges[c.name] = RhsRange(which, b, _clip(None if lo_t is None else frac(lo_t),
-                                                      None if hi_t is None else frac(hi_t), b), dual)
-    return Sensitivity(r, obj_ranges, rhs_ranges)
+                                                      None if hi_t is None else frac(hi_t), b), dual, direction)
+    return Sensitivity(r, obj_ranges, rhs_ranges, dual_dirs)
 
 
 # ----------------------------------------------------------------------

@@ -379,6 +379,7 @@ def _interval(iv) -> dict:
 @app.command()
 def sensitivity(
     model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
+    output: Optional[str] = typer.Option(None, "-o", "--output", help="Write a report with a certificate for every claim."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
@@ -392,6 +393,10 @@ def sensitivity(
 
         m = _load(model)
         s = run_sensitivity(m)
+        if output is not None:
+            from .reports import sensitivity_report
+
+            _write_report(model, m, sensitivity_report(m, s), output)
         if as_json:
             doc = {
                 "model": {"name": m.name, "fingerprint": m.fingerprint},

@@ -16,8 +16,8 @@ ranges
     cost ``d_j`` follows from the zero-gap certificate (every optimum has
     ``d_j (x_j - bound_j) = 0``); a unique optimum decided without solves is
     proven when the equations every optimum must meet (``x_j`` at its bound where
-    ``d_j != 0``, row ``i`` at its side where ``y_i != 0``, fixed variables) have
-    exactly one solution.
+    ``d_j != 0``, row ``i`` at its side where ``y_i != 0``, every equality row, and
+    fixed variables) have exactly one solution.
 """
 
 from __future__ import annotations
@@ -132,7 +132,7 @@ def _ranges(model: Model, rep: dict, checks: list) -> str:
     # the equations every optimal solution meets (complementary slackness with the certified duals)
     eqs = [{vv.name: Fraction(1)} for vv in model.variables
            if d.get(vv.name) or (vv.lower is not None and vv.lower == vv.upper)]
-    eqs += [dict(c.terms) for c in model.constraints if y.get(c.name)]
+    eqs += [dict(c.terms) for c in model.constraints if y.get(c.name) or c.is_equality]
     determined = _full_rank(eqs, names)
     claimed = rep.get("ranges") or {}
     for name, entry in claimed.items():
@@ -170,6 +170,75 @@ def _ranges(model: Model, rep: dict, checks: list) -> str:
     return "its ranges over the optimal set"
 
 
+def _sensitivity(model: Model, rep: dict, checks: list) -> str:
+    from .reports import only_variable, with_coefficient, with_side
+
+    base = rep.get("certificate") or {}
+    if _cert(model, base, "the optimum", checks).status != "optimal":
+        raise _Bad("the sensitivity report needs an optimal certificate")
+    x = {k: _n(v, f"primal.{k}") for k, v in (base.get("primal") or {}).items()}
+    y = {k: _n(v, f"duals.{k}") for k, v in (base.get("duals") or {}).items()}
+    z = _n(base.get("objective"), "objective")
+
+    def same_point(cert, what):
+        got = {k: _n(v, k) for k, v in (cert.get("primal") or {}).items()}
+        if got != x:
+            raise _Bad(f"{what}: the certificate is about another allocation")
+
+    cost = dict(model.objective)
+    for name, e in (rep.get("objective_ranges") or {}).items():
+        if name not in {v.name for v in model.variables} or not isinstance(e, dict):
+            raise _Bad(f"objective_ranges: '{name}' is not a variable of the model")
+        lo, hi = _n(e.get("lower"), f"{name}.lower"), _n(e.get("upper"), f"{name}.upper")
+        cj = cost.get(name, Fraction(0))
+        if (lo is not None and lo > cj) or (hi is not None and hi < cj):
+            raise _Bad(f"objective_ranges.{name}: the range does not contain the coefficient {fmt(cj)}")
+        for side, end, sign in (("lower", lo, -1), ("upper", hi, 1)):
+            cert = (e.get("certificates") or {}).get(side) or {}
+            probe = with_coefficient(model, name, end) if end is not None else only_variable(model, name, sign)
+            _cert(probe, cert, f"coefficient of {name} at {side} end", [])
+            same_point(cert, f"objective_ranges.{name}.{side}")
+    for name, e in (rep.get("rhs_ranges") or {}).items():
+        con = next((c for c in model.constraints if c.name == name), None)
+        if con is None or not isinstance(e, dict):
+            raise _Bad(f"rhs_ranges: '{name}' is not a constraint of the model")
+        which, value, dual = e.get("bound"), _n(e.get("value"), f"{name}.value"), _n(e.get("dual"), f"{name}.dual")
+        if dual != y.get(name):
+            raise _Bad(f"rhs_ranges.{name}: the dual differs from the certificate's")
+        side_value = {"upper": con.upper, "lower": con.lower, "equals": con.lower}.get(which, "?")
+        if side_value != value or (which == "equals" and not con.is_equality):
+            raise _Bad(f"rhs_ranges.{name}: the model's {which} side is not {value}")
+        for side, end, sign in (("lower", _n(e.get("lower"), "lower"), -1), ("upper", _n(e.get("upper"), "upper"), 1)):
+            proof = (e.get("certificates") or {}).get(side) or {}
+            if end is not None:
+                probe = with_side(model, name, which, end)
+                _cert(probe, proof, f"limit of {name} at {side} end", [])
+                if _n(proof.get("objective"), "objective") != z + dual * (end - value):
+                    raise _Bad(f"rhs_ranges.{name}.{side}: the optimum there is not z + dual * change")
+                if _n((proof.get("duals") or {}).get(name), "dual") != dual:
+                    raise _Bad(f"rhs_ranges.{name}.{side}: the dual changes within the range")
+            elif "direction" in proof:
+                w = {k: _n(v, f"direction.{k}") for k, v in (proof.get("direction") or {}).items()}
+                for v in model.variables:
+                    wv = w.get(v.name, 0)
+                    if (wv > 0 and v.upper is not None) or (wv < 0 and v.lower is not None):
+                        raise _Bad(f"rhs_ranges.{name}.{side}: the direction runs into a bound of '{v.name}'")
+                for c in model.constraints:
+                    a = sum((k * w.get(n, 0) for n, k in c.terms), Fraction(0))
+                    if c.name == name:
+                        if a != sign:
+                            raise _Bad(f"rhs_ranges.{name}.{side}: the direction does not follow the limit")
+                    elif (a > 0 and c.upper is not None) or (a < 0 and c.lower is not None):
+                        raise _Bad(f"rhs_ranges.{name}.{side}: the direction leaves constraint '{c.name}'")
+                if sum((k * w.get(n, 0) for n, k in model.objective), Fraction(0)) != sign * dual:
+                    raise _Bad(f"rhs_ranges.{name}.{side}: the objective does not move at the dual's rate")
+            else:
+                _cert(with_side(model, name, which, None), proof, f"limit of {name} relaxed", [])
+                same_point(proof, f"rhs_ranges.{name}.{side}")
+    checks.append(Check("sensitivity", True, "every range end re-derived from its certificate"))
+    return "its sensitivity ranges"
+
+
 def check_report(model: Model, report: dict) -> Verification:
     checks: list = []
     kind = report.get("report")
@@ -184,6 +253,8 @@ def check_report(model: Model, report: dict) -> Verification:
             what = _conflict(model, report, checks)
         elif kind == "ranges":
             what = _ranges(model, report, checks)
+        elif kind == "sensitivity":
+            what = _sensitivity(model, report, checks)
         else:
             raise _Bad(f"report: unknown kind {kind!r}")
     except _Bad as exc:

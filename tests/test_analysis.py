@@ -256,3 +256,47 @@ def test_cli_writes_and_verifies_reports(cli, tmp_path):
     assert code == 0 and report.read_text().lstrip().startswith("{")
     code, out, _ = cli("verify", CASES / "berth.yaml", report)
     assert code == 0 and "proves its ranges over the optimal set" in out
+
+
+from hypothesis import HealthCheck, given, settings  # noqa: E402
+
+from .strategies import lp_models  # noqa: E402
+
+
+@settings(max_examples=150, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@given(lp_models(max_vars=4, max_rows=4))
+def test_every_report_on_random_models_passes_its_own_check(model):
+    # Every range end, uniqueness verdict and conflict member is re-proven by the
+    # independent checker: a wrong range or a non-minimal conflict fails here.
+    from exactlp.analysis import ranges
+    from exactlp.report_check import check_report
+    from exactlp.reports import conflict_report, ranges_report, sensitivity_report
+
+    status = exactlp.solve(model).status.value
+    if status == "optimal":
+        for rep in (sensitivity_report(model, sensitivity(model)), ranges_report(model, ranges(model))):
+            v = check_report(model, rep)
+            assert v.valid, v.failure
+    elif status == "infeasible":
+        v = check_report(model, conflict_report(model, conflict(model)))
+        assert v.valid, v.failure
+
+
+def test_sensitivity_report_tampering_is_caught():
+    import copy
+
+    from exactlp.report_check import check_report
+    from exactlp.reports import sensitivity_report
+
+    m = model_from_text(THREE)
+    rep = sensitivity_report(m, sensitivity(m))
+    assert check_report(m, rep).valid
+    bad = copy.deepcopy(rep)
+    bad["objective_ranges"]["x1"]["upper"] = "13/2"  # widen a range beyond what holds
+    assert not check_report(m, bad).valid
+    bad = copy.deepcopy(rep)
+    bad["rhs_ranges"]["r1"]["dual"] = "2"
+    assert check_report(m, bad).failure.detail == "rhs_ranges.r1: the dual differs from the certificate's"
+    bad = copy.deepcopy(rep)
+    bad["rhs_ranges"]["r3"]["upper"] = "11"  # beyond the end the dual changes
+    assert not check_report(m, bad).valid

@@ -107,7 +107,9 @@ def solve(
     common = dict(
         basis=tuple(sx.labels[c] for c in sx.head if sx.kinds[c] != "artificial"),
         at_upper=tuple(sx.labels[j] for j in range(form.ncols) if sx.state[j] == 2 and sx.lower[j] != sx.upper[j]),
-        basis_columns=tuple(sx.head) if all(sx.kinds[c] != "artificial" for c in sx.head) else (),
+        # an artificial left basic on a redundant equality row stands in for that row's
+        # logical (both are unit columns of the same row), so the basis is still one
+        basis_columns=tuple(form.n + sx.unit_row[c][0] if sx.kinds[c] == "artificial" else c for c in sx.head),
         at_upper_columns=tuple(j for j in range(form.ncols) if sx.state[j] == 2),
         pivots_phase1=sx.pivots[1],
         pivots_phase2=sx.pivots[2],
