@@ -336,7 +336,7 @@ def _iv(iv) -> str:
 def sensitivity_report(console: Console, model: Model, s) -> None:
     console.print(Text(f"Sensitivity of the optimum of {model_title(model)} (objective {format_number(s.result.objective)})"),
                   soft_wrap=True)
-    t = Table(title="Objective coefficients (the basis stays optimal within each range)", box=BOX,
+    t = Table(title="Objective coefficient ranges", box=BOX,
               title_justify="left")
     for h in ("variable", "coefficient", "range"):
         t.add_column(h, justify="left" if h == "variable" else "right")
@@ -344,7 +344,7 @@ def sensitivity_report(console: Console, model: Model, s) -> None:
     for v in model.variables:
         add_row(t, v.name, format_number(coef.get(v.name, Fraction(0))), _iv(s.objective_ranges[v.name]))
     console.print(t)
-    t = Table(title="Constraint limits (each dual holds within its range)", box=BOX, title_justify="left")
+    t = Table(title="Constraint limit ranges (each dual holds within its range)", box=BOX, title_justify="left")
     for h in ("constraint", "limit", "value", "dual", "range"):
         t.add_column(h, justify="left" if h in ("constraint", "limit") else "right")
     for name, rr in s.rhs_ranges.items():
