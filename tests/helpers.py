@@ -125,3 +125,25 @@ def solve_verified(model: Model, **kw):
         v = exactlp.verify(model, back)
         assert v.valid, v.failure
     return r
+
+
+def float_ray_holds(model: Model, ray: dict) -> bool:
+    """Does ``ray`` prove unboundedness when checked in plain floating point?
+
+    Used only to settle a disagreement with the float reference: scipy's HiGHS
+    (1.17.1) calls some unbounded models optimal when a tiny cost meets large
+    matrix entries (found by the differential run: minimize -1e-5 x3 with x2 free
+    and x2 + 1000 x3 <= 0 -- x3 grows without limit along x2 = -1000 x3).  This
+    recheck shares no code with exactlp's verifier.
+    """
+    r = {k: float(v) for k, v in ray.items()}
+    sgn = 1.0 if model.sense is Sense.MINIMIZE else -1.0
+    for v in model.variables:
+        rv = r.get(v.name, 0.0)
+        if (rv > 0 and v.upper is not None) or (rv < 0 and v.lower is not None):
+            return False
+    for c in model.constraints:
+        a = sum(float(k) * r.get(n, 0.0) for n, k in c.terms)
+        if (a > 1e-12 and c.upper is not None) or (a < -1e-12 and c.lower is not None):
+            return False
+    return sgn * sum(float(k) * r.get(n, 0.0) for n, k in model.objective) < 0

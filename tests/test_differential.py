@@ -14,7 +14,7 @@ from hypothesis import HealthCheck, given, settings
 
 from exactlp.solver import PRICING_RULES
 
-from .helpers import scipy_solve, solve_verified
+from .helpers import float_ray_holds, scipy_solve, solve_verified
 from .strategies import lp_models
 
 EXAMPLES = int(os.environ.get("EXACTLP_DIFF_EXAMPLES", "500"))
@@ -26,6 +26,8 @@ EXAMPLES = int(os.environ.get("EXACTLP_DIFF_EXAMPLES", "500"))
 def test_random_models_agree_with_scipy(model):
     ours = solve_verified(model)
     ref_status, ref_obj = scipy_solve(model)
+    if ours.status.value == "unbounded" and ref_status == "optimal" and float_ray_holds(model, ours.ray):
+        return  # a documented failure of the reference (see float_ray_holds); our ray is verified
     assert ours.status.value == ref_status, (ours.status, ref_status)
     if ref_obj is not None:
         ours_f = float(ours.objective)

@@ -1,0 +1,23 @@
+"""The long differential run: python tests/long_differential.py N (random models against scipy HiGHS)."""
+import sys
+import time
+from pathlib import Path
+from hypothesis import given, settings, HealthCheck, seed
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+from tests.helpers import float_ray_holds, scipy_solve, solve_verified
+from tests.strategies import lp_models
+N = int(sys.argv[1])
+count = {"n": 0}
+@settings(max_examples=N, deadline=None, database=None, suppress_health_check=list(HealthCheck))
+@given(lp_models(max_vars=7, max_rows=7))
+def run(model):
+    count["n"] += 1
+    ours = solve_verified(model)
+    st, obj = scipy_solve(model)
+    if ours.status.value == "unbounded" and st == "optimal" and float_ray_holds(model, ours.ray):
+        count["ref_missed_ray"] = count.get("ref_missed_ray", 0) + 1
+        return
+    assert ours.status.value == st, (ours.status, st)
+    if obj is not None:
+        assert abs(float(ours.objective) - obj) <= 1e-6 * max(1, abs(obj)), (ours.objective, obj)
+t=time.time(); run(); print("tried", count, "in", round(time.time()-t,1), "s")
