@@ -44,6 +44,10 @@ class EtaBasis:
         v: dict[int, mpq] = {}
         for i, a in col:
             v[i] = a if signs[i] > 0 else -a
+        return self._etas_forward(v)
+
+    def _etas_forward(self, v: dict[int, mpq]) -> dict[int, mpq]:
+        """Apply E1^-1 ... Ek^-1 to ``v`` in place (the updates, in order)."""
         for p, wp, rest in self.etas:
             vp = v.get(p)
             if not vp:
@@ -58,7 +62,8 @@ class EtaBasis:
                     v.pop(i, None)
         return v
 
-    def btran(self, cb: dict[int, mpq]) -> list[mpq]:
+    def _etas_backward(self, cb: dict[int, mpq]) -> list[mpq]:
+        """c^T Ek^-1 ... E1^-1 as a dense list by position (the updates, reversed)."""
         u = [ZERO] * self.m
         for p, c in cb.items():
             u[p] = c
@@ -69,6 +74,10 @@ class EtaBasis:
                 if ui:
                     s -= ui * wi
             u[p] = s / wp if s else ZERO
+        return u
+
+    def btran(self, cb: dict[int, mpq]) -> list[mpq]:
+        u = self._etas_backward(cb)
         signs = self.signs
         return [x if signs[i] > 0 else -x for i, x in enumerate(u)]
 
@@ -181,31 +190,10 @@ class LUBasis(EtaBasis):
                     v[rj] = nv
                 else:
                     v.pop(rj, None)
-        for p, wp, rest in self.etas:
-            vp = x.get(p)
-            if not vp:
-                continue
-            vp = vp / wp
-            x[p] = vp
-            for i, wi in rest:
-                nv = x.get(i, ZERO) - wi * vp
-                if nv:
-                    x[i] = nv
-                else:
-                    x.pop(i, None)
-        return x
+        return self._etas_forward(x)
 
     def btran(self, cb):
-        u = [ZERO] * self.m
-        for p, c in cb.items():
-            u[p] = c
-        for p, wp, rest in reversed(self.etas):
-            s = u[p]
-            for i, wi in rest:
-                ui = u[i]
-                if ui:
-                    s -= ui * wi
-            u[p] = s / wp if s else ZERO
+        u = self._etas_backward(cb)
         w = [ZERO] * self.m
         for r, ukk, above in self.ucols:
             s = u[r]

@@ -176,15 +176,7 @@ class Simplex:
         for j in range(ncol):
             if j in basic:
                 continue
-            lo, hi = self.lower[j], self.upper[j]
-            if j in hint.at_upper and hi is not None and lo != hi:
-                x[j], state[j] = hi, AT_UPPER
-            elif lo is not None:
-                x[j], state[j] = lo, AT_LOWER
-            elif hi is not None:
-                x[j], state[j] = hi, AT_UPPER
-            else:
-                x[j], state[j] = ZERO, AT_ZERO
+            x[j], state[j] = self._rest(j, prefer_upper=j in hint.at_upper)
         unit_row = {f.n + i: (i, -1) for i in range(m)}
         try:
             basis, head = FACTOR(m, sorted(basic), self.cols, unit_row)
@@ -220,13 +212,7 @@ class Simplex:
         x = [ZERO] * ncol
         state = [AT_LOWER] * ncol
         for j in range(f.n):
-            lo, hi = self.lower[j], self.upper[j]
-            if lo is not None:
-                x[j], state[j] = lo, AT_LOWER
-            elif hi is not None:
-                x[j], state[j] = hi, AT_UPPER
-            else:
-                x[j], state[j] = ZERO, AT_ZERO
+            x[j], state[j] = self._rest(j)
         r = [ZERO] * m
         for j in range(f.n):
             if x[j]:
@@ -263,6 +249,17 @@ class Simplex:
         for p, c in enumerate(head):
             self.pos_of[c] = p
         self.basis = EtaBasis(m, signs)
+
+    def _rest(self, j: int, prefer_upper: bool = False) -> tuple[mpq, int]:
+        """Where a nonbasic column rests: its lower bound, else its upper, else zero (free)."""
+        lo, hi = self.lower[j], self.upper[j]
+        if prefer_upper and hi is not None and lo != hi:
+            return hi, AT_UPPER
+        if lo is not None:
+            return lo, AT_LOWER
+        if hi is not None:
+            return hi, AT_UPPER
+        return ZERO, AT_ZERO
 
     def ref(self, j: int) -> tuple[str, str]:
         return (self.labels[j], self.kinds[j])
