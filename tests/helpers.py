@@ -40,8 +40,11 @@ def to_linprog(model: Model):
     return kw, sgn
 
 
-def scipy_solve(model: Model):
-    """(status, objective in the model's sense) from scipy's HiGHS; status as ours."""
+def scipy_solve(model: Model, with_point: bool = False):
+    """(status, objective in the model's sense) from scipy's HiGHS; status as ours.
+
+    With ``with_point``, also the point it returned (floats, or None).
+    """
     from scipy.optimize import linprog
 
     kw, sgn = to_linprog(model)
@@ -63,6 +66,8 @@ def scipy_solve(model: Model):
     obj = None
     if r.status == 0:
         obj = sgn * r.fun + float(model.objective_constant)
+    if with_point:
+        return status, obj, (list(r.x) if r.status == 0 and model.variables else None)
     return status, obj
 
 
@@ -147,3 +152,29 @@ def float_ray_holds(model: Model, ray: dict) -> bool:
         if (a > 1e-12 and c.upper is not None) or (a < -1e-12 and c.lower is not None):
             return False
     return sgn * sum(float(k) * r.get(n, 0.0) for n, k in model.objective) < 0
+
+
+def exact_violation(model: Model, point) -> Fraction:
+    """How far a float point breaks the model's bounds and rows, computed exactly.
+
+    Settles a reference "optimal" against our verified Farkas certificate: scipy's
+    HiGHS accepts points within its feasibility tolerance (1e-7), so it can call an
+    infeasible model optimal (found by the differential run: min -x1 with x1 >= 0,
+    x2 <= 0, 10000 x1 - x2 <= 0 and x1 + 1000 x2 <= -1, where the first row forces
+    x1 = x2 = 0 and the second then says 0 <= -1; HiGHS returns x1 = -1e-7).  Each
+    float is taken as the exact rational it is.
+    """
+    x = {v.name: Fraction(val) for v, val in zip(model.variables, point)}
+    worst = Fraction(0)
+    for v in model.variables:
+        if v.lower is not None:
+            worst = max(worst, v.lower - x[v.name])
+        if v.upper is not None:
+            worst = max(worst, x[v.name] - v.upper)
+    for c in model.constraints:
+        a = sum((k * x[n] for n, k in c.terms), Fraction(0))
+        if c.lower is not None:
+            worst = max(worst, c.lower - a)
+        if c.upper is not None:
+            worst = max(worst, a - c.upper)
+    return worst

@@ -4,7 +4,7 @@ import time
 from pathlib import Path
 from hypothesis import given, settings, HealthCheck, seed
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
-from tests.helpers import float_ray_holds, scipy_solve, solve_verified
+from tests.helpers import exact_violation, float_ray_holds, scipy_solve, solve_verified
 from tests.strategies import lp_models
 N = int(sys.argv[1])
 count = {"n": 0}
@@ -13,9 +13,12 @@ count = {"n": 0}
 def run(model):
     count["n"] += 1
     ours = solve_verified(model)
-    st, obj = scipy_solve(model)
+    st, obj, ref_x = scipy_solve(model, with_point=True)
     if ours.status.value == "unbounded" and st == "optimal" and float_ray_holds(model, ours.ray):
         count["ref_missed_ray"] = count.get("ref_missed_ray", 0) + 1
+        return
+    if ours.status.value == "infeasible" and st == "optimal" and exact_violation(model, ref_x) > 0:
+        count["ref_infeasible_point"] = count.get("ref_infeasible_point", 0) + 1
         return
     assert ours.status.value == st, (ours.status, st)
     if obj is not None:
