@@ -81,7 +81,11 @@ def test_setup_command_exactlp_parts_run(scratch):
 
 
 def test_python_example_runs(scratch):
+    import subprocess
+    import sys
+
     code = re.findall(r"```python\n(.*?)```", README, re.S)
     assert code
-    for block in code:
-        exec(compile(block, "README.md", "exec"), {})
+    for block in code:  # each example runs in its own interpreter, as a user would run it
+        r = subprocess.run([sys.executable, "-"], input=block, text=True, capture_output=True, cwd=scratch)
+        assert r.returncode == 0, r.stderr
