@@ -111,6 +111,7 @@ def check(
 @app.command()
 def show(
     model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
+    expanded: bool = typer.Option(False, "--expanded", help="Show the linear program actually solved (abs/max/min reformulated)."),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
     """Print the model as tables: objective, variables with bounds, constraints as formulas.
@@ -121,7 +122,7 @@ def show(
         m = _load(model)
         from .render import show_model
 
-        show_model(_console(), m)
+        show_model(_console(), m, expanded)
 
 
 @app.command("import")

@@ -50,12 +50,31 @@ class Token:
     offset: int
 
 
+FUNCTIONS = ("abs", "max", "min")
+
+
+@dataclass(frozen=True)
+class Call:
+    """A weighted ``abs(e)``, ``max(e1, ...)`` or ``min(e1, ...)`` inside an expression."""
+
+    coefficient: Fraction
+    function: str
+    args: tuple["Linear", ...]
+    offset: int
+    text: str  # as written, for messages and reports
+
+
 @dataclass(frozen=True)
 class Linear:
-    """A linear expression: ordered terms (name -> coefficient) plus a constant."""
+    """A linear expression: ordered terms (name -> coefficient) plus a constant.
+
+    ``calls`` holds any abs()/max()/min() terms; they are linear only after the
+    reformulation in :mod:`exactlp.reform`.
+    """
 
     terms: tuple[tuple[str, Fraction], ...]
     constant: Fraction
+    calls: tuple[Call, ...] = ()
 
     def as_dict(self) -> dict[str, Fraction]:
         return dict(self.terms)
@@ -63,7 +82,7 @@ class Linear:
 
 @dataclass(frozen=True)
 class Comparison:
-    """A constraint formula reduced to ``lower <= terms <= upper``.
+    """A constraint formula reduced to ``lower <= terms (+ calls) <= upper``.
 
     ``None`` stands for an infinite side.
     """
@@ -71,6 +90,7 @@ class Comparison:
     terms: tuple[tuple[str, Fraction], ...]
     lower: Fraction | None
     upper: Fraction | None
+    calls: tuple[Call, ...] = ()
 
 
 def _error(msg: str, offset: int) -> ExpressionError:
@@ -125,9 +145,32 @@ class _Parser:
         except Exception as exc:  # NumberError: keep its message, add the place
             raise _error(getattr(exc, "message", str(exc)), tok.offset) from None
 
-    def expr(self) -> Linear:
+    def call(self, coef: Fraction, name_tok: Token, calls: list, nested: bool) -> None:
+        """Parse ``abs(e)``, ``max(e, ...)`` or ``min(e, ...)`` after its name."""
+        if nested:
+            raise _error(f"{name_tok.text}() cannot stand inside another abs(), max() or min()", name_tok.offset)
+        self.advance()  # the "("
+        args = []
+        while True:
+            arg = self.expr(nested=True)
+            args.append(arg)
+            if self.tok.kind == "op" and self.tok.text == ",":
+                self.advance()
+                continue
+            if self.tok.kind == "op" and self.tok.text == ")":
+                end = self.advance().offset + 1
+                break
+            raise self.expected(f"',' or ')' to close {name_tok.text}(")
+        if name_tok.text == "abs" and len(args) != 1:
+            raise _error("abs() takes exactly one expression", name_tok.offset)
+        if name_tok.text in ("max", "min") and len(args) < 1:
+            raise _error(f"{name_tok.text}() needs at least one expression", name_tok.offset)
+        calls.append(Call(coef, name_tok.text, tuple(args), name_tok.offset, self.text[name_tok.offset:end]))
+
+    def expr(self, nested: bool = False) -> Linear:
         terms: dict[str, Fraction] = {}
         constant = Fraction(0)
+        calls: list[Call] = []
         first = True
         while True:
             sign = 1
@@ -152,13 +195,17 @@ class _Parser:
                     if self.tok.kind == "number":
                         coef *= self.number(self.advance())
                         star = False
-                if self.tok.kind == "name":
+                if self.tok.kind == "name" and self.tok.text in FUNCTIONS and self._next_is_paren():
+                    self.call(coef, self.advance(), calls, nested)
+                elif self.tok.kind == "name":
                     name = self.advance().text
                     terms[name] = terms.get(name, Fraction(0)) + coef
                 elif star:
                     raise self.expected("a variable name after '*'")
                 else:
                     constant += coef
+            elif tok.kind == "name" and tok.text in FUNCTIONS and self._next_is_paren():
+                self.call(Fraction(sign), self.advance(), calls, nested)
             elif tok.kind == "name":
                 self.advance()
                 if self.tok.kind == "op" and self.tok.text == "*":
@@ -177,7 +224,11 @@ class _Parser:
                 raise self.expected("'+', '-' or a comparison")
         # drop terms that cancelled; keep first-appearance order
         kept = tuple((k, v) for k, v in terms.items() if v != 0)
-        return Linear(kept, constant)
+        return Linear(kept, constant, tuple(c for c in calls if c.coefficient != 0))
+
+    def _next_is_paren(self) -> bool:
+        nxt = self.tokens[self.i + 1]
+        return nxt.kind == "op" and nxt.text == "("
 
     def expected(self, what: str) -> ExpressionError:
         tok = self.tok
@@ -240,13 +291,18 @@ def parse_comparison(text: str, limits: Limits = DEFAULT_LIMITS) -> Comparison:
             terms[k] = terms.get(k, Fraction(0)) - v
         kept = tuple((k, v) for k, v in terms.items() if v != 0)
         bound = rhs.constant - lhs.constant
+        calls = lhs.calls + tuple(Call(-c.coefficient, c.function, c.args, c.offset, c.text) for c in rhs.calls)
         op = ops[0].text
         if op == "<=":
-            return Comparison(kept, None, bound)
+            return Comparison(kept, None, bound, calls)
         if op == ">=":
-            return Comparison(kept, bound, None)
-        return Comparison(kept, bound, bound)
+            return Comparison(kept, bound, None, calls)
+        return Comparison(kept, bound, bound, calls)
     (a, a_off), (mid, _), (b, b_off) = parts
+    for side in (a, mid, b):
+        if side.calls:
+            raise _error("abs(), max() and min() cannot stand in a chained comparison: "
+                         "write each side as its own constraint", side.calls[0].offset)
     for side, off in ((a, a_off), (b, b_off)):
         if side.terms:
             raise _error(

@@ -73,6 +73,22 @@ class Model:
     name: str | None = None
     description: str | None = None
     source: str | None = field(default=None, compare=False)
+    #: abs()/max()/min() reformulated: the auxiliary variables (exactlp.reform.Auxiliary)
+    auxiliary: tuple = field(default=(), compare=False)
+    #: constraint name -> the formula as written, for rows that held abs()/max()/min()
+    written: tuple[tuple[str, str], ...] = field(default=(), compare=False)
+    #: the objective as written, when it held abs()/max()/min()
+    written_objective: str | None = field(default=None, compare=False)
+
+    def auxiliary_names(self) -> set[str]:
+        """Names of the auxiliary variables and of the rows that define them."""
+        out = set()
+        for a in self.auxiliary:
+            out.add(a.name)
+        for c in self.constraints:
+            if c.note and c.note.startswith("auxiliary: "):
+                out.add(c.name)
+        return out
 
     # -- lookups -------------------------------------------------------
     def variable_names(self) -> list[str]:

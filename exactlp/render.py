@@ -102,22 +102,32 @@ def summary(console: Console, model: Model, path: str) -> None:
     ])
 
 
-def show_model(console: Console, model: Model) -> None:
+def show_model(console: Console, model: Model, expanded: bool = False) -> None:
     console.print(Text(f"Model: {model_title(model)}", style="bold"))
     if model.description:
         console.print(Text(model.description))
-    console.print(Text(f"Objective: {objective_text(model)}"))
+    hidden = set() if expanded else model.auxiliary_names()
+    written = dict(model.written)
+    if model.written_objective and not expanded:
+        console.print(Text(f"Objective: {model.sense.value} {model.written_objective}"), soft_wrap=True)
+    else:
+        console.print(Text(f"Objective: {objective_text(model)}"), soft_wrap=True)
+    if model.auxiliary:
+        console.print(Text("(the linear program actually solved: exactlp show --expanded)" if not expanded else
+                           f"(expanded: {len(model.auxiliary)} auxiliary variables stand for abs(), max() and min())"))
     t = Table(title="Variables", box=BOX, title_justify="left")
     for h in ("variable", "lower", "upper", "unit", "note"):
         t.add_column(h, justify="right" if h in ("lower", "upper") else "left")
     for v in model.variables:
-        add_row(t, v.name, lo(v.lower), hi(v.upper), v.unit or "", v.note or "")
+        if v.name not in hidden:
+            add_row(t, v.name, lo(v.lower), hi(v.upper), v.unit or "", v.note or "")
     console.print(t)
     t = Table(title="Constraints", box=BOX, title_justify="left")
     t.add_column("constraint")
     t.add_column("rule")
     for c in model.constraints:
-        add_row(t, c.name, row_formula(c))
+        if c.name not in hidden:
+            add_row(t, c.name, written[c.name] if (c.name in written and not expanded) else row_formula(c))
     if model.constraints:
         console.print(t)
     else:
@@ -203,6 +213,16 @@ def solve_report(console: Console, model: Model, result, *, digits: int, certifi
                     row += [format_number(result.duals[c.name]), "binding" if tight else "slack"]
                 add_row(t, *row)
             console.print(t)
+    if model.auxiliary and st is Status.OPTIMAL:
+        from .reform import evaluate
+
+        console.print(Text("In the model's own terms (each function's exact value at the optimum):"))
+        t = Table(box=BOX)
+        for h in ("where", "function", "value"):
+            t.add_column(h, justify="right" if h == "value" else "left")
+        for a in model.auxiliary:
+            add_row(t, a.context, a.text, format_number(evaluate(a, result.primal)))
+        console.print(t)
     if st is Status.INFEASIBLE and result.crossed is not None:
         kind, name = result.crossed
         console.print(Text(f"The {kind} '{name}' has a lower bound above its upper bound."), soft_wrap=True)

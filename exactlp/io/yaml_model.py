@@ -28,6 +28,7 @@ from ..expr import NAME_RE, Linear, parse_comparison, parse_expression
 from ..limits import DEFAULT_LIMITS, Limits
 from ..model import Constraint, Model, Sense, Variable
 from ..numbers import format_number, parse_bound, parse_number
+from ..reform import WHY, Expander, convex
 from .yamltree import Mapping, Node, Scalar, Sequence, kind_name, load_tree, parse_yaml
 
 TOP_KEYS = ("name", "description", "maximize", "minimize", "variables", "constraints")
@@ -126,8 +127,16 @@ class _Reader:
             raise self.fail("missing key 'variables' (every variable must be declared)", root, "(document)")
         variables = self.variables(vnode)
         order = {v.name: i for i, v in enumerate(variables)}
+        cnode_ = root.get("constraints")
+        row_names = set(cnode_.keys()) if isinstance(cnode_, Mapping) else set()
+        self.expander = Expander(set(order) | row_names)
+        self.written: list[tuple[str, str]] = []
+        self.written_objective = None
+        self.sense = Sense(sense_key)
 
         obj, const = self.objective(root.get(sense_key), sense_key, order)  # type: ignore[arg-type]
+        objective_rows = list(self.expander.rows)
+        self.expander.rows.clear()
 
         constraints: list[Constraint] = []
         cnode = root.get("constraints")
@@ -146,22 +155,28 @@ class _Reader:
                 )
             for key, spec in cnode.items:
                 c = self.constraint(key.text, spec, order)
-                nonzeros += len(c.terms)
-                if nonzeros > self.limits.max_nonzeros:
-                    raise self.fail(
-                        f"more than the limit of {self.limits.max_nonzeros} nonzeros",
-                        spec, f"constraints.{key.text}", LimitError,
-                    )
-                constraints.append(c)
+                for row in [c] + self.expander.rows:
+                    nonzeros += len(row.terms)
+                    if nonzeros > self.limits.max_nonzeros:
+                        raise self.fail(
+                            f"more than the limit of {self.limits.max_nonzeros} nonzeros",
+                            spec, f"constraints.{key.text}", LimitError,
+                        )
+                    constraints.append(row)
+                self.expander.rows.clear()
+        constraints.extend(objective_rows)
         return Model(
             sense=Sense(sense_key),
             objective=obj,
-            variables=tuple(variables),
+            variables=tuple(variables) + tuple(self.expander.variables),
             constraints=tuple(constraints),
             objective_constant=const,
             name=name,
             description=description,
             source=self.path,
+            auxiliary=tuple(self.expander.auxiliary),
+            written=tuple(self.written),
+            written_objective=self.written_objective,
         )
 
     def variables(self, node: Node) -> list[Variable]:
@@ -220,6 +235,24 @@ class _Reader:
             upper = self.bound(hi, f"{field}.upper", "upper")
         return Variable(name, lower, upper, unit, note)
 
+    def calls(self, calls, weight: int, context: str, order, node: Scalar, field: str):
+        """Check each call is a convex use, resolve its names, and replace it."""
+        out = []
+        for call in calls:
+            for arg in call.args:
+                self.resolve(arg.terms, order, node, field, node.text)
+            if not convex(call, Fraction(weight)):
+                err = ExpressionError(f"{call.text}: {WHY[call.function]}")
+                err.offset = call.offset  # type: ignore[attr-defined]
+                raise self.relocate(err, node, field)
+            try:
+                t, k = self.expander.replace(call, context)
+            except ExpressionError as e:
+                raise self.relocate(e, node, field) from None
+            order[t] = len(order)
+            out.append((t, k))
+        return out
+
     def resolve(
         self, lin_terms, order: dict[str, int], node: Scalar, field: str, text: str
     ) -> tuple[tuple[str, Fraction], ...]:
@@ -270,7 +303,13 @@ class _Reader:
             lin: Linear = parse_expression(node.text, self.limits)
         except (ExpressionError, ModelError) as e:
             raise self.relocate(e, node, key) from None
-        return self.resolve(lin.terms, order, node, key, node.text), lin.constant
+        terms = self.resolve(lin.terms, order, node, key, node.text)
+        if lin.calls:
+            weight = 1 if self.sense is Sense.MINIMIZE else -1
+            extra = self.calls(lin.calls, weight, "objective", order, node, key)
+            terms = tuple(sorted(terms + tuple(extra), key=lambda kv: order[kv[0]]))
+            self.written_objective = node.text
+        return terms, lin.constant
 
     def constraint(self, name: str, spec: Node, order: dict[str, int]) -> Constraint:
         field = f"constraints.{name}"
@@ -307,6 +346,16 @@ class _Reader:
         except (ExpressionError, ModelError) as e:
             raise self.relocate(e, spec, field) from None
         terms = self.resolve(cmp.terms, order, spec, field, spec.text)
+        if cmp.calls:
+            if cmp.lower is not None and cmp.upper is not None:
+                err = ExpressionError(f"{cmp.calls[0].text}: abs(), max() and min() need a one-sided "
+                                      "inequality (<= or >=), not == or a range")
+                err.offset = cmp.calls[0].offset  # type: ignore[attr-defined]
+                raise self.relocate(err, spec, field)
+            weight = 1 if cmp.upper is not None else -1  # the form "... <= bound" keeps the sign
+            extra = self.calls(cmp.calls, weight, name, order, spec, field)
+            terms = tuple(sorted(terms + tuple(extra), key=lambda kv: order[kv[0]]))
+            self.written.append((name, spec.text))
         return Constraint(name, terms, cmp.lower, cmp.upper)
 
 
