@@ -118,6 +118,9 @@ class AuditLog:
         self.stream.flush()
 
     def __call__(self, event) -> None:
+        if isinstance(event, tuple) and event[0] == "stage":  # a priority tier begins
+            self.write({"record": "stage", "index": event[1], "name": event[2]})
+            return
         rec = event_record(event)
         if rec["record"] == "close":
             if self.timestamps:

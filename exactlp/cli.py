@@ -255,10 +255,19 @@ def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, ti
             for f in listeners:
                 f(ev)
 
+        opts = dict(pricing=pricing, iteration_limit=iteration_limit, time_limit=time_limit,
+                    listener=listener if listeners else None, tableau=tableau,
+                    should_stop=lambda: stop["signal"] is not None, warm_start=warm_start)
+
         def run():
-            return run_solve(m, pricing=pricing, iteration_limit=iteration_limit, time_limit=time_limit,
-                             listener=listener if listeners else None, tableau=tableau,
-                             should_stop=lambda: stop["signal"] is not None, warm_start=warm_start)
+            if m.stages:
+                from .stages import solve_stages
+
+                staged_box.append(solve_stages(m, **opts))
+                return staged_box[-1].final
+            return run_solve(m, **opts)
+
+        staged_box: list = []
 
         if status_line is not None:
             with status_line:
@@ -283,8 +292,13 @@ def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, ti
 
     cert = None
     verified = None
+    shown = m
+    if staged_box:
+        from .stages import staged_certificate
+
+        shown = staged_box[-1].stages[-1][1]  # the last stage's own linear program
     if result.status.is_proven:
-        cert = build_certificate(m, result)
+        cert = staged_certificate(m, staged_box[-1]) if staged_box else build_certificate(m, result)
         check = verify(m, cert)
         verified = check.valid
         if not check.valid:  # the solver produced a proof the verifier rejects: our bug
@@ -292,11 +306,21 @@ def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, ti
         if certificate is not None:
             write_atomic(certificate, dump_certificate(cert, cert_format), protect=(model_path,))
     if as_json:
-        typer.echo(_result_json(m, result, cert, certificate, log, digits))
-    else:
-        from .render import solve_report
+        doc = json.loads(_result_json(shown, result, cert, certificate, log, digits))
+        doc["model"] = {"name": m.name, "fingerprint": m.fingerprint}
+        if staged_box:
+            from .numbers import format_number
 
-        solve_report(_console(), m, result, digits=digits, certificate=certificate if cert else None,
+            doc["stages"] = [{"name": n, "status": r.status.value,
+                              "objective": None if r.objective is None else format_number(r.objective)}
+                             for n, _, r in staged_box[-1].stages]
+        typer.echo(json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False))
+    else:
+        from .render import solve_report, stages_report
+
+        if staged_box:
+            stages_report(_console(), m, staged_box[-1])
+        solve_report(_console(), shown, result, digits=digits, certificate=certificate if cert else None,
                      verified=verified, log=log, cert=cert)
     if not result.status.is_proven:
         raise typer.Exit(EXIT_LIMIT)

@@ -63,6 +63,17 @@ class Constraint:
 
 
 @dataclass(frozen=True)
+class Stage:
+    """One tier of a priority model: its own objective, solved in order."""
+
+    name: str
+    sense: Sense
+    objective: tuple[tuple[str, Fraction], ...]
+    constant: Fraction = Fraction(0)
+    written: str | None = None
+
+
+@dataclass(frozen=True)
 class Model:
     sense: Sense
     #: (variable name, nonzero coefficient), in variable declaration order
@@ -79,6 +90,9 @@ class Model:
     written: tuple[tuple[str, str], ...] = field(default=(), compare=False)
     #: the objective as written, when it held abs()/max()/min()
     written_objective: str | None = field(default=None, compare=False)
+    #: priority tiers (``objectives:``), in order; empty for a single objective.
+    #: The model's own sense and objective are then those of the last stage.
+    stages: tuple[Stage, ...] = ()
 
     def auxiliary_names(self) -> set[str]:
         """Names of the auxiliary variables and of the rows that define them."""
@@ -127,6 +141,9 @@ class Model:
                 for c in self.constraints
             ],
         }
+        if self.stages:
+            doc["stages"] = [[st.name, st.sense.value, [[n, format_number(c)] for n, c in st.objective],
+                              format_number(st.constant)] for st in self.stages]
         return json.dumps(doc, separators=(",", ":"), ensure_ascii=True, sort_keys=True)
 
     @property
@@ -142,6 +159,26 @@ class Model:
         return self.objective_constant + sum(
             (c * values[n] for n, c in self.objective), Fraction(0)
         )
+
+
+def stage_model(model: Model, k: int, held: list[Fraction]) -> Model:
+    """The linear program of stage ``k`` (0-based) of a priority model.
+
+    Stage ``k`` optimises its own objective subject to every constraint, with
+    the objective of each earlier stage ``j`` held exactly at ``held[j]`` (its
+    certified optimum, constant included) by an equality row ``NAME.held``.
+    """
+    from dataclasses import replace
+
+    st = model.stages[k]
+    rows = list(model.constraints)
+    for j in range(k):
+        prev = model.stages[j]
+        value = held[j] - prev.constant
+        rows.append(Constraint(f"{prev.name}.held", prev.objective, value, value,
+                               note=f"stage '{prev.name}' held at its proven optimum"))
+    return replace(model, sense=st.sense, objective=st.objective, objective_constant=st.constant,
+                   constraints=tuple(rows), stages=(), written_objective=st.written)
 
 
 # ----------------------------------------------------------------------

@@ -246,6 +246,21 @@ def solve_report(console: Console, model: Model, result, *, digits: int, certifi
         caution(console)
 
 
+def stages_report(console: Console, model: Model, staged) -> None:
+    console.print(Text(f"Priority tiers of {model_title(model)}: each solved with the earlier optima held exactly"),
+                  soft_wrap=True)
+    t = Table(box=BOX)
+    for h in ("tier", "goal", "outcome", "optimum"):
+        t.add_column(h, justify="right" if h == "optimum" else "left")
+    by_name = {st.name: st for st in model.stages}
+    for name, _, r in staged.stages:
+        st = by_name[name]
+        goal = f"{st.sense.value} {st.written or formula(st.objective)}"
+        add_row(t, name, goal, r.status.value, "" if r.objective is None else format_number(r.objective))
+    console.print(t)
+    console.print(Text("The last tier in detail:"))
+
+
 def verify_report(console: Console, verification, model_path: str, cert_path: str) -> None:
     for c in verification.checks:
         mark = "pass" if c.ok else "FAIL"

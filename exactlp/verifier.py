@@ -35,7 +35,7 @@ from dataclasses import dataclass
 from fractions import Fraction
 
 from .limits import DEFAULT_LIMITS
-from .model import Model, Sense
+from .model import Model, Sense, stage_model
 from .numbers import format_number as fmt, parse_number
 
 #: numbers in certificates may be long (exact solutions); their own cap applies
@@ -75,27 +75,14 @@ def _num(text, where: str) -> Fraction:
         raise _Invalid(f"{where}: {getattr(exc, 'message', exc)}") from None
 
 
-def _table(cert: dict, key: str, names: list[str]) -> dict[str, Fraction]:
-    """Read ``cert[key]`` as name -> number, with exactly the names given."""
-    raw = cert.get(key)
+def _table(raw, key: str, names: list[str], dense: bool = True) -> dict[str, Fraction]:
+    """Read name -> number: every name present when ``dense``, else absent names are zero."""
     if not isinstance(raw, dict):
         raise _Invalid(f"'{key}' is missing or not a mapping")
     extra = sorted(set(raw) - set(names))
-    if extra:
-        raise _Invalid(f"{key}: '{extra[0]}' is not in the model")
-    missing = [n for n in names if n not in raw]
-    if missing:
-        raise _Invalid(f"{key}: '{missing[0]}' is missing")
-    return {n: _num(raw[n], f"{key}.{n}") for n in names}
-
-
-def _sparse(raw, key: str, names: list[str]) -> dict[str, Fraction]:
-    """Read name -> number where absent names mean zero."""
-    if not isinstance(raw, dict):
-        raise _Invalid(f"'{key}' is missing or not a mapping")
-    extra = sorted(set(raw) - set(names))
-    if extra:
-        raise _Invalid(f"{key}: '{extra[0]}' is not in the model")
+    missing = [n for n in names if n not in raw] if dense else []
+    if extra or missing:
+        raise _Invalid(f"{key}: '{extra[0]}' is not in the model" if extra else f"{key}: '{missing[0]}' is missing")
     return {n: _num(v, f"{key}.{n}") for n, v in raw.items()}
 
 
@@ -117,12 +104,12 @@ class _Checker:
         return sum((a * x.get(n, Fraction(0)) for n, a in terms), Fraction(0))
 
     def primal(self) -> dict[str, Fraction]:
-        x = _table(self.c, "primal", self.vars)
+        x = _table(self.c.get("primal"), "primal", self.vars)
         for v in self.m.variables:
             if (v.lower is not None and x[v.name] < v.lower) or (v.upper is not None and x[v.name] > v.upper):
                 raise _Invalid(f"bound of '{v.name}' violated: value {fmt(x[v.name])} "
                                f"outside [{_inf(v.lower) if v.lower is not None else '-inf'}, {_inf(v.upper)}]")
-        act = _table(self.c, "activities", self.rows)
+        act = _table(self.c.get("activities"), "activities", self.rows)
         for c in self.m.constraints:
             r = self.activity(c.terms, x)
             if r != act[c.name]:
@@ -141,8 +128,8 @@ class _Checker:
         if obj != stated:
             raise _Invalid(f"objective: stated {fmt(stated)}, but c^T x + c0 gives {fmt(obj)}")
         self.ok("objective", f"c^T x + c0 = {fmt(obj)}")
-        y = _table(self.c, "duals", self.rows)
-        d = _table(self.c, "reduced_costs", self.vars)
+        y = _table(self.c.get("duals"), "duals", self.rows)
+        d = _table(self.c.get("reduced_costs"), "reduced_costs", self.vars)
         cost = dict(m.objective)
         g = {n: Fraction(0) for n in self.vars}
         for c in m.constraints:
@@ -194,8 +181,8 @@ class _Checker:
         fk = self.c.get("farkas")
         if not isinstance(fk, dict):
             raise _Invalid("'farkas' is missing or not a mapping")
-        y = _sparse(fk.get("multipliers"), "farkas.multipliers", self.rows)
-        mu = _sparse(fk.get("bounds"), "farkas.bounds", self.vars)
+        y = _table(fk.get("multipliers"), "farkas.multipliers", self.rows, False)
+        mu = _table(fk.get("bounds"), "farkas.bounds", self.vars, False)
         need = {n: Fraction(0) for n in self.vars}
         for c in self.m.constraints:
             if y.get(c.name):
@@ -229,12 +216,12 @@ class _Checker:
     def unbounded(self) -> None:
         m, s = self.m, (1 if self.m.sense is Sense.MINIMIZE else -1)
         self.primal()
-        r = _sparse(self.c.get("ray"), "ray", self.vars)
+        r = _table(self.c.get("ray"), "ray", self.vars, False)
         for v in m.variables:
             rv = r.get(v.name, 0)
             if (rv > 0 and v.upper is not None) or (rv < 0 and v.lower is not None):
                 raise _Invalid(f"ray.{v.name} = {fmt(rv)} runs into a finite bound of '{v.name}'")
-        act = _table(self.c, "ray_activities", self.rows)
+        act = _table(self.c.get("ray_activities"), "ray_activities", self.rows)
         for c in m.constraints:
             a = self.activity(c.terms, r)
             if a != act[c.name]:
@@ -249,6 +236,34 @@ class _Checker:
         if s * cr >= 0:
             raise _Invalid(f"the ray does not improve the objective (c^T r = {fmt(cr)})")
         self.ok("ray improves", f"c^T r = {fmt(cr)}: the objective improves without limit")
+
+
+def _stages(model: Model, cert: dict, ch: _Checker) -> Verification:
+    """Priority tiers: each stage's certificate, on the stage model rebuilt with the
+    earlier stages' certified optima held exactly."""
+    given = cert.get("stages")
+    if not isinstance(given, list) or not given or len(given) > len(model.stages):
+        raise _Invalid("stages: expected one certificate per tier, in order")
+    held: list[Fraction] = []
+    for k, entry in enumerate(given):
+        name = model.stages[k].name
+        inner = (entry or {}).get("certificate") if isinstance(entry, dict) else None
+        if not isinstance(entry, dict) or entry.get("name") != name or not isinstance(inner, dict):
+            raise _Invalid(f"stages.{k + 1}: expected the certificate of tier '{name}'")
+        v = verify(stage_model(model, k, held), inner)
+        if not v.valid:
+            raise _Invalid(f"stage '{name}': {v.failure.detail}")
+        ch.ok(f"stage '{name}'", f"{v.status}" + (f", objective {inner.get('objective')}" if v.status == "optimal" else ""))
+        if v.status != "optimal" and k < len(given) - 1:
+            raise _Invalid(f"stage '{name}' is {v.status}, so no later stage can follow it")
+        if v.status == "optimal":
+            held.append(_num(inner.get("objective"), f"stages.{k + 1}.objective"))
+    if len(given) < len(model.stages) and v.status == "optimal":
+        raise _Invalid(f"stages: tier '{model.stages[len(given)].name}' is missing")
+    last = given[-1]["certificate"]
+    if cert.get("status") != last.get("status") or cert.get("objective") != last.get("objective"):
+        raise _Invalid("status and objective must be those of the last stage")
+    return Verification(True, cert.get("status"), tuple(ch.checks))
 
 
 def verify(model: Model, certificate) -> Verification:
@@ -266,6 +281,8 @@ def verify(model: Model, certificate) -> Verification:
         if fp != model.fingerprint:
             raise _Invalid(f"fingerprint: the certificate is for {fp}, the model given is {model.fingerprint}")
         ch.ok("model fingerprint", model.fingerprint)
+        if model.stages:
+            return _stages(model, certificate, ch)
         if certificate.get("sense") != model.sense.value:
             raise _Invalid(f"sense: the certificate says {certificate.get('sense')!r}, the model {model.sense.value!r}")
         if status == "optimal":

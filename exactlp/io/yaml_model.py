@@ -31,7 +31,8 @@ from ..numbers import format_number, parse_bound, parse_number
 from ..reform import WHY, Expander, convex
 from .yamltree import Mapping, Node, Scalar, Sequence, kind_name, load_tree, parse_yaml
 
-TOP_KEYS = ("name", "description", "maximize", "minimize", "variables", "constraints")
+TOP_KEYS = ("name", "description", "maximize", "minimize", "objectives", "variables", "constraints")
+STAGE_KEYS = ("name", "maximize", "minimize")
 VARIABLE_KEYS = ("lower", "upper", "fixed", "unit", "note")
 STRUCTURED_KEYS = ("terms", "lower", "upper", "equals", "note")
 OBJECTIVE_KEYS = ("terms", "constant")
@@ -112,15 +113,40 @@ class _Reader:
             description = self.text(d, "description")
 
         senses = [k for k in ("maximize", "minimize") if root.get(k) is not None]
+        staged = root.get("objectives")
+        if staged is not None and senses:
+            raise self.fail("give either objectives: (priority tiers) or maximize:/minimize:, not both",
+                            root.key_node("objectives"), "objectives")
         if len(senses) == 2:
             raise self.fail(
                 "give exactly one of maximize: or minimize:, not both",
                 root.key_node("minimize"),
                 "minimize",
             )
-        if not senses:
+        if not senses and staged is None:
             raise self.fail("missing the objective: give maximize: or minimize:", root, "(document)")
-        sense_key = senses[0]
+        stage_nodes = []
+        if staged is not None:
+            if not isinstance(staged, Sequence) or not staged.items:
+                raise self.fail("expected a list of tiers such as '- {name: senior, maximize: x}'", staged, "objectives")
+            for k, item in enumerate(staged.items):
+                field = f"objectives.{k + 1}"
+                if not isinstance(item, Mapping):
+                    raise self.fail(f"expected a mapping with name: and maximize: or minimize:, found {kind_name(item)}", item, field)
+                self.check_keys(item, STAGE_KEYS, field)
+                ss = [x for x in ("maximize", "minimize") if item.get(x) is not None]
+                if len(ss) != 1:
+                    raise self.fail("each tier needs exactly one of maximize: or minimize:", item, field)
+                nm = item.get("name")
+                if nm is None:
+                    raise self.fail("each tier needs a name:", item, field)
+                stage_nodes.append((self.text(nm, f"{field}.name"), ss[0], item.get(ss[0]), field))
+            names_seen = [n for n, _, _, _ in stage_nodes]
+            if len(set(names_seen)) != len(names_seen):
+                raise self.fail("two tiers have the same name", staged, "objectives")
+            sense_key = stage_nodes[-1][1]
+        else:
+            sense_key = senses[0]
 
         vnode = root.get("variables")
         if vnode is None:
@@ -134,7 +160,19 @@ class _Reader:
         self.written_objective = None
         self.sense = Sense(sense_key)
 
-        obj, const = self.objective(root.get(sense_key), sense_key, order)  # type: ignore[arg-type]
+        stages = []
+        if stage_nodes:
+            from ..model import Stage
+
+            for sname, skey, snode, field in stage_nodes:
+                self.sense = Sense(skey)
+                self.context = sname
+                self.written_objective = None
+                sterms, sconst = self.objective(snode, f"{field}.{skey}", order)
+                stages.append(Stage(sname, Sense(skey), sterms, sconst, self.written_objective))
+            obj, const = stages[-1].objective, stages[-1].constant
+        else:
+            obj, const = self.objective(root.get(sense_key), sense_key, order)  # type: ignore[arg-type]
         objective_rows = list(self.expander.rows)
         self.expander.rows.clear()
 
@@ -177,6 +215,7 @@ class _Reader:
             auxiliary=tuple(self.expander.auxiliary),
             written=tuple(self.written),
             written_objective=self.written_objective,
+            stages=tuple(stages),
         )
 
     def variables(self, node: Node) -> list[Variable]:
@@ -306,7 +345,7 @@ class _Reader:
         terms = self.resolve(lin.terms, order, node, key, node.text)
         if lin.calls:
             weight = 1 if self.sense is Sense.MINIMIZE else -1
-            extra = self.calls(lin.calls, weight, "objective", order, node, key)
+            extra = self.calls(lin.calls, weight, getattr(self, "context", "objective"), order, node, key)
             terms = tuple(sorted(terms + tuple(extra), key=lambda kv: order[kv[0]]))
             self.written_objective = node.text
         return terms, lin.constant
