@@ -1,0 +1,159 @@
+"""Fairness and priority models (issue 8): abs(), max()/min() and priority tiers.
+
+Each case's exact objective is derived by hand and confirmed on the expanded
+linear program with scipy (within its tolerance); published properties are
+checked on generated data.
+"""
+
+import copy
+import random
+from fractions import Fraction as F
+
+import pytest
+
+import exactlp
+from exactlp.certificate import build_certificate
+from exactlp.io import model_from_text
+from exactlp.reform import evaluate
+
+from .conftest import CASES
+from .helpers import scipy_solve, solve_verified
+
+
+def test_minimax_drought_by_hand_and_scipy():
+    # requests 400, 300, 250, 350 and 1000 ML: equal shortfall s with (1 - s) 1300 = 1000,
+    # so s = 3/13, and each town gets 10/13 of its request (no cap binds).
+    m = exactlp.load(CASES / "drought_minimax.yaml")
+    r = solve_verified(m)
+    assert r.objective == F(3, 13)
+    assert {k: r.primal[k] for k in ("north", "south", "east", "west")} == {
+        "north": F(4000, 13), "south": F(3000, 13), "east": F(2500, 13), "west": F(3500, 13)}
+    assert evaluate(m.auxiliary[0], r.primal) == F(3, 13)
+    status, obj = scipy_solve(m)
+    assert status == "optimal" and abs(obj - 3 / 13) < 1e-9
+
+
+def test_closest_to_historic_by_hand_and_scipy():
+    # last year's split sums to the fund (900); the new caps force p2 down 30 and p4
+    # down 15, and those 45 must go to p1, p3 or p5: total deviation 30 + 15 + 45 = 90.
+    m = exactlp.load(CASES / "shares_historic.yaml")
+    r = solve_verified(m)
+    assert r.objective == 90
+    assert (r.primal["p2"], r.primal["p4"]) == (F(230), F(185))
+    status, obj = scipy_solve(m)
+    assert status == "optimal" and abs(obj - 90) < 1e-7
+    from exactlp.analysis import ranges
+
+    rg = ranges(m, ["p1", "p3", "p5"])  # where the 45 go is left open by the rule
+    assert rg.unique is False and rg.ranges["p1"].minimum == 120 and rg.ranges["p1"].maximum == 165
+
+
+def test_priority_tiers_by_hand(tmp_path):
+    # tier 1: senior_a + senior_b <= 300 + 250 = 550, reachable.  Tier 2 holds 550 (so both
+    # seniors at their caps); 350 ML remain and the upper reach leaves junior_c <= 200:
+    # 12*300 + 9*250 + 21*200 + 15*150 = 12300.
+    from exactlp.stages import solve_stages, staged_certificate
+
+    m = exactlp.load(CASES / "water_priority.yaml")
+    st = solve_stages(m)
+    assert [(n, r.objective) for n, _, r in st.stages] == [("senior", 550), ("benefit", 12300)]
+    last_model = st.stages[-1][1]
+    held = next(c for c in last_model.constraints if c.name == "senior.held")
+    assert (held.lower, held.upper) == (F(550), F(550))
+    status, obj = scipy_solve(last_model)  # the expanded second stage, by the float reference
+    assert status == "optimal" and abs(obj - 12300) < 1e-6
+    cert = staged_certificate(m, st)
+    assert [s["name"] for s in cert["stages"]] == ["senior", "benefit"]
+    assert cert["status"] == "optimal" and cert["objective"] == "12300"
+    assert exactlp.verify(m, cert).valid
+    bad = copy.deepcopy(cert)  # a held value that is not the previous certified optimum
+    bad["stages"][0]["certificate"]["objective"] = "549"
+    assert not exactlp.verify(m, bad).valid
+    bad = copy.deepcopy(cert)
+    bad["objective"] = "12299"
+    assert exactlp.verify(m, bad).failure.detail == "status and objective must be those of the last stage"
+
+
+def test_priority_through_cli(cli, tmp_path):
+    cert = tmp_path / "c.yaml"
+    code, out, _ = cli("solve", CASES / "water_priority.yaml", "-c", cert)
+    assert code == 0 and "Priority tiers of Senior rights first, then benefit" in out
+    code, out, _ = cli("verify", CASES / "water_priority.yaml", cert)
+    assert code == 0 and "pass  stage 'senior': optimal, objective 550" in out
+
+
+def test_show_expanded(cli):
+    code, out, _ = cli("show", CASES / "shares_historic.yaml")
+    assert code == 0 and "objective.abs1" not in out
+    assert "Objective: minimize abs(p1 - 120) + abs(p2 - 260)" in out
+    code, out, _ = cli("show", CASES / "shares_historic.yaml", "--expanded")
+    assert "objective.abs1" in out and "objective.abs1.pos" in out
+
+
+@pytest.mark.parametrize(
+    "text, tail",
+    [
+        ("maximize: abs(a - 2)\nvariables: {a: {upper: 3}}\n",
+         "1:11: maximize: abs(a - 2): abs() can only be kept small: minimised, or bounded above ('abs(e) <= b'); "
+         "asking it to be large describes two separate regions, which is not a linear program"),
+        ("minimize: min(a, b)\nvariables: {a: {}, b: {}}\n",
+         "1:11: minimize: min(a, b): min() can only be kept large: maximised, or bounded below ('min(...) >= b'); "
+         "pushing a minimum down is not a linear program"),
+        ("maximize: max(a, b)\nvariables: {a: {upper: 1}, b: {upper: 1}}\n",
+         "1:11: maximize: max(a, b): max() can only be kept small: minimised, or bounded above ('max(...) <= b'); "
+         "pushing a maximum up is not a linear program"),
+        ("minimize: a\nvariables: {a: {}}\nconstraints:\n  c: abs(a - 2) >= 1\n",
+         "4:6: constraints.c: abs(a - 2): abs() can only be kept small: minimised, or bounded above ('abs(e) <= b'); "
+         "asking it to be large describes two separate regions, which is not a linear program"),
+        ("minimize: a\nvariables: {a: {}}\nconstraints:\n  c: abs(a) == 1\n",
+         "4:6: constraints.c: abs(a): abs(), max() and min() need a one-sided inequality (<= or >=), not == or a range"),
+        ("minimize: a\nvariables: {a: {}}\nconstraints:\n  c: 0 <= abs(a) <= 1\n",
+         "4:11: constraints.c: abs(), max() and min() cannot stand in a chained comparison: write each side as its own constraint"),
+        ("minimize: abs(max(a, 1))\nvariables: {a: {}}\n",
+         "1:15: minimize: max() cannot stand inside another abs(), max() or min()"),
+    ],
+)
+def test_non_convex_uses_are_refused(cli, write, text, tail):
+    path = write("m.yaml", text)
+    code, out, err = cli("check", path)
+    assert (code, out) == (2, "")
+    assert err == f"exactlp: {path}:{tail}\n"
+
+
+def _points(seed, m):
+    rng = random.Random(seed)
+    xs = sorted(rng.sample(range(-20, 21), m))
+    return [(F(x), F(rng.randint(-50, 50), rng.randint(1, 4))) for x in xs]
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_chebyshev_line_fit_equioscillates(seed):
+    # Chebyshev's equioscillation theorem (from memory; e.g. E. W. Cheney, Introduction to
+    # Approximation Theory, 1966): the best uniform line fit to m >= 3 points with distinct x
+    # attains its largest error at three points, with alternating signs.
+    pts = _points(seed, 3 + seed % 5)
+    parts = ", ".join(f"{y} - a - {x} b, a + {x} b - {y}".replace("- -", "+ ").replace("+ -", "- ") for x, y in pts)
+    m = model_from_text(f"minimize: max({parts})\nvariables: {{a: free, b: free}}\n")
+    r = solve_verified(m)
+    a, b, e = r.primal["a"], r.primal["b"], r.objective
+    res = [y - a - b * x for x, y in pts]
+    assert max(abs(v) for v in res) == e
+    extremal = [(x, 1 if v > 0 else -1) for (x, _), v in zip(pts, res) if abs(v) == e and e > 0]
+    signs = [s for _, s in extremal]
+    alternations = sum(1 for s, t in zip(signs, signs[1:]) if s != t)
+    assert e == 0 or alternations >= 2
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_least_absolute_deviations_line_passes_through_two_points(seed):
+    # A least-absolute-deviations line fit has an optimal line through at least two of the
+    # data points (from memory; e.g. P. Bloomfield and W. L. Steiger, Least Absolute Deviations,
+    # 1983); the simplex returns a vertex, which is such a line.
+    pts = _points(100 + seed, 4 + seed % 6)
+    obj = " + ".join(f"abs({y} - a - {x} b)".replace("- -", "+ ") for x, y in pts)
+    m = model_from_text(f"minimize: {obj}\nvariables: {{a: free, b: free}}\n")
+    r = solve_verified(m)
+    a, b = r.primal["a"], r.primal["b"]
+    assert sum(1 for x, y in pts if y == a + b * x) >= 2
+    status, obj_ref = scipy_solve(m)
+    assert status == "optimal" and abs(obj_ref - float(r.objective)) <= 1e-7 * max(1, abs(obj_ref))
