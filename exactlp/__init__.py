@@ -14,10 +14,23 @@ from .model import Constraint, Model, Sense, Variable, build_model  # noqa: E402
 
 
 def solve(model, **options):
-    """Solve ``model`` exactly; see :func:`exactlp.solver.solve`."""
+    """Solve ``model`` exactly; see :func:`exactlp.solver.solve`.
+
+    A model with priority tiers is solved tier by tier with :func:`solve_stages`.
+    """
+    if getattr(model, "stages", ()):
+        raise InputError("this model has priority tiers (objectives:): solve it with exactlp.solve_stages(model)",
+                         field="objectives")
     from .solver import solve as _solve
 
     return _solve(model, **options)
+
+
+def solve_stages(model, **options):
+    """Solve a model with priority tiers; see :func:`exactlp.stages.solve_stages`."""
+    from .stages import solve_stages as _solve_stages
+
+    return _solve_stages(model, **options)
 
 
 def verify(model, certificate):
@@ -46,6 +59,6 @@ def __getattr__(name):
 
 
 __all__ = [
-    "__version__", "ExactLPError", "InputError", "ModelError", "load", "solve", "verify",
+    "__version__", "ExactLPError", "InputError", "ModelError", "load", "solve", "solve_stages", "verify",
     "Model", "Variable", "Constraint", "Sense", "build_model", *_LAZY,
 ]

@@ -35,7 +35,7 @@ class Conflict:
 def _subset(model: Model, rows: set[str], bounded: set[str]) -> Model:
     cons = tuple(c for c in model.constraints if c.name in rows)
     vars_ = tuple(v if v.name in bounded else replace(v, lower=None, upper=None) for v in model.variables)
-    return replace(model, constraints=cons, variables=vars_, objective=(), objective_constant=Fraction(0))
+    return replace(model, constraints=cons, variables=vars_, objective=(), objective_constant=Fraction(0), stages=())
 
 
 def conflict(model: Model, **solve_options) -> Conflict:
@@ -153,6 +153,9 @@ def sensitivity(model: Model, **solve_options) -> Sensitivity:
     within their bounds, and the dual ``y_i`` is the objective's rate there.  A
     slack constraint's finite bound may move until it meets the activity.
     """
+    if model.stages:
+        raise InputError("this model has priority tiers: sensitivity and ranges apply to a single "
+                         "objective, not yet to tiers", field="objectives")
     from .floatlp import BasisHint
     from .solver import Status, solve
     from .solver.form import build_form, frac, q
@@ -328,6 +331,9 @@ def ranges(model: Model, variables: list[str] | None = None, **solve_options) ->
     maximised exactly with the objective held at its optimum by an equality
     row; each of those solves carries its own certificate.
     """
+    if model.stages:
+        raise InputError("this model has priority tiers: sensitivity and ranges apply to a single "
+                         "objective, not yet to tiers", field="objectives")
     from .solver import Status, solve
 
     r = solve(model, **solve_options)

@@ -72,6 +72,9 @@ def build_certificate(model: Model, result) -> dict[str, Any]:
         "status": result.status.value,
         "notice": NOTICE,
     }
+    if model.auxiliary:
+        # the certificate is about the expanded program: abs()/max()/min() reformulated
+        cert["program"] = {"expanded": True, "auxiliary": {a.name: a.text for a in model.auxiliary}}
     if result.status is Status.OPTIMAL:
         cert["objective"] = _n(result.objective)
         cert["primal"] = {k: _n(v) for k, v in result.primal.items()}

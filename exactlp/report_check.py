@@ -60,7 +60,7 @@ def _subset(model: Model, rows: set, bounded: set) -> Model:
     return replace(model, constraints=tuple(c for c in model.constraints if c.name in rows),
                    variables=tuple(v if v.name in bounded else replace(v, lower=None, upper=None)
                                    for v in model.variables),
-                   objective=(), objective_constant=Fraction(0))
+                   objective=(), objective_constant=Fraction(0), stages=())
 
 
 def _cert(model: Model, cert, what: str, checks: list) -> Verification:

@@ -157,3 +157,34 @@ def test_least_absolute_deviations_line_passes_through_two_points(seed):
     assert sum(1 for x, y in pts if y == a + b * x) >= 2
     status, obj_ref = scipy_solve(m)
     assert status == "optimal" and abs(obj_ref - float(r.objective)) <= 1e-7 * max(1, abs(obj_ref))
+
+
+def test_tiers_are_not_mistaken_for_one_objective(cli):
+    m = exactlp.load(CASES / "water_priority.yaml")
+    with pytest.raises(exactlp.InputError) as exc:
+        exactlp.solve(m)
+    assert str(exc.value) == ("objectives: this model has priority tiers (objectives:): solve it with "
+                              "exactlp.solve_stages(model)")
+    code, _, err = cli("sensitivity", CASES / "water_priority.yaml")
+    assert code == 2 and err == ("exactlp: objectives: this model has priority tiers: sensitivity and ranges "
+                                 "apply to a single objective, not yet to tiers\n")
+    assert exactlp.solve_stages(m).final.objective == 12300
+
+
+def test_conflict_of_an_infeasible_tiered_model():
+    from exactlp.analysis import conflict
+    from exactlp.report_check import check_report
+    from exactlp.reports import conflict_report
+
+    m = model_from_text("objectives:\n  - {name: one, maximize: a}\nvariables: {a: {upper: 3}}\nconstraints:\n  r: a >= 5\n")
+    c = conflict(m)
+    assert (c.constraints, c.bounds) == (("r",), ("a",))
+    assert check_report(m, conflict_report(m, c)).valid
+
+
+def test_certificate_says_it_is_about_the_expanded_program():
+    m = exactlp.load(CASES / "shares_historic.yaml")
+    cert = build_certificate(m, exactlp.solve(m))
+    assert cert["program"]["expanded"] is True
+    assert cert["program"]["auxiliary"]["objective.abs1"] == "abs(p1 - 120)"
+    assert exactlp.verify(m, cert).valid
