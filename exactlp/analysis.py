@@ -134,6 +134,12 @@ class Sensitivity:
     dual_directions: dict
 
 
+def _single_objective(model: Model) -> None:
+    if model.stages:
+        raise InputError("this model has priority tiers: sensitivity and ranges apply to a single "
+                         "objective, not yet to tiers", field="objectives")
+
+
 def _clip(lo, hi, value):
     return Interval(None if lo is None else value + lo, None if hi is None else value + hi)
 
@@ -153,9 +159,7 @@ def sensitivity(model: Model, **solve_options) -> Sensitivity:
     within their bounds, and the dual ``y_i`` is the objective's rate there.  A
     slack constraint's finite bound may move until it meets the activity.
     """
-    if model.stages:
-        raise InputError("this model has priority tiers: sensitivity and ranges apply to a single "
-                         "objective, not yet to tiers", field="objectives")
+    _single_objective(model)
     from .floatlp import BasisHint
     from .solver import Status, solve
     from .solver.form import build_form, frac, q
@@ -331,9 +335,7 @@ def ranges(model: Model, variables: list[str] | None = None, **solve_options) ->
     maximised exactly with the objective held at its optimum by an equality
     row; each of those solves carries its own certificate.
     """
-    if model.stages:
-        raise InputError("this model has priority tiers: sensitivity and ranges apply to a single "
-                         "objective, not yet to tiers", field="objectives")
+    _single_objective(model)
     from .solver import Status, solve
 
     r = solve(model, **solve_options)
