@@ -284,18 +284,27 @@ def trace_report(console: Console, records: list[dict], pivot: int | None) -> No
         ("settings", ", ".join(f"{k}={v if isinstance(v, str) else json.dumps(v)}"
                                for k, v in sorted((header.get("settings") or {}).items()))),
     ])
-    steps = [r for r in records if r.get("record") in ("pivot", "flip")]
+    tier = None
+    steps = []
+    for r in records:  # a priority model's log marks where each tier begins
+        if r.get("record") == "stage":
+            tier = r.get("name")
+        elif r.get("record") in ("pivot", "flip"):
+            steps.append(dict(r, tier=tier) if tier is not None else r)
+    tiered = tier is not None
     close = next((r for r in records if r.get("record") == "close"), None)
     if pivot is None:
         t = Table(title="Pivots", box=BOX, title_justify="left")
-        for h in ("#", "phase", "entering", "leaving", "ratio", "step", "objective", "rule"):
+        heads = (("tier",) if tiered else ()) + ("#", "phase", "entering", "leaving", "ratio", "step", "objective", "rule")
+        for h in heads:
             t.add_column(h, justify="right" if h in ("#", "phase", "ratio", "step", "objective") else "left")
         for r in steps:
             leaving = r.get("leaving")
             lv = "bound flip" if not isinstance(leaving, dict) else f"{leaving['name']} -> {r.get('leaving_bound')}"
             ent = r["entering"]["name"] + (" ↑" if r.get("direction") == "increase" else " ↓")
-            add_row(t, str(r["iteration"]), str(r["phase"]), ent, lv, r.get("ratio") or "", r["step"],
-                      r["objective"], r["rule"] + (" (degenerate)" if r.get("degenerate") else ""))
+            cells = [str(r["iteration"]), str(r["phase"]), ent, lv, r.get("ratio") or "", r["step"],
+                     r["objective"], r["rule"] + (" (degenerate)" if r.get("degenerate") else "")]
+            add_row(t, *(([r.get("tier") or ""] if tiered else []) + cells))
         console.print(t)
     else:
         match = [r for r in steps if r.get("iteration") == pivot]

@@ -188,3 +188,15 @@ def test_certificate_says_it_is_about_the_expanded_program():
     assert cert["program"]["expanded"] is True
     assert cert["program"]["auxiliary"]["objective.abs1"] == "abs(p1 - 120)"
     assert exactlp.verify(m, cert).valid
+
+
+def test_tiered_model_round_trips_and_traces(cli, tmp_path):
+    from exactlp.io import dump_yaml_model
+
+    m = exactlp.load(CASES / "water_priority.yaml")
+    again = model_from_text(dump_yaml_model(m))
+    assert again.fingerprint == m.fingerprint and [s.name for s in again.stages] == ["senior", "benefit"]
+    log = tmp_path / "l.jsonl"
+    assert cli("solve", CASES / "water_priority.yaml", "-l", log)[0] == 0
+    code, out, _ = cli("trace", log)
+    assert code == 0 and "tier" in out and "senior" in out and "benefit" in out

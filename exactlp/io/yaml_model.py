@@ -461,7 +461,14 @@ def dump_yaml_model(model: Model) -> str:
     if model.description:
         out.append(f"description: {quote(model.description)}")
     sense = model.sense.value
-    if _plain_names(model.objective):
+    if model.stages:
+        out.append("objectives:")
+        for st in model.stages:
+            out.append(f"  - name: {quote(st.name)}")
+            out.append(f"    {st.sense.value}:")
+            out.append(f"      constant: {quote(format_number(st.constant))}")
+            out.append("      terms: {" + ", ".join(f"{key(n)}: {quote(format_number(c))}" for n, c in st.objective) + "}")
+    elif _plain_names(model.objective):
         expr = _formula_terms(model.objective)
         c = model.objective_constant
         if c:
