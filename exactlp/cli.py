@@ -55,6 +55,11 @@ def _console(stderr: bool = False):
     return Console(stderr=stderr, highlight=False, soft_wrap=False, emoji=False)
 
 
+def _dumps(doc) -> str:
+    """The one JSON spelling of every --json document: sorted keys, exact numbers as strings."""
+    return json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False)
+
+
 def _fail(message: str, code: int) -> "typer.Exit":
     sys.stderr.write(f"exactlp: {message}\n")
     sys.stderr.flush()
@@ -171,7 +176,7 @@ def _result_json(model, result, cert, cert_path, log_path, digits):
         doc["verified"] = True
     if result.objective is not None:
         doc["objective_decimal"] = format_decimal(result.objective, digits)
-    return json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False)
+    return _dumps(doc)
 
 
 @app.command()
@@ -314,7 +319,7 @@ def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, ti
             doc["stages"] = [{"name": n, "status": r.status.value,
                               "objective": None if r.objective is None else format_number(r.objective)}
                              for n, _, r in staged_box[-1].stages]
-        typer.echo(json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False))
+        typer.echo(_dumps(doc))
     else:
         from .render import solve_report, stages_report
 
@@ -352,10 +357,10 @@ def verify(
         else:
             v = run_verify(m, cert)
         if as_json:
-            typer.echo(json.dumps({
+            typer.echo(_dumps({
                 "valid": v.valid, "status": v.status,
                 "checks": [{"name": c.name, "ok": c.ok, "detail": c.detail} for c in v.checks],
-            }, sort_keys=True, indent=2, ensure_ascii=False))
+            }))
         else:
             from .render import verify_report
 
@@ -430,7 +435,7 @@ def sensitivity(
                 "rhs_ranges": {k: dict(_interval(v.interval), dual=format_number(v.dual), bound=v.bound,
                                        value=format_number(v.value)) for k, v in s.rhs_ranges.items()},
             }
-            typer.echo(json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False))
+            typer.echo(_dumps(doc))
         else:
             from .render import sensitivity_report
 
@@ -469,7 +474,7 @@ def ranges_(
                                "max": None if v.maximum is None else format_number(v.maximum),
                                "method": v.method} for k, v in rg.ranges.items()},
             }
-            typer.echo(json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False))
+            typer.echo(_dumps(doc))
         else:
             from .render import ranges_report
 
@@ -506,7 +511,7 @@ def conflict(
                 "bound_multipliers": {k: format_number(v) for k, v in c.result.farkas_bounds.items()},
                 "solves": c.solves,
             }
-            typer.echo(json.dumps(doc, sort_keys=True, indent=2, ensure_ascii=False))
+            typer.echo(_dumps(doc))
         else:
             from .render import conflict_report
 
