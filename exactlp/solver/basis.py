@@ -163,6 +163,8 @@ class LUBasis(EtaBasis):
         self.lsteps = lsteps  # [(r_k, [(i, l_ik), ...])] in elimination order
         self.ucols = ucols  # [(r_k, u_kk, [(r_j, u_jk) for j < k])] in elimination order
         self.pivots = pivots
+        #: nonzeros of L and U (the diagonal included): the cost of one solve with the factors
+        self.lu_nonzeros = sum(len(ls) for _, ls in lsteps) + sum(len(above) + 1 for _, _, above in ucols)
 
     def ftran(self, col):
         v: dict[int, mpq] = {}

@@ -94,7 +94,8 @@ def _lex_less(a: list[tuple[int, mpq]], b: list[tuple[int, mpq]]) -> bool:
         j += 1
     return False
 #: rebuild the eta file after this many updates
-REINVERT_EVERY = 64
+REINVERT_EVERY = 8
+ETA_BUDGET = 1
 #: largest model (rows x columns) for which the full tableau can be recorded
 TABLEAU_LIMIT = 20_000
 
@@ -632,7 +633,7 @@ class Simplex:
                 self.pos_of[q] = p
                 self.head[p] = q
                 self.basis.replace(p, alpha)
-                if self.basis.updates >= REINVERT_EVERY:
+                if self._refactor_due():
                     self._reinvert()
             changed = self._after_step is not None and self._after_step()
             if changed:
@@ -663,6 +664,13 @@ class Simplex:
                     rule=rule,
                     tableau=tab,
                 ))
+
+    def _refactor_due(self) -> bool:
+        basis = self.basis
+        if basis.updates >= REINVERT_EVERY:
+            return True
+        lu = getattr(basis, "lu_nonzeros", None)
+        return lu is not None and basis.eta_nonzeros > ETA_BUDGET * (lu + self.m)
 
     def _reinvert(self) -> None:
         self.basis, self.head = FACTOR(self.m, self.head, self.cols, self.unit_row)
