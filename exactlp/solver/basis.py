@@ -256,7 +256,6 @@ def factor_lu(
                     colrows[cj].discard(r)
             pivot_of_col[c] = (r, piv)
             order.append(c)
-            lsteps.append((r, []))
             row_alive[r] = False
             rows[r] = {}
             remaining.discard(c)
@@ -319,7 +318,8 @@ def factor_lu(
                     del ri[cj]
                     colrows[cj].discard(i)
                     touched.add(cj)
-        lsteps.append((r, ls))
+        if ls:  # a step with no multipliers changes nothing in either solve
+            lsteps.append((r, ls))
         # retire the pivot row and column
         for cj in prow:
             if cj != c:

@@ -447,15 +447,7 @@ class Simplex:
         theta = d[q] / alpha_pq  # type: ignore[operator]
         d[q] = None
         if theta:
-            rho = self.basis.btran({p: ONE})
-            rows, state = self._rows(), self.state
-            acc: dict[int, mpq] = {}
-            get = acc.get
-            for i, r in enumerate(rho):
-                if r:
-                    for j, a in rows[i]:
-                        if state[j] != BASIC:
-                            acc[j] = get(j, ZERO) + r * a
+            acc = self._tableau_row(p)
             w = self.weights
             lq = _log16(alpha_pq)
             wq = w[q] - 2 * lq
@@ -471,6 +463,23 @@ class Simplex:
             d[b] = None  # fixed (an artificial in phase 2, or a fixed variable): cannot move
         else:
             d[b] = -theta
+
+    def _tableau_row(self, p: int, nonbasic_only: bool = True) -> dict[int, mpq]:
+        """Row p of ``B^-1 A``: ``rho . a_j`` for the columns j (nonbasic ones by default).
+
+        ``rho = e_p^T B^-1`` by one btran; then only the rows of A where rho
+        is nonzero are read, which is cheap when rho is sparse.
+        """
+        rho = self.basis.btran({p: ONE})
+        rows, state = self._rows(), self.state
+        acc: dict[int, mpq] = {}
+        get = acc.get
+        for i, r in enumerate(rho):
+            if r:
+                for j, a in rows[i]:
+                    if not nonbasic_only or state[j] != BASIC:
+                        acc[j] = get(j, ZERO) + r * a
+        return acc
 
     def _rows(self) -> list[list[tuple[int, mpq]]]:
         """The columns read by rows (kept until the set of columns changes)."""
@@ -622,7 +631,8 @@ class Simplex:
         candidates still tied are kept.  At the rank of a basic column only
         that column's own distance has a term (``+e_b / |rate_b|``), which
         rules it out; at the rank of a nonbasic column ``j`` one ftran,
-        ``B^-1 a_j``, gives the ``e_j`` term of every candidate at once.
+        ``B^-1 a_j``, gives the ``e_j`` term of every candidate at once, or,
+        once that has cost as much, each candidate's row of ``B^-1`` does.
         """
         state = self.state
         # candidate: (column or None for the flip, position, bound, |rate|, sign of distance)
@@ -631,6 +641,7 @@ class Simplex:
             alive.append((None, -1, None, ONE, 0))
         by_column = {c[0]: c for c in alive if c[0] is not None}
         rows: dict[int, list[mpq]] = {}  # position -> row of B^-1, fetched lazily
+        walked = 0  # ftrans made so far in this tie-break
         for j in self._run_order:
             if len(alive) == 1:
                 break
@@ -641,18 +652,20 @@ class Simplex:
                 continue
             if sj == AT_ZERO:
                 continue  # a free column at zero carries no perturbation
-            # (B^-1 a_j) at each candidate's position: from one ftran, or, once few
-            # candidates are left, from their rows of B^-1 (one btran each, kept)
+            # (B^-1 a_j) at each candidate's position: from one ftran, or from the
+            # candidates' rows of B^-1 (one btran each, kept) once few candidates are
+            # left or the walk has already cost as many ftrans as they would btrans
             if j == q:
                 entry = lambda c: alpha.get(c[1], ZERO)  # noqa: E731
-            elif len(alive) <= 3 or all(c[1] in rows for c in alive if c[0] is not None):
+            elif len(alive) <= 3 or walked >= len(alive) or all(c[1] in rows for c in alive if c[0] is not None):
                 for c in alive:
                     if c[0] is not None and c[1] not in rows:
                         rows[c[1]] = self.basis.btran({c[1]: ONE})
                 col = self.cols[j]
-                entry = lambda c: sum((rows[c[1]][i] * v for i, v in col), ZERO)  # noqa: E731
+                entry = lambda c: sum((rows[c[1]][i] * v for i, v in col if rows[c[1]][i]), ZERO)  # noqa: E731
             else:
                 w = self.basis.ftran(self.cols[j])
+                walked += 1
                 entry = lambda c: w.get(c[1], ZERO)  # noqa: E731
             s_j = -1 if sj == AT_LOWER else 1
             coefs = []
