@@ -23,6 +23,7 @@ acceptable pivot, so the order aims purely at sparsity.
 from __future__ import annotations
 
 import heapq
+from collections import deque
 
 from gmpy2 import mpq
 
@@ -240,26 +241,61 @@ def factor_lu(
     order: list[int] = []  # columns in elimination order
     remaining = set(head)
     lsteps = []
-    # Column singletons first, in one pass: a column with one nonzero (every basic
-    # logical) is its own pivot with no elimination and no fill.  Its pivot row
-    # becomes a row of U; the row is retired from the other columns.
-    for c in head:
+    # Singletons first (the triangular part, which in practice is most of a
+    # basis).  A column with one nonzero in the active submatrix (every basic
+    # logical, to begin with) is its own pivot with no elimination and no fill:
+    # its row becomes a row of U and is retired, which may leave other columns
+    # with one nonzero; these are taken in turn, until none is left.
+    queue = deque(c for c in head if len(colrows[c]) == 1)
+    while queue:
+        c = queue.popleft()
+        if c not in remaining:
+            continue
         rs = colrows[c]
-        if len(rs) == 1:
-            (r,) = rs
-            if not row_alive[r]:
+        if len(rs) != 1:
+            continue  # no nonzero left (singular: the Markowitz loop below says so)
+        (r,) = rs
+        piv = rows[r][c]
+        for cj, val in rows[r].items():
+            if cj != c:
+                ucols_by_col[cj].append((r, val))
+                crs = colrows[cj]
+                crs.discard(r)
+                if len(crs) == 1:
+                    queue.append(cj)
+        pivot_of_col[c] = (r, piv)
+        order.append(c)
+        row_alive[r] = False
+        rows[r] = {}
+        remaining.discard(c)
+        del colrows[c]
+    # Then rows with one nonzero: pivoting there needs multipliers (the column's
+    # other entries) but makes no fill, since the pivot row has nothing else; the
+    # rows that lose their entry in the column may become singletons in turn.
+    # (Neither kind of step can make a new column singleton: a row singleton's
+    # row has no other column to leave.)
+    queue = deque(i for i in range(m) if row_alive[i] and len(rows[i]) == 1)
+    while queue:
+        r = queue.popleft()
+        if not row_alive[r] or len(rows[r]) != 1:
+            continue
+        ((c, piv),) = rows[r].items()
+        ls = []
+        for i in sorted(colrows[c]):
+            if i == r:
                 continue
-            piv = rows[r][c]
-            for cj, val in rows[r].items():
-                if cj != c:
-                    ucols_by_col[cj].append((r, val))
-                    colrows[cj].discard(r)
-            pivot_of_col[c] = (r, piv)
-            order.append(c)
-            row_alive[r] = False
-            rows[r] = {}
-            remaining.discard(c)
-            del colrows[c]
+            ri = rows[i]
+            ls.append((i, ri.pop(c) / piv))
+            if len(ri) == 1:
+                queue.append(i)
+        if ls:
+            lsteps.append((r, ls))
+        pivot_of_col[c] = (r, piv)
+        order.append(c)
+        row_alive[r] = False
+        rows[r] = {}
+        remaining.discard(c)
+        del colrows[c]
     # a lazy heap of (column count, column): stale entries are skipped when popped
     heap = [(len(colrows[c]), c) for c in remaining]
     heapq.heapify(heap)

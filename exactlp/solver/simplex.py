@@ -124,7 +124,7 @@ def _l16(n) -> int:
 
 
 #: rebuild the eta file after this many updates
-REINVERT_EVERY = 8
+REINVERT_EVERY = 16
 ETA_BUDGET = 1
 #: largest model (rows x columns) for which the full tableau can be recorded
 TABLEAU_LIMIT = 20_000
@@ -180,6 +180,8 @@ class Simplex:
         self.allow_repair = allow_repair
         self._after_step = None
         self._rows_cache = None
+        self.weights: list[int] = []
+        self.scores: list[int] = []
         if hint is not None:
             reason = self._setup_warm(hint)
             if reason is None and self.repair:
@@ -451,18 +453,21 @@ class Simplex:
             w = self.weights
             lq = _log16(alpha_pq)
             wq = w[q] - 2 * lq
+            score = self.scores
             for j, v in acc.items():
                 dj = d[j]
                 if dj is not None and v:
-                    d[j] = dj - theta * v
+                    dj = d[j] = dj - theta * v
                     wj = wq + 2 * _log16(v)
                     if wj > w[j]:
                         w[j] = wj
+                    score[j] = 2 * _log16(dj) - w[j] if dj else 0
             w[b] = max(wq, 0)
         if self.lower[b] is not None and self.lower[b] == self.upper[b]:
             d[b] = None  # fixed (an artificial in phase 2, or a fixed variable): cannot move
         else:
             d[b] = -theta
+            self.scores[b] = 2 * _log16(theta) - self.weights[b]
 
     def _tableau_row(self, p: int, nonbasic_only: bool = True) -> dict[int, mpq]:
         """Row p of ``B^-1 A``: ``rho . a_j`` for the columns j (nonbasic ones by default).
@@ -525,7 +530,7 @@ class Simplex:
         first = best = -1
         best_abs = ZERO
         best_score = None
-        w = self.weights
+        scores = self.scores  # 2 (16 log2 |d_j|) - 16 log2 w_j, kept with d and w
         for j, dj in enumerate(d):
             if dj is None:
                 continue
@@ -543,7 +548,7 @@ class Simplex:
             if first < 0:
                 first = j
             if weighted:
-                score = 2 * _log16(a) - w[j]
+                score = scores[j]
                 if best_score is None or score > best_score or (score == best_score and a > best_abs):
                     best, best_abs, best_score = j, a, score
             elif a > best_abs:
@@ -703,8 +708,12 @@ class Simplex:
         while True:
             if d is None:
                 d = self._reduced_costs(cost, self._duals(cost))
+                w = self.weights
+                self.scores = [2 * _log16(dj) - w[j] if dj else 0 for j, dj in enumerate(d)]
             elif self.check_updates:
                 assert d == self._reduced_costs(cost, self._duals(cost)), "reduced-cost update drifted"
+                assert all(self.scores[j] == 2 * _log16(dj) - self.weights[j] for j, dj in enumerate(d) if dj), \
+                    "pricing scores out of step"
             if self.should_stop is not None and self.should_stop():
                 return Outcome("interrupted", z, self._duals(cost))
             if self.iteration_limit is not None and self.iterations >= self.iteration_limit:
