@@ -114,3 +114,25 @@ def test_solver_reaches_the_same_optimum_with_either(name, monkeypatch):
         r = exactlp.solve(model_from_text(text), warm_start=False)
         assert r.status.value == status and (objective is None or r.objective == objective)
     assert exactlp.solve(model_from_text(klee_minty(6)), warm_start=False).objective == 5**6
+
+
+@pytest.mark.parametrize("name", FACTORS)
+def test_triangular_parts_and_nucleus(name):
+    # rows: r0 = (2, 0, 0, 0) is a row singleton; column c3 = (0, 0, 0, 5) is a
+    # column singleton; after both, c1 and c2 leave a 2x2 nucleus in rows 1, 2
+    # (by hand: B x = (2, 4, 5, 5) gives x = (1, 1, 1, 1))
+    cols = [
+        [(0, mpq(2)), (1, mpq(1)), (2, mpq(1)), (3, mpq(1))],
+        [(1, mpq(1)), (2, mpq(2))],
+        [(1, mpq(2)), (2, mpq(2)), (3, mpq(-1))],
+        [(3, mpq(5))],
+    ]
+    cols += [[(i, mpq(-1))] for i in range(4)]
+    unit = {4 + i: (i, -1) for i in range(4)}
+    basis, order = FACTORS[name](4, [0, 1, 2, 3], cols, unit)
+    x = {order[p]: v for p, v in basis.ftran([(0, mpq(2)), (1, mpq(4)), (2, mpq(5)), (3, mpq(5))]).items()}
+    assert x == {0: 1, 1: 1, 2: 1, 3: 1} and all(type(v) is type(mpq(1)) for v in x.values())
+    # the row of B^-1 for c0's position: y^T a_c = 1 for c0 and 0 for the others
+    y = basis.btran({order.index(0): mpq(1)})
+    for k, c in enumerate(order):
+        assert sum((y[i] * a for i, a in cols[c]), mpq(0)) == (1 if c == 0 else 0)

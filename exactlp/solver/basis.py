@@ -315,13 +315,12 @@ def factor_lu(
             if cc == 0:
                 raise ArithmeticError("singular basis")
             for i in sorted(colrows[c]):
-                cost = (len(rows[i]) - 1) * (cc - 1)
+                # fill first; among equal fill, the pivot with the shortest numbers,
+                # since every multiplier and updated entry is divided by it
+                v = rows[i][c]
+                cost = ((len(rows[i]) - 1) * (cc - 1), v.numerator.bit_length() + v.denominator.bit_length())
                 if best_cost is None or cost < best_cost:
                     best, best_cost = (i, c), cost
-                    if cost == 0:
-                        break
-            if best_cost == 0:
-                break
         r, c = best
         piv = rows[r][c]
         # the pivot row becomes a row of U; record it by columns

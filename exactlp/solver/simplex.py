@@ -181,7 +181,7 @@ class Simplex:
         self._after_step = None
         self._rows_cache = None
         self.weights: list[int] = []
-        self.scores: list[int] = []
+        self.scores: list[int] | None = None
         if hint is not None:
             reason = self._setup_warm(hint)
             if reason is None and self.repair:
@@ -448,12 +448,18 @@ class Simplex:
         """
         theta = d[q] / alpha_pq  # type: ignore[operator]
         d[q] = None
-        if theta:
-            acc = self._tableau_row(p)
+        acc = self._tableau_row(p)
+        score = self.scores  # None unless the guarded rule has priced by weights
+        if score is None:
+            for j, v in acc.items():
+                dj = d[j]
+                if dj is not None and v:
+                    d[j] = dj - theta * v
+        else:
+            # devex: w_j = max(w_j, (alpha_pj / alpha_pq)^2 w_q), w_b = max(w_q / alpha_pq^2, 1),
+            # here as 16 log2 of each
             w = self.weights
-            lq = _log16(alpha_pq)
-            wq = w[q] - 2 * lq
-            score = self.scores
+            wq = w[q] - 2 * _log16(alpha_pq)
             for j, v in acc.items():
                 dj = d[j]
                 if dj is not None and v:
@@ -467,7 +473,8 @@ class Simplex:
             d[b] = None  # fixed (an artificial in phase 2, or a fixed variable): cannot move
         else:
             d[b] = -theta
-            self.scores[b] = 2 * _log16(theta) - self.weights[b]
+            if score is not None:
+                score[b] = 2 * _log16(theta) - self.weights[b]
 
     def _tableau_row(self, p: int, nonbasic_only: bool = True) -> dict[int, mpq]:
         """Row p of ``B^-1 A``: ``rho . a_j`` for the columns j (nonbasic ones by default).
@@ -548,6 +555,9 @@ class Simplex:
             if first < 0:
                 first = j
             if weighted:
+                if scores is None:
+                    w = self.weights
+                    scores = self.scores = [2 * _log16(v) - w[i] if v else 0 for i, v in enumerate(d)]
                 score = scores[j]
                 if best_score is None or score > best_score or (score == best_score and a > best_abs):
                     best, best_abs, best_score = j, a, score
@@ -708,11 +718,11 @@ class Simplex:
         while True:
             if d is None:
                 d = self._reduced_costs(cost, self._duals(cost))
-                w = self.weights
-                self.scores = [2 * _log16(dj) - w[j] if dj else 0 for j, dj in enumerate(d)]
+                self.scores = None  # computed when first needed (not at all at an optimal start)
             elif self.check_updates:
                 assert d == self._reduced_costs(cost, self._duals(cost)), "reduced-cost update drifted"
-                assert all(self.scores[j] == 2 * _log16(dj) - self.weights[j] for j, dj in enumerate(d) if dj), \
+                assert self.scores is None or all(
+                    self.scores[j] == 2 * _log16(dj) - self.weights[j] for j, dj in enumerate(d) if dj), \
                     "pricing scores out of step"
             if self.should_stop is not None and self.should_stop():
                 return Outcome("interrupted", z, self._duals(cost))
