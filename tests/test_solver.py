@@ -159,8 +159,22 @@ def test_updated_reduced_costs_equal_recomputed_ones(recheck_updates, pricing, m
     assert r.status.is_proven or pricing == "dantzig"
 
 
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(model=lp_models(max_vars=6, max_rows=6))
+def test_partial_pricing_with_updated_duals(recheck_updates, monkeypatch, model):
+    # partial pricing forced on every model: the duals kept up to date must equal
+    # c_B^T B^-1 after every pivot, and every outcome must carry a valid certificate
+    monkeypatch.setattr(simplex_module, "PARTIAL_FACTOR", 0)
+    monkeypatch.setattr(simplex_module, "PARTIAL_PARTS", 3)
+    r = solve_verified(model, pricing="guarded")
+    assert r.status.is_proven
+
+
+@pytest.mark.parametrize("partial", [False, True])
 @pytest.mark.parametrize("name", ["SC50A", "KB2", "SHARE2B"])
-def test_updated_reduced_costs_on_netlib(recheck_updates, name):
+def test_updated_reduced_costs_on_netlib(recheck_updates, monkeypatch, partial, name):
+    if partial:
+        monkeypatch.setattr(simplex_module, "PARTIAL_FACTOR", 0)
     from .conftest import NETLIB, netlib_table
 
     if NETLIB is None:
