@@ -94,12 +94,41 @@ def _quiet_stdout():
         os.close(saved)
 
 
-def highs_basis(model: Model, time_limit: float | None = None) -> BasisHint | None:
-    """Solve in double precision with HiGHS and return its final basis, or None."""
+def _arrays_from_form(form):
+    """The same arrays as :func:`_arrays`, read off the exact computational form.
+
+    ``float(mpq)`` rounds correctly (to nearest), like ``int / int``; the form's
+    costs are already for minimisation.
+    """
+    import numpy as np
+
+    n, m = form.n, form.m
+    inf = float("inf")
+    cost = np.array([float(c) for c in form.cost[:n]], dtype=float)
+    lower, upper = form.lower, form.upper
+    lo = np.array([-inf if v is None else float(v) for v in lower[:n]], dtype=float)
+    hi = np.array([inf if v is None else float(v) for v in upper[:n]], dtype=float)
+    rlo = np.array([-inf if v is None else float(v) for v in lower[n:n + m]], dtype=float)
+    rhi = np.array([inf if v is None else float(v) for v in upper[n:n + m]], dtype=float)
+    start, idx, val = [0], [], []
+    for col in form.cols[:n]:
+        for i, a in col:
+            idx.append(i)
+            val.append(float(a))
+        start.append(len(idx))
+    return n, m, 1.0, cost, lo, hi, rlo, rhi, np.array(start), np.array(idx, dtype=np.int32), np.array(val, dtype=float)
+
+
+def highs_basis(model: Model, time_limit: float | None = None, form=None) -> BasisHint | None:
+    """Solve in double precision with HiGHS and return its final basis, or None.
+
+    ``form``: the exact computational form of ``model``, when the caller has it
+    (the float copy is then read off it instead of the model).
+    """
     import highspy
     import numpy as np
 
-    n, m, _, cost, lo, hi, rlo, rhi, start, idx, val = _arrays(model)
+    n, m, _, cost, lo, hi, rlo, rhi, start, idx, val = _arrays(model) if form is None else _arrays_from_form(form)
     if m == 0:
         return None
     with _quiet_stdout():

@@ -13,7 +13,7 @@ from fractions import Fraction
 from ..errors import InputError
 from ..model import Model
 from .events import Finish, PhaseEnd, Pivot, Start
-from .form import build_form, frac
+from .form import ZERO, build_form, frac
 from .result import SolveResult, Status, frozen_map
 from .simplex import PRICING_RULES, Simplex
 
@@ -87,7 +87,7 @@ def solve(
         from ..floatlp import highs_basis
 
         left = None if time_limit is None else max(time_limit - (time.monotonic() - started), 0.0)
-        hint = highs_basis(model, left)
+        hint = highs_basis(model, left, form)
     sx = Simplex(
         form,
         pricing=pricing,
@@ -128,11 +128,17 @@ def solve(
         extra["objective"] = frac(sign * out.z + form.constant)
         extra["duals"] = frozen_map({cnames[i]: frac(sign * y[i]) for i in range(m)})
         rc = {}
+        kept = out.d  # the pivot loop's own reduced costs, when it priced in full
         for j in range(n):
-            d = form.cost[j]
-            for i, a in form.cols[j]:
-                if y[i]:
-                    d -= y[i] * a
+            if kept is not None and kept[j] is not None:
+                d = kept[j]  # equal to c_j - y^T a_j exactly (checked in the solver tests)
+            elif sx.state[j] == 0:  # basic
+                d = ZERO
+            else:
+                d = form.cost[j]
+                for i, a in form.cols[j]:
+                    if y[i]:
+                        d -= y[i] * a
             rc[vnames[j]] = frac(sign * d)
         extra["reduced_costs"] = frozen_map(rc)
     elif status is Status.INFEASIBLE:

@@ -59,21 +59,26 @@ def build_form(model: Model) -> Form:
     n, m = len(model.variables), len(model.constraints)
     index = {v.name: j for j, v in enumerate(model.variables)}
     cols: list[list[tuple[int, mpq]]] = [[] for _ in range(n)]
+
+    def num(f: Fraction) -> mpq:
+        return mpq(f.numerator, f.denominator)
+
     for i, c in enumerate(model.constraints):
         for name, a in c.terms:
-            cols[index[name]].append((i, q(a)))
+            cols[index[name]].append((i, mpq(a.numerator, a.denominator)))
     sign = 1 if model.sense is Sense.MINIMIZE else -1
     cost = [ZERO] * n
     for name, c in model.objective:
         cost[index[name]] = q(c) * sign
-    lower = [None if v.lower is None else q(v.lower) for v in model.variables]
-    upper = [None if v.upper is None else q(v.upper) for v in model.variables]
+    lower = [None if v.lower is None else num(v.lower) for v in model.variables]
+    upper = [None if v.upper is None else num(v.upper) for v in model.variables]
     labels = [v.name for v in model.variables]
     kinds = ["variable"] * n
+    minus_one = -ONE
     for i, c in enumerate(model.constraints):
-        cols.append([(i, -ONE)])
-        lower.append(None if c.lower is None else q(c.lower))
-        upper.append(None if c.upper is None else q(c.upper))
+        cols.append([(i, minus_one)])
+        lower.append(None if c.lower is None else num(c.lower))
+        upper.append(None if c.upper is None else num(c.upper))
         cost.append(ZERO)
         labels.append(c.name)
         kinds.append("slack")

@@ -152,6 +152,9 @@ class Outcome:
     z: mpq | None = None
     y: list[mpq] | None = None
     ray: dict[int, mpq] | None = None
+    #: at an optimum priced in full: the reduced cost of every nonbasic column that
+    #: can move (None for basic and fixed columns), as kept by the pivot loop
+    d: list[mpq | None] | None = None
 
 
 class Simplex:
@@ -838,7 +841,7 @@ class Simplex:
             else:
                 first, best = self._price(d, weighted=pricing == "guarded")
             if first < 0:
-                return Outcome("optimal", z, self._duals(cost))
+                return Outcome("optimal", z, self._duals(cost), d=None if partial else d)
             if pricing == "dantzig" or (pricing in ("hybrid", "guarded") and not bland_mode):
                 q, rule = best, ("dantzig (partial)" if partial else "devex" if pricing == "guarded" else "dantzig")
             else:
