@@ -40,7 +40,8 @@ Pricing rules (``pricing=``):
     and there are finitely many.
 ``guarded`` (the default)
     the entering column maximises ``d_j^2 / w_j`` with devex reference
-    weights ``w_j`` (P. M. J. Harris, Math. Programming 5, 1973), which
+    weights ``w_j`` (P. M. J. Harris, "Pivot selection methods of the Devex
+    LP code", Math. Programming 5, 1973; cited from memory), which
     estimate the squared length of each column's edge so that steep edges
     win over merely large reduced costs; it takes far fewer pivots than
     Dantzig's choice on the Netlib problems.  Ratio ties go to the largest
