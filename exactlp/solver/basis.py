@@ -246,6 +246,15 @@ def factor_lu(
     # logical, to begin with) is its own pivot with no elimination and no fill:
     # its row becomes a row of U and is retired, which may leave other columns
     # with one nonzero; these are taken in turn, until none is left.
+    def retire(r: int, c: int, piv: mpq) -> None:
+        """Record pivot (r, c) and take its row and column out of the active submatrix."""
+        pivot_of_col[c] = (r, piv)
+        order.append(c)
+        row_alive[r] = False
+        rows[r] = {}
+        remaining.discard(c)
+        del colrows[c]
+
     queue = deque(c for c in head if len(colrows[c]) == 1)
     while queue:
         c = queue.popleft()
@@ -263,12 +272,7 @@ def factor_lu(
                 crs.discard(r)
                 if len(crs) == 1:
                     queue.append(cj)
-        pivot_of_col[c] = (r, piv)
-        order.append(c)
-        row_alive[r] = False
-        rows[r] = {}
-        remaining.discard(c)
-        del colrows[c]
+        retire(r, c, piv)
     # Then rows with one nonzero: pivoting there needs multipliers (the column's
     # other entries) but makes no fill, since the pivot row has nothing else; the
     # rows that lose their entry in the column may become singletons in turn.
@@ -290,12 +294,7 @@ def factor_lu(
                 queue.append(i)
         if ls:
             lsteps.append((r, ls))
-        pivot_of_col[c] = (r, piv)
-        order.append(c)
-        row_alive[r] = False
-        rows[r] = {}
-        remaining.discard(c)
-        del colrows[c]
+        retire(r, c, piv)
     # a lazy heap of (column count, column): stale entries are skipped when popped
     heap = [(len(colrows[c]), c) for c in remaining]
     heapq.heapify(heap)
@@ -327,8 +326,6 @@ def factor_lu(
         for cj, val in rows[r].items():
             if cj != c:
                 ucols_by_col[cj].append((r, val))
-        pivot_of_col[c] = (r, piv)
-        order.append(c)
         # eliminate column c from the other active rows
         touched: set[int] = set()
         ls = []
@@ -360,10 +357,7 @@ def factor_lu(
             if cj != c:
                 colrows[cj].discard(r)
                 touched.add(cj)
-        row_alive[r] = False
-        rows[r] = {}
-        remaining.discard(c)
-        del colrows[c]
+        retire(r, c, piv)
         for cj in touched:
             if cj in remaining:
                 heapq.heappush(heap, (len(colrows[cj]), cj))

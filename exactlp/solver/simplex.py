@@ -124,6 +124,19 @@ def _lex_less(a: list[tuple[int, mpq]], b: list[tuple[int, mpq]]) -> bool:
         i += 1
         j += 1
     return False
+def _gain(dj: mpq, state: int) -> mpq | None:
+    """|d_j| when a nonbasic column in ``state`` with reduced cost ``dj`` improves, else None.
+
+    At its lower bound it improves by rising (``d_j < 0``), at its upper bound
+    by falling (``d_j > 0``); a free column at zero either way.
+    """
+    if dj < 0:
+        return None if state == AT_UPPER else -dj
+    if dj > 0:
+        return None if state == AT_LOWER else dj
+    return None
+
+
 def _log16(v: mpq) -> int:
     """About 16 log2 |v| as an integer (v nonzero), within 0.15 bit.
 
@@ -499,15 +512,8 @@ class Simplex:
                 yi = y[i]
                 if yi:
                     dj -= yi * a
-            if dj < 0:
-                if s == AT_UPPER:
-                    continue
-                a = -dj
-            elif dj > 0:
-                if s == AT_LOWER:
-                    continue
-                a = dj
-            else:
+            a = _gain(dj, s)
+            if a is None:
                 continue
             d[j] = dj
             if lowest:
@@ -629,16 +635,8 @@ class Simplex:
         for j, dj in enumerate(d):
             if dj is None:
                 continue
-            s = state[j]
-            if dj < 0:
-                if s == AT_UPPER:
-                    continue
-                a = -dj
-            elif dj > 0:
-                if s == AT_LOWER:
-                    continue
-                a = dj
-            else:
+            a = _gain(dj, state[j])
+            if a is None:
                 continue
             if first < 0:
                 first = j
