@@ -822,10 +822,12 @@ class Simplex:
                     assert y == self._duals(cost), "dual update drifted"
                 d = None
             elif d is None:
-                d = self._reduced_costs(cost, self._duals(cost))
+                y = self._duals(cost)  # current until the next pivot
+                d = self._reduced_costs(cost, y)
                 self.scores = None  # computed when first needed (not at all at an optimal start)
             elif self.check_updates:
                 assert d == self._reduced_costs(cost, self._duals(cost)), "reduced-cost update drifted"
+                assert y is None or y == self._duals(cost), "duals kept past a pivot"
                 assert self.scores is None or all(
                     self.scores[j] == 2 * _log16(dj) - self.weights[j] for j, dj in enumerate(d) if dj), \
                     "pricing scores out of step"
@@ -840,7 +842,8 @@ class Simplex:
             else:
                 first, best = self._price(d, weighted=pricing == "guarded")
             if first < 0:
-                return Outcome("optimal", z, self._duals(cost), d=None if partial else d)
+                return Outcome("optimal", z, list(y) if y is not None else self._duals(cost),
+                               d=None if partial else d)
             if pricing == "dantzig" or (pricing in ("hybrid", "guarded") and not bland_mode):
                 q, rule = best, ("dantzig (partial)" if partial else "devex" if pricing == "guarded" else "dantzig")
             else:
@@ -898,6 +901,7 @@ class Simplex:
                     self._update_duals(y, d[q], p, alpha[p])
                 else:
                     self._update_reduced_costs(d, q, b, p, alpha[p])
+                    y = None  # no longer current
                 self.x[b] = self.lower[b] if bound == "lower" else self.upper[b]
                 self.state[b] = AT_LOWER if bound == "lower" else AT_UPPER
                 self.state[q] = BASIC
