@@ -94,43 +94,79 @@ def _quiet_stdout():
         os.close(saved)
 
 
-def _arrays_from_form(form):
-    """The same arrays as :func:`_arrays`, read off the exact computational form.
+def highs_basis(model: Model, time_limit: float | None = None) -> BasisHint | None:
+    """Solve in double precision with HiGHS and return its final basis, or None."""
+    return start_highs(model, time_limit, background=False).result()
 
-    ``float(mpq)`` rounds correctly (to nearest), like ``int / int``; the form's
-    costs are already for minimisation.
+
+class PendingHint:
+    """A HiGHS solve under way (or done), whose suggested basis :meth:`result` gives.
+
+    HiGHS releases the interpreter lock while it runs, so the exact form can be
+    built at the same time on the other core.  Nothing is shared with the
+    caller but the finished basis; HiGHS runs with one thread and a fixed seed,
+    so what it suggests does not depend on timing.
     """
-    import numpy as np
 
-    n, m = form.n, form.m
-    inf = float("inf")
-    cost = np.array([float(c) for c in form.cost[:n]], dtype=float)
-    lower, upper = form.lower, form.upper
-    lo = np.array([-inf if v is None else float(v) for v in lower[:n]], dtype=float)
-    hi = np.array([inf if v is None else float(v) for v in upper[:n]], dtype=float)
-    rlo = np.array([-inf if v is None else float(v) for v in lower[n:n + m]], dtype=float)
-    rhi = np.array([inf if v is None else float(v) for v in upper[n:n + m]], dtype=float)
-    start, idx, val = [0], [], []
-    for col in form.cols[:n]:
-        for i, a in col:
-            idx.append(i)
-            val.append(float(a))
-        start.append(len(idx))
-    return n, m, 1.0, cost, lo, hi, rlo, rhi, np.array(start), np.array(idx, dtype=np.int32), np.array(val, dtype=float)
+    def __init__(self, h, m: int, background: bool) -> None:
+        self._h, self._m = h, m
+        self._error: BaseException | None = None
+        self._thread = None
+        if background:
+            import threading
+
+            self._thread = threading.Thread(target=self._run, name="exactlp-float-hint", daemon=True)
+            self._thread.start()
+        else:
+            self._run()
+
+    def _run(self) -> None:
+        try:
+            self._h.run()
+        except BaseException as exc:  # handed to the caller in result()
+            self._error = exc
+
+    def result(self) -> BasisHint | None:
+        if self._thread is not None:
+            self._thread.join()
+        if self._error is not None:
+            raise self._error
+        import highspy
+
+        h, m = self._h, self._m
+        status = h.modelStatusToString(h.getModelStatus())
+        basis = h.getBasis()
+        if not basis.valid:
+            return None
+        B = highspy.HighsBasisStatus
+        basic, upper = [], set()
+        for j, s in enumerate(list(basis.col_status) + list(basis.row_status)):
+            if s == B.kBasic:
+                basic.append(j)
+            elif s == B.kUpper:
+                upper.add(j)
+        if len(basic) != m:
+            return None
+        return BasisHint(tuple(basic), frozenset(upper), "highs", status)
 
 
-def highs_basis(model: Model, time_limit: float | None = None, form=None) -> BasisHint | None:
-    """Solve in double precision with HiGHS and return its final basis, or None.
+class _NoHint:
+    def result(self) -> None:
+        return None
 
-    ``form``: the exact computational form of ``model``, when the caller has it
-    (the float copy is then read off it instead of the model).
+
+def start_highs(model: Model, time_limit: float | None = None, background: bool = True):
+    """Hand the model to HiGHS and start it (in a background thread by default).
+
+    Returns an object whose ``result()`` waits for HiGHS and gives its basis
+    (or None).  The float copy is built here, before the thread starts.
     """
     import highspy
     import numpy as np
 
-    n, m, _, cost, lo, hi, rlo, rhi, start, idx, val = _arrays(model) if form is None else _arrays_from_form(form)
+    n, m, _, cost, lo, hi, rlo, rhi, start, idx, val = _arrays(model)
     if m == 0:
-        return None
+        return _NoHint()
     with _quiet_stdout():
         h = highspy.Highs()
         h.setOptionValue("output_flag", False)
@@ -152,21 +188,7 @@ def highs_basis(model: Model, time_limit: float | None = None, form=None) -> Bas
     lp.a_matrix_.value_ = val
     lp.a_matrix_.num_col_, lp.a_matrix_.num_row_ = n, m
     h.passModel(lp)
-    h.run()
-    status = h.modelStatusToString(h.getModelStatus())
-    basis = h.getBasis()
-    if not basis.valid:
-        return None
-    B = highspy.HighsBasisStatus
-    basic, upper = [], set()
-    for j, s in enumerate(list(basis.col_status) + list(basis.row_status)):
-        if s == B.kBasic:
-            basic.append(j)
-        elif s == B.kUpper:
-            upper.add(j)
-    if len(basic) != m:
-        return None
-    return BasisHint(tuple(basic), frozenset(upper), "highs", status)
+    return PendingHint(h, m, background)
 
 
 def linprog_arguments(model: Model):

@@ -114,22 +114,3 @@ def test_warm_start_repairs_an_infeasible_suggestion():
     assert repair_steps and repair_steps[-1].objective == 0  # no infeasibility left
     assert any(isinstance(e, PhaseEnd) and e.phase == 1 for e in events)
 
-
-@pytest.mark.skipif(not highs_available(), reason="the float copy needs numpy (the exactlp[fast] extra)")
-@pytest.mark.parametrize("case", ["drought.yaml", "grants.yaml", "emissions.yaml", "berth.yaml"])
-def test_float_copy_read_off_the_form_equals_the_one_read_off_the_model(case):
-    # the warm start builds its float copy from the exact form; the benchmark's
-    # reference builds it from the model: both must give the same doubles
-    # (maximising and minimising cases, bounds on both sides)
-    from pathlib import Path
-
-    import numpy as np
-
-    from exactlp.floatlp import _arrays, _arrays_from_form
-    from exactlp.solver.form import build_form
-
-    m = exactlp.load(Path(__file__).resolve().parents[1] / "cases" / case)
-    a, b = _arrays(m), _arrays_from_form(build_form(m))
-    assert a[:2] == b[:2]
-    for x, y in zip(a[3:], b[3:]):
-        assert np.array_equal(x, y)

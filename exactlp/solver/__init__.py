@@ -71,8 +71,6 @@ def solve(
                     listener(Finish("infeasible", None, 0, 0, 0))
                 return SolveResult(status=Status.INFEASIBLE, crossed=(kind, item.name),
                                    seconds=time.monotonic() - started, pricing=pricing)
-    form = build_form(model)
-    hint = None
     use_warm = warm_start
     if use_warm is None:
         from ..floatlp import WARM_START_MIN_ROWS, highs_available
@@ -83,11 +81,15 @@ def solve(
 
         if not highs_available():
             raise InputError("the warm start needs highspy: install the exactlp[fast] extra", field="warm_start")
-    if use_warm and form.m:
-        from ..floatlp import highs_basis
+    pending = None
+    if use_warm and model.constraints:
+        from ..floatlp import start_highs
 
+        # HiGHS runs on the other core while the exact form is built here
         left = None if time_limit is None else max(time_limit - (time.monotonic() - started), 0.0)
-        hint = highs_basis(model, left, form)
+        pending = start_highs(model, left)
+    form = build_form(model)
+    hint = pending.result() if pending is not None else None
     sx = Simplex(
         form,
         pricing=pricing,
