@@ -45,7 +45,12 @@ def _f(x) -> float:
     return x.numerator / x.denominator
 
 
-def _arrays(model: Model):
+def _arrays(model: Model, rowwise: bool = False):
+    """The model in doubles: sizes, sense sign, costs (minimising), bounds, and the matrix.
+
+    The matrix is compressed by columns, or with ``rowwise`` by rows (the
+    model's own order, which needs no regrouping): ``start``, ``index``, ``value``.
+    """
     import numpy as np
 
     n, m = len(model.variables), len(model.constraints)
@@ -59,17 +64,24 @@ def _arrays(model: Model):
     hi = np.array([inf if v.upper is None else _f(v.upper) for v in model.variables])
     rlo = np.array([-inf if c.lower is None else _f(c.lower) for c in model.constraints])
     rhi = np.array([inf if c.upper is None else _f(c.upper) for c in model.constraints])
-    cols: list[list[tuple[int, float]]] = [[] for _ in range(n)]
-    for i, c in enumerate(model.constraints):
-        for name, a in c.terms:
-            cols[index[name]].append((i, _f(a)))
     start, idx, val = [0], [], []
-    for col in cols:
-        for i, a in col:
-            idx.append(i)
-            val.append(a)
-        start.append(len(idx))
-    return n, m, sign, cost, lo, hi, rlo, rhi, np.array(start), np.array(idx, dtype=np.int32), np.array(val)
+    if rowwise:
+        for c in model.constraints:
+            for name, a in c.terms:
+                idx.append(index[name])
+                val.append(a.numerator / a.denominator)
+            start.append(len(idx))
+    else:
+        cols: list[list[tuple[int, float]]] = [[] for _ in range(n)]
+        for i, c in enumerate(model.constraints):
+            for name, a in c.terms:
+                cols[index[name]].append((i, _f(a)))
+        for col in cols:
+            for i, a in col:
+                idx.append(i)
+                val.append(a)
+            start.append(len(idx))
+    return n, m, sign, cost, lo, hi, rlo, rhi, np.array(start), np.array(idx, dtype=np.int32), np.array(val, dtype=float)
 
 
 @contextlib.contextmanager
@@ -164,7 +176,7 @@ def start_highs(model: Model, time_limit: float | None = None, background: bool 
     import highspy
     import numpy as np
 
-    n, m, _, cost, lo, hi, rlo, rhi, start, idx, val = _arrays(model)
+    n, m, _, cost, lo, hi, rlo, rhi, start, idx, val = _arrays(model, rowwise=True)
     if m == 0:
         return _NoHint()
     with _quiet_stdout():
@@ -182,7 +194,7 @@ def start_highs(model: Model, time_limit: float | None = None, background: bool 
     lp.col_upper_ = np.where(np.isinf(hi), big, hi)
     lp.row_lower_ = np.where(np.isinf(rlo), -big, rlo)
     lp.row_upper_ = np.where(np.isinf(rhi), big, rhi)
-    lp.a_matrix_.format_ = highspy.MatrixFormat.kColwise
+    lp.a_matrix_.format_ = highspy.MatrixFormat.kRowwise
     lp.a_matrix_.start_ = start.astype(np.int32)
     lp.a_matrix_.index_ = idx
     lp.a_matrix_.value_ = val
