@@ -570,8 +570,8 @@ class Simplex:
             if score is not None:
                 score[b] = 2 * _log16(theta) - self.weights[b]
 
-    def _tableau_row(self, p: int, nonbasic_only: bool = True) -> dict[int, mpq]:
-        """Row p of ``B^-1 A``: ``rho . a_j`` for the columns j (nonbasic ones by default).
+    def _tableau_row(self, p: int) -> dict[int, mpq]:
+        """Row p of ``B^-1 A`` at the nonbasic columns: ``rho . a_j`` for each j.
 
         ``rho = e_p^T B^-1`` by one btran; then only the rows of A where rho
         is nonzero are read, which is cheap when rho is sparse.
@@ -583,7 +583,7 @@ class Simplex:
         for i, r in enumerate(rho):
             if r:
                 for j, a in rows[i]:
-                    if not nonbasic_only or state[j] != BASIC:
+                    if state[j] != BASIC:
                         acc[j] = get(j, ZERO) + r * a
         return acc
 
