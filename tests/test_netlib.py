@@ -114,3 +114,20 @@ def test_warm_start_repairs_an_infeasible_suggestion():
     assert repair_steps and repair_steps[-1].objective == 0  # no infeasibility left
     assert any(isinstance(e, PhaseEnd) and e.phase == 1 for e in events)
 
+
+
+@needs_netlib
+@pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
+@pytest.mark.parametrize("name", ["SC105", "SHARE2B", "BOEING2"])
+def test_float_hint_in_a_thread_is_the_same_as_in_line(name):
+    # HiGHS runs on a second thread while the exact form is built; what it
+    # suggests must not depend on that (one HiGHS thread, fixed seed)
+    from exactlp.floatlp import highs_basis, start_highs
+    from exactlp.solver.form import build_form
+
+    m = read_mps(NETLIB / netlib_table()[name]["file"])
+    pending = start_highs(m)
+    build_form(m)  # the work done meanwhile in solve()
+    threaded = pending.result()
+    assert threaded is not None and threaded == highs_basis(m)
+    assert len(threaded.basic) == len(m.constraints)
