@@ -213,3 +213,34 @@ def test_read_log_refuses_floats(tmp_path):
     with pytest.raises(exactlp.InputError) as exc:
         read_log(str(p))
     assert str(exc.value) == f"{p}:2:1: not a log record: a JSON float (0.5) where an exact number (a string) must be"
+
+
+DOCUMENTED_RULES = {  # the README's audit-log section names these, and only these
+    base + suffix
+    for base in ("devex", "partial dantzig", "dantzig", "bland")
+    for suffix in ("", " (lexicographic ties)", " (last resort)", " (degenerate run)")
+}
+
+
+@pytest.mark.parametrize("forced_partial", [False, True])
+def test_pivot_rules_are_the_documented_ones(monkeypatch, forced_partial):
+    from exactlp.solver import PRICING_RULES
+    from exactlp.solver import simplex as simplex_module
+    from exactlp.solver.events import Pivot
+
+    from .models import KNOWN, klee_minty
+
+    if forced_partial:
+        monkeypatch.setattr(simplex_module, "PARTIAL_FACTOR", 0)
+    seen = set()
+    texts = [t for _, t, _, _, _ in KNOWN] + [klee_minty(5)]
+    for pricing in PRICING_RULES:
+        for text in texts:
+            events = []
+            exactlp.solve(model_from_text(text), pricing=pricing, listener=events.append,
+                          iteration_limit=200, warm_start=False)
+            seen |= {e.rule for e in events if isinstance(e, Pivot)}
+    assert seen <= DOCUMENTED_RULES, seen - DOCUMENTED_RULES
+    assert ("partial dantzig" in seen) == forced_partial
+    assert ("devex" in seen) != forced_partial
+    assert {"dantzig", "bland"} <= seen

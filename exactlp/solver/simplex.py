@@ -845,7 +845,7 @@ class Simplex:
                 return Outcome("optimal", z, list(y) if y is not None else self._duals(cost),
                                d=None if partial else d)
             if pricing == "dantzig" or (pricing in ("hybrid", "guarded") and not bland_mode):
-                q, rule = best, ("dantzig (partial)" if partial else "devex" if pricing == "guarded" else "dantzig")
+                q, rule = best, ("partial dantzig" if partial else "devex" if pricing == "guarded" else "dantzig")
             else:
                 q, rule = first, "bland"
             direction = self._eligible(q, d[q])  # type: ignore[arg-type]
