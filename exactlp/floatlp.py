@@ -138,6 +138,11 @@ class PendingHint:
         except BaseException as exc:  # handed to the caller in result()
             self._error = exc
 
+    def discard(self) -> None:
+        """Wait for HiGHS to finish and drop what it found (errors included)."""
+        if self._thread is not None:
+            self._thread.join()
+
     def result(self) -> BasisHint | None:
         if self._thread is not None:
             self._thread.join()
@@ -164,6 +169,9 @@ class PendingHint:
 
 class _NoHint:
     def result(self) -> None:
+        return None
+
+    def discard(self) -> None:
         return None
 
 

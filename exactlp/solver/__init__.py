@@ -62,15 +62,6 @@ def solve(
     """
     _check_options(pricing, iteration_limit, time_limit)
     started = time.monotonic()
-    # A variable or row whose own bounds cross (lower > upper) is infeasible by
-    # itself; the simplex assumes l <= u, so this is settled before it starts.
-    for kind, items in (("variable", model.variables), ("constraint", model.constraints)):
-        for item in items:
-            if item.lower is not None and item.upper is not None and item.lower > item.upper:
-                if listener is not None:
-                    listener(Finish("infeasible", None, 0, 0, 0))
-                return SolveResult(status=Status.INFEASIBLE, crossed=(kind, item.name),
-                                   seconds=time.monotonic() - started, pricing=pricing)
     use_warm = warm_start
     if use_warm is None:
         from ..floatlp import WARM_START_MIN_ROWS, highs_available
@@ -89,6 +80,15 @@ def solve(
         left = None if time_limit is None else max(time_limit - (time.monotonic() - started), 0.0)
         pending = start_highs(model, left)
     form = build_form(model)
+    if form.crossed is not None:
+        # A variable or row whose own bounds cross (lower > upper) is infeasible by
+        # itself; the simplex assumes l <= u, so this is settled before it starts.
+        if pending is not None:
+            pending.discard()
+        if listener is not None:
+            listener(Finish("infeasible", None, 0, 0, 0))
+        return SolveResult(status=Status.INFEASIBLE, crossed=form.crossed,
+                           seconds=time.monotonic() - started, pricing=pricing)
     hint = pending.result() if pending is not None else None
     sx = Simplex(
         form,

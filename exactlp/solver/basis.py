@@ -225,27 +225,14 @@ def factor_lu(
 
     Raises ArithmeticError when the columns are linearly dependent.
     """
-    # active submatrix: rows[i] = {col: value}, colsets[c] = set of rows
-    rows: list[dict[int, mpq]] = [dict() for _ in range(m)]
-    colrows: dict[int, set[int]] = {}
-    for c in head:
-        rs = set()
-        for i, a in cols[c]:
-            if a:
-                rows[i][c] = rows[i].get(c, ZERO) + a
-                rs.add(i)
-        colrows[c] = rs
+    rows: list[dict[int, mpq]] = [{} for _ in range(m)]  # active submatrix by rows: {col: value}
+    colrows: dict[int, set[int]] = {}  # active rows of each column
     row_alive = [True] * m
-    ucols_by_col: dict[int, list] = {c: [] for c in head}  # entries of U above the diagonal, by column
+    ucols_by_col: dict[int, list] = {}  # entries of U above the diagonal, by column
     pivot_of_col: dict[int, tuple[int, mpq]] = {}
     order: list[int] = []  # columns in elimination order
-    remaining = set(head)
     lsteps = []
-    # Singletons first (the triangular part, which in practice is most of a
-    # basis).  A column with one nonzero in the active submatrix (every basic
-    # logical, to begin with) is its own pivot with no elimination and no fill:
-    # its row becomes a row of U and is retired, which may leave other columns
-    # with one nonzero; these are taken in turn, until none is left.
+
     def retire(r: int, c: int, piv: mpq) -> None:
         """Record pivot (r, c) and take its row and column out of the active submatrix."""
         pivot_of_col[c] = (r, piv)
@@ -255,7 +242,49 @@ def factor_lu(
         remaining.discard(c)
         del colrows[c]
 
-    queue = deque(c for c in head if len(colrows[c]) == 1)
+    # Singletons first (the triangular part, which in practice is most of a
+    # basis).  A column with one nonzero (every basic logical) is its own pivot
+    # with no elimination and no fill: its row becomes a row of U and is retired.
+    # These are taken before the active submatrix is built, so the entries of
+    # the other columns in retired rows go straight to U.  (Two such columns in
+    # one row are parallel: the basis is singular.)
+    others = []
+    for c in head:
+        col = cols[c]
+        if len(col) == 1 and col[0][1]:
+            r, piv = col[0]
+            if not row_alive[r]:
+                raise ArithmeticError("singular basis")
+            row_alive[r] = False
+            pivot_of_col[c] = (r, piv)
+            order.append(c)
+            ucols_by_col[c] = []
+        else:
+            others.append(c)
+    for c in others:
+        rs = set()
+        above = []
+        for i, a in cols[c]:
+            if not a:
+                continue
+            if row_alive[i]:
+                ri = rows[i]
+                if c in ri:  # a repeated row (the form never makes one): sum the entries
+                    a += ri[c]
+                    if not a:
+                        del ri[c]
+                        rs.discard(i)
+                        continue
+                ri[c] = a
+                rs.add(i)
+            else:
+                above.append((i, a))
+        colrows[c] = rs
+        ucols_by_col[c] = above
+    remaining = set(others)
+    # Retiring a row may leave other columns with one nonzero in the active
+    # submatrix; these are taken in turn, until none is left.
+    queue = deque(c for c in others if len(colrows[c]) == 1)
     while queue:
         c = queue.popleft()
         if c not in remaining:
@@ -309,6 +338,7 @@ def factor_lu(
                 cand_cols.append(c)
         for c in cand_cols:
             heapq.heappush(heap, (len(colrows[c]), c))
+        best_fill = -1
         for c in cand_cols:
             cc = len(colrows[c])
             if cc == 0:
@@ -316,10 +346,14 @@ def factor_lu(
             for i in sorted(colrows[c]):
                 # fill first; among equal fill, the pivot with the shortest numbers,
                 # since every multiplier and updated entry is divided by it
-                v = rows[i][c]
-                cost = ((len(rows[i]) - 1) * (cc - 1), v.numerator.bit_length() + v.denominator.bit_length())
+                ri = rows[i]
+                fill = (len(ri) - 1) * (cc - 1)
+                if fill > best_fill >= 0:
+                    continue
+                v = ri[c]
+                cost = (fill, v.numerator.bit_length() + v.denominator.bit_length())
                 if best_cost is None or cost < best_cost:
-                    best, best_cost = (i, c), cost
+                    best, best_cost, best_fill = (i, c), cost, fill
         r, c = best
         piv = rows[r][c]
         # the pivot row becomes a row of U; record it by columns

@@ -32,8 +32,21 @@ def q(f: Fraction | int) -> mpq:
     return mpq(f.numerator, f.denominator)
 
 
+_from_coprime = getattr(Fraction, "_from_coprime_ints", None)  # Python 3.12 and later
+
+
 def frac(v) -> Fraction:
-    return Fraction(int(v.numerator), int(v.denominator))
+    """An ``mpq`` as a Fraction, without a second gcd.
+
+    An ``mpq`` is always in lowest terms with a positive denominator, which is
+    exactly the form a Fraction keeps, so the pair is taken as it is (through
+    the constructor's own no-normalise path: ``_from_coprime_ints`` from Python
+    3.12, the ``_normalize=False`` keyword before).  Tests compare the result
+    with the normalising constructor.
+    """
+    if _from_coprime is not None:
+        return _from_coprime(int(v.numerator), int(v.denominator))
+    return Fraction(int(v.numerator), int(v.denominator), _normalize=False)
 
 
 @dataclass
@@ -49,6 +62,8 @@ class Form:
     kinds: list[str]  # "variable" | "slack"
     sign: int  # +1 if the model minimises, -1 if it maximises
     constant: mpq  # the objective constant, in the model's sense
+    #: the first variable, then constraint, whose own bounds cross (lower > upper), as (kind, name)
+    crossed: tuple[str, str] | None = None
 
     @property
     def ncols(self) -> int:
@@ -72,6 +87,11 @@ def build_form(model: Model) -> Form:
         cost[index[name]] = q(c) * sign
     lower = [None if v.lower is None else num(v.lower) for v in model.variables]
     upper = [None if v.upper is None else num(v.upper) for v in model.variables]
+    crossed = None
+    for j, (lo, hi) in enumerate(zip(lower, upper)):
+        if lo is not None and hi is not None and lo > hi:
+            crossed = ("variable", model.variables[j].name)
+            break
     labels = [v.name for v in model.variables]
     kinds = ["variable"] * n
     minus_one = -ONE
@@ -82,4 +102,10 @@ def build_form(model: Model) -> Form:
         cost.append(ZERO)
         labels.append(c.name)
         kinds.append("slack")
-    return Form(n, m, cols, lower, upper, cost, labels, kinds, sign, q(model.objective_constant))
+    if crossed is None:
+        for i in range(m):
+            lo, hi = lower[n + i], upper[n + i]
+            if lo is not None and hi is not None and lo > hi:
+                crossed = ("constraint", model.constraints[i].name)
+                break
+    return Form(n, m, cols, lower, upper, cost, labels, kinds, sign, q(model.objective_constant), crossed)

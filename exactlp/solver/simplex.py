@@ -216,6 +216,7 @@ class Simplex:
         self.weights: list[int] = []
         self.scores: list[int] | None = None
         self._partial_start = 0
+        self.partial_seen: dict[int, mpq] = {}  # reduced costs of the last full partial-pricing scan
         if hint is not None:
             reason = self._setup_warm(hint)
             if reason is None and self.repair:
@@ -495,6 +496,7 @@ class Simplex:
         best = -1
         best_abs = ZERO
         first = -1
+        seen: dict[int, mpq] = {}  # every reduced cost computed; all of them when none is eligible
         for k in range(ncol):
             if k >= part and best >= 0:
                 break
@@ -512,6 +514,7 @@ class Simplex:
                 yi = y[i]
                 if yi:
                     dj -= yi * a
+            seen[j] = dj
             a = _gain(dj, s)
             if a is None:
                 continue
@@ -524,6 +527,7 @@ class Simplex:
             k = ncol
         self._partial_start = start + k
         if best < 0:
+            self.partial_seen = seen  # every column looked at: the result reuses these
             return d, -1, -1
         return d, min(d), best
 
@@ -842,8 +846,11 @@ class Simplex:
             else:
                 first, best = self._price(d, weighted=pricing == "guarded")
             if first < 0:
-                return Outcome("optimal", z, list(y) if y is not None else self._duals(cost),
-                               d=None if partial else d)
+                if partial:  # the last scan priced every movable column, from these same duals
+                    d = [None] * len(self.cols)
+                    for j, dj in self.partial_seen.items():
+                        d[j] = dj
+                return Outcome("optimal", z, list(y) if y is not None else self._duals(cost), d=d)
             if pricing == "dantzig" or (pricing in ("hybrid", "guarded") and not bland_mode):
                 q, rule = best, ("partial dantzig" if partial else "devex" if pricing == "guarded" else "dantzig")
             else:
