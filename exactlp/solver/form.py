@@ -33,6 +33,7 @@ def q(f: Fraction | int) -> mpq:
 
 
 _from_coprime = getattr(Fraction, "_from_coprime_ints", None)  # Python 3.12 and later
+_ZERO_FRACTION = Fraction(0)  # immutable, so one object serves every zero
 
 
 def frac(v) -> Fraction:
@@ -44,6 +45,8 @@ def frac(v) -> Fraction:
     3.12, the ``_normalize=False`` keyword before).  Tests compare the result
     with the normalising constructor.
     """
+    if not v:
+        return _ZERO_FRACTION  # the commonest value (nonbasic at 0, slack rows' duals)
     if _from_coprime is not None:
         return _from_coprime(int(v.numerator), int(v.denominator))
     return Fraction(int(v.numerator), int(v.denominator), _normalize=False)
