@@ -136,3 +136,34 @@ def test_triangular_parts_and_nucleus(name):
     y = basis.btran({order.index(0): mpq(1)})
     for k, c in enumerate(order):
         assert sum((y[i] * a for i, a in cols[c]), mpq(0)) == (1 if c == 0 else 0)
+
+
+@pytest.mark.parametrize("name", FACTORS)
+@pytest.mark.parametrize("head", [[2, 3], [0, 2]])
+def test_two_singleton_columns_in_one_row_are_singular(name, head):
+    # columns 2 and 3 are the logicals of rows 0 and 1; column 0 = (3, 0) lies in
+    # row 0 only, like logical 2: head [2, 3] is the identity (nonsingular), head
+    # [0, 2] holds two parallel columns (by hand: det [[3, -1], [0, 0]] = 0)
+    cols = [[(0, mpq(3))], [(0, mpq(1)), (1, mpq(1))], [(0, mpq(-1))], [(1, mpq(-1))]]
+    unit = {2: (0, -1), 3: (1, -1)}
+    if head == [2, 3]:
+        basis, order = FACTORS[name](2, head, cols, unit)
+        assert {order[p]: v for p, v in basis.ftran([(0, mpq(5)), (1, mpq(7))]).items()} == {2: -5, 3: -7}
+    else:
+        with pytest.raises(ArithmeticError):
+            FACTORS[name](2, head, cols, unit)
+
+
+def test_sparse_lu_sums_a_repeated_row_entry():
+    # the form never repeats a row within a column, but the factorisation sums such
+    # entries rather than keeping the last: (1/2 + 1/2, 1) is the column (1, 1)
+    merged = [[(0, mpq(1)), (1, mpq(1))], [(1, mpq(2))], [(0, mpq(-1))], [(1, mpq(-1))]]
+    repeated = [[(0, mpq(1, 2)), (1, mpq(1)), (0, mpq(1, 2))]] + merged[1:]
+    unit = {2: (0, -1), 3: (1, -1)}
+    rhs = [(0, mpq(3)), (1, mpq(7))]
+    results = []
+    for cols in (merged, repeated):
+        basis, order = factor_lu(2, [0, 1], cols, unit)
+        results.append({order[p]: v for p, v in basis.ftran(rhs).items()})
+    # by hand: x0 = 3, x0 + 2 x1 = 7 gives x1 = 2
+    assert results[0] == results[1] == {0: 3, 1: 2}

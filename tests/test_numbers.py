@@ -150,3 +150,22 @@ def test_model_numbers_stay_short_but_certificates_may_be_long():
     assert verify(m, cert).valid
     with pytest.raises(NumberError):
         parse_number(long_zero)  # in a model, the 400-character cap applies
+
+
+def test_mpq_to_fraction_keeps_type_and_value():
+    # the solver's boundary conversion skips the second gcd (an mpq is already in
+    # lowest terms); it must equal the normalising constructor on every sign and size
+    from fractions import Fraction
+
+    from gmpy2 import mpq
+
+    from exactlp.solver.form import frac
+
+    values = [mpq(0), mpq(-0), mpq(1), mpq(-6, 4), mpq(10**60 + 1, 3 * 10**40), mpq(-(2**521 - 1), 2**127 - 1)]
+    for v in values:
+        f = frac(v)
+        assert type(f) is Fraction
+        assert f == Fraction(int(v.numerator), int(v.denominator))
+        assert (f.numerator, f.denominator) == (int(v.numerator), int(v.denominator))
+        assert type(f.numerator) is int and type(f.denominator) is int
+    assert frac(mpq(0)) == 0 and frac(mpq(-6, 4)) == Fraction(-3, 2)
