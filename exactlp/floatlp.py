@@ -155,16 +155,16 @@ class PendingHint:
         basis = h.getBasis()
         if not basis.valid:
             return None
-        B = highspy.HighsBasisStatus
-        basic, upper = [], set()
-        for j, s in enumerate(list(basis.col_status) + list(basis.row_status)):
-            if s == B.kBasic:
-                basic.append(j)
-            elif s == B.kUpper:
-                upper.add(j)
+        # Enum members compare slowly one by one; their integer values are read
+        # once per list instead (each ``col_status`` access converts the whole list).
+        basic_code = int(highspy.HighsBasisStatus.kBasic)
+        upper_code = int(highspy.HighsBasisStatus.kUpper)
+        codes = [s.value for s in basis.col_status] + [s.value for s in basis.row_status]
+        basic = [j for j, s in enumerate(codes) if s == basic_code]
         if len(basic) != m:
             return None
-        return BasisHint(tuple(basic), frozenset(upper), "highs", status)
+        upper = frozenset(j for j, s in enumerate(codes) if s == upper_code)
+        return BasisHint(tuple(basic), upper, "highs", status)
 
 
 class _NoHint:
