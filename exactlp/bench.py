@@ -129,6 +129,18 @@ def float_time(model) -> tuple[float | None, float | None]:
     return dt, obj
 
 
+def processor() -> str:
+    """", <the processor's model name>" where the system says it (Linux), else ""."""
+    try:
+        with open("/proc/cpuinfo", encoding="utf-8", errors="replace") as f:
+            for line in f:
+                if line.startswith("model name"):
+                    return ", " + line.split(":", 1)[1].strip()[:60]
+    except OSError:
+        pass
+    return ""
+
+
 def best_of(call, budget: float = REPEAT_BUDGET, most: int = REPEAT_MOST):
     """Run ``call`` once, and again while the runs so far took under ``budget``
     seconds (``most`` runs at most); return (the fastest time, the last result).
@@ -235,7 +247,8 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     from . import __version__
 
-    print(f"exactlp {__version__} benchmark, {time.strftime('%Y-%m-%d')}, {os.cpu_count()} cores, Python {sys.version.split()[0]}")
+    print(f"exactlp {__version__} benchmark, {time.strftime('%Y-%m-%d')}, {os.cpu_count()} cores{processor()}, "
+          f"Python {sys.version.split()[0]}")
     rows = choose(read_table(netlib), a.list)
     import importlib
 

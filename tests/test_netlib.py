@@ -4,6 +4,7 @@ Objectives are checked against optimal-values.csv (source: the Netlib LP readme,
 as copied in ../shared/netlib) to all of the published 11 significant digits.
 """
 
+import os
 from fractions import Fraction
 
 import pytest
@@ -76,6 +77,9 @@ def test_bench_prints_figures(capsys):
     assert bench.main(["--list", "AFIRO,SC50B", "--netlib", str(NETLIB)]) == 0
     out = capsys.readouterr().out
     assert "AFIRO" in out and "SC50B" in out and "yes" in out
+    # the header names the date and the machine: cores, the processor where the system says it
+    header = out.splitlines()[0]
+    assert header.startswith("exactlp ") and f"{os.cpu_count()} cores" in header and bench.processor() in header
 
 
 @needs_netlib
