@@ -80,6 +80,9 @@ def test_bench_prints_figures(capsys):
     # the header names the date and the machine: cores, the processor where the system says it
     header = out.splitlines()[0]
     assert header.startswith("exactlp ") and f"{os.cpu_count()} cores" in header and bench.processor() in header
+    # the targets follow the table, read off the same figures
+    tail = out.split("targets:\n", 1)[1].splitlines()
+    assert tail[0].startswith("  up to 500 rows, no warm start, within 5 s: 2 of 2")
 
 
 @needs_netlib
@@ -135,3 +138,30 @@ def test_float_hint_in_a_thread_is_the_same_as_in_line(name):
     threaded = pending.result()
     assert threaded is not None and threaded == highs_basis(m)
     assert len(threaded.basic) == len(m.constraints)
+
+
+def test_bench_reads_the_targets_off_its_own_figures():
+    # synthetic records (no solving): the lines name each target, what misses it and why
+    from exactlp.bench import targets
+
+    def rec(name, rows, **kw):
+        return {"name": name, "rows": rows, **kw}
+
+    results = [
+        rec("A", 40, cold_s=0.5, cold_status="optimal", cold_verify_s=0.01,
+            warm_s=0.02, warm_status="optimal", warm_verify_s=0.02, ratio=1.5),
+        rec("B", 300, cold_s=7.25, cold_status="optimal", cold_verify_s=0.2,
+            warm_s=0.3, warm_status="optimal", warm_verify_s=1.5, ratio=6.0),
+        rec("C", 480, cold_s=60.0, cold_status="time_limit",
+            warm_s=0.1, warm_status="optimal", warm_verify_s=0.05, ratio=2.5),
+        rec("D", 900, warm_s=12.0, warm_status="optimal", warm_verify_s=0.5, ratio=1.2),
+        rec("E", 4000, warm_s=700.0, warm_status="time_limit"),
+    ]
+    assert targets(results, 0.2468) == [
+        "up to 500 rows, no warm start, within 5 s: 1 of 3 (not: B 7.2 s, C time limit)",
+        "up to 500 rows, warm start, exact/float ratio: median 2.5 (target 2), worst 6.0 B (target 5), over 3",
+        "up to 500 rows, slowest verification: 1.500 s B (target 1 s)",
+        "up to 1,000 rows, certified: 4 of 4, slowest 12.0 s D (target 60 s)",
+        "over 1,000 rows, certified: 0 of 1 (not: E time limit)",
+        "exactlp --help: 0.25 s, fastest of 10 runs (target 0.3 s)",
+    ]
