@@ -287,7 +287,8 @@ def targets(results: list[dict], help_s: float | None) -> list[str]:
         text = f"{label}, certified: {len(done)} of {len(group)}"
         if done:
             t, name = max(done)
-            text += f", slowest {t:.1f} s {name} (target {limit:.0f} s)"
+            text += f", slowest {t:.3f} s {name}" if t < 1 else f", slowest {t:.1f} s {name}"
+            text += f" (target {limit:.0f} s)"
         if missing:
             text += f" (not: {', '.join(missing)})"
         lines.append(text)

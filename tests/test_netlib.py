@@ -165,3 +165,6 @@ def test_bench_reads_the_targets_off_its_own_figures():
         "over 1,000 rows, certified: 0 of 1 (not: E time limit)",
         "exactlp --help: 0.25 s, fastest of 10 runs (target 0.3 s)",
     ]
+    # under a second the slowest time keeps three decimals (0.0 s would say nothing)
+    quick = [rec("Q", 20, warm_s=0.25, warm_status="optimal", warm_verify_s=0.01, ratio=1.0)]
+    assert targets(quick, None)[-1] == "up to 1,000 rows, certified: 1 of 1, slowest 0.250 s Q (target 60 s)"
