@@ -159,22 +159,27 @@ def test_updated_reduced_costs_equal_recomputed_ones(recheck_updates, pricing, m
     assert r.status.is_proven or pricing == "dantzig"
 
 
+@pytest.mark.parametrize("switch", [0, 2])
 @settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(model=lp_models(max_vars=6, max_rows=6))
-def test_partial_pricing_with_updated_duals(recheck_updates, monkeypatch, model):
+def test_partial_pricing_with_updated_duals(recheck_updates, monkeypatch, switch, model):
     # partial pricing forced on every model: the duals kept up to date must equal
-    # c_B^T B^-1 after every pivot, and every outcome must carry a valid certificate
+    # c_B^T B^-1 after every pivot, and every outcome must carry a valid certificate;
+    # switch 0 keeps partial pricing to the end, 2 lets it give way to updated
+    # reduced costs (which check_updates then compares with recomputed ones)
     monkeypatch.setattr(simplex_module, "PARTIAL_FACTOR", 0)
     monkeypatch.setattr(simplex_module, "PARTIAL_PARTS", 3)
+    monkeypatch.setattr(simplex_module, "PARTIAL_SWITCH", switch)
     r = solve_verified(model, pricing="guarded")
     assert r.status.is_proven
 
 
-@pytest.mark.parametrize("partial", [False, True])
+@pytest.mark.parametrize("partial", ["off", "to the end", "giving way"])
 @pytest.mark.parametrize("name", ["SC50A", "KB2", "SHARE2B"])
 def test_updated_reduced_costs_on_netlib(recheck_updates, monkeypatch, partial, name):
-    if partial:
+    if partial != "off":
         monkeypatch.setattr(simplex_module, "PARTIAL_FACTOR", 0)
+        monkeypatch.setattr(simplex_module, "PARTIAL_SWITCH", 0 if partial == "to the end" else 2)
     from .conftest import NETLIB, netlib_table
 
     if NETLIB is None:
@@ -221,10 +226,23 @@ def test_crossed_bounds_settled_before_the_simplex_with_either_start(warm_start,
     assert r.iterations == 0 and r.warm_start == "off"
 
 
-def test_partial_pricing_reports_the_last_scans_reduced_costs():
+@pytest.mark.parametrize("switch", [2, 0])
+def test_partial_pricing_reports_the_last_scans_reduced_costs(monkeypatch, switch):
     # a wide model (60 columns on 2 rows, over PARTIAL_FACTOR (m + 1)): the
-    # reported reduced costs come from the pivot loop's last full scan and must
-    # equal c - A^T y from the reported duals, recomputed here in Fractions
+    # reported reduced costs come from the pivot loop (the last full partial scan,
+    # or with the default PARTIAL_SWITCH possibly the updated ones after the
+    # switch to full pricing) and must equal c - A^T y from the reported duals,
+    # recomputed here in Fractions
+    monkeypatch.setattr(simplex_module, "PARTIAL_SWITCH", switch)
+    seen = []
+    original = simplex_module.Simplex._price_partial
+
+    def spy(self, *args, **kw):
+        out = original(self, *args, **kw)
+        seen.append(out[1])
+        return out
+
+    monkeypatch.setattr(simplex_module.Simplex, "_price_partial", spy)
     terms_a = " + ".join(f"{(j % 7) + 1} x{j}" for j in range(60))
     terms_b = " + ".join(f"{(j % 5) + 2}/3 x{j}" for j in range(60))
     cost = " + ".join(f"{(j * 37) % 11 + 1} x{j}" for j in range(60))
@@ -239,3 +257,5 @@ def test_partial_pricing_reports_the_last_scans_reduced_costs():
         for c in model.constraints:
             d -= sum((a for n, a in c.terms if n == v.name), F(0)) * r.duals[c.name]
         assert r.reduced_costs[v.name] == d and type(r.reduced_costs[v.name]) is F
+    if switch == 0:  # never switched: the optimum was concluded by a partial scan
+        assert seen and seen[-1] == -1

@@ -106,6 +106,10 @@ LEX_AFTER_FACTOR = 1
 #: the guarded rule prices partially when a model has more than this many columns
 #: per row (then 1 / PARTIAL_PARTS of the columns at a time)
 PARTIAL_FACTOR = 8
+#: partial pricing gives way to full pricing with updated reduced costs once one
+#: scan has had to look at 1 / PARTIAL_SWITCH of the columns to find an improving one
+#: (0: never)
+PARTIAL_SWITCH = 2
 PARTIAL_PARTS = 8
 
 
@@ -218,6 +222,7 @@ class Simplex:
         self.scores: list[int] | None = None
         self._partial_start = 0
         self.partial_seen: dict[int, mpq] = {}  # reduced costs of the last full partial-pricing scan
+        self.partial_looked = 0  # columns looked at by the last partial-pricing scan
         if hint is not None:
             reason = self._setup_warm(hint)
             if reason is None and self.repair:
@@ -527,6 +532,7 @@ class Simplex:
         else:
             k = ncol
         self._partial_start = start + k
+        self.partial_looked = k  # how many columns this scan looked at
         if best < 0:
             self.partial_seen = seen  # every column looked at: the result reuses these
             return d, -1, -1
@@ -816,8 +822,11 @@ class Simplex:
         d: list[mpq | None] | None = None  # reduced costs, kept up to date pivot by pivot
         self.weights = [0] * len(self.cols)  # devex reference weights, 16 log2 w_j (1 at the start)
         # partial pricing (wide models under the guarded rule): the duals are kept
-        # up to date instead, and reduced costs are computed for a part of the columns
-        partial = pricing == "guarded" and len(self.cols) > PARTIAL_FACTOR * (self.m + 1)
+        # up to date instead, and reduced costs are computed for a part of the columns.
+        # Not from an accepted float hint: few pivots remain there, and each partial
+        # scan near an optimum prices most columns to find one that improves.
+        partial = (pricing == "guarded" and len(self.cols) > PARTIAL_FACTOR * (self.m + 1)
+                   and not (self.warm is not None and self.warm.accepted))
         y: list[mpq] | None = None
         while True:
             if partial:
@@ -844,6 +853,15 @@ class Simplex:
                 return Outcome("time_limit", z, self._duals(cost))
             if partial:
                 d, first, best = self._price_partial(cost, y, lowest=bland_mode)
+                if first >= 0 and self.partial_looked * PARTIAL_SWITCH >= len(self.cols):
+                    # The end game (or a start near the optimum, as from a float hint):
+                    # half the columns had to be priced to find one that improves, so
+                    # every scan from here would cost about a full pricing pass.  Keep
+                    # all the reduced costs instead and update them pivot by pivot.
+                    partial = False
+                    d = self._reduced_costs(cost, y)  # y is current: partial pricing keeps it so
+                    self.scores = None
+                    first, best = self._price(d, weighted=pricing == "guarded")
             else:
                 first, best = self._price(d, weighted=pricing == "guarded")
             if first < 0:
