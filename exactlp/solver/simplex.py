@@ -854,10 +854,10 @@ class Simplex:
             if partial:
                 d, first, best = self._price_partial(cost, y, lowest=bland_mode)
                 if first >= 0 and self.partial_looked * PARTIAL_SWITCH >= len(self.cols):
-                    # The end game (or a start near the optimum, as from a float hint):
-                    # half the columns had to be priced to find one that improves, so
-                    # every scan from here would cost about a full pricing pass.  Keep
-                    # all the reduced costs instead and update them pivot by pivot.
+                    # The end game: 1 / PARTIAL_SWITCH of the columns (half) had to be
+                    # priced to find one that improves, so every scan from here would
+                    # cost about a full pricing pass.  Keep all the reduced costs
+                    # instead and update them pivot by pivot, for the rest of the phase.
                     partial = False
                     d = self._reduced_costs(cost, y)  # y is current: partial pricing keeps it so
                     self.scores = None
