@@ -259,3 +259,35 @@ def test_partial_pricing_reports_the_last_scans_reduced_costs(monkeypatch, switc
         assert r.reduced_costs[v.name] == d and type(r.reduced_costs[v.name]) is F
     if switch == 0:  # never switched: the optimum was concluded by a partial scan
         assert seen and seen[-1] == -1
+
+
+def test_no_partial_pricing_from_an_accepted_hint(monkeypatch):
+    # a wide model (60 columns on 2 rows) started from a suggested basis that is
+    # feasible but not optimal (the slack basis, handed in as if from the float
+    # solver): the pivots from there price in full (devex), never partially, and
+    # the optimum is certified and equals the cold solve's
+    from exactlp import floatlp
+    from exactlp.solver.events import Pivot
+
+    terms_a = " + ".join(f"{(j % 7) + 1} x{j}" for j in range(60))
+    terms_b = " + ".join(f"{(j % 5) + 2}/3 x{j}" for j in range(60))
+    gain = " + ".join(f"{(j * 37) % 11 + 1} x{j}" for j in range(60))
+    text = (f"maximize: {gain}\nvariables: {{{', '.join(f'x{j}: {{upper: 4}}' for j in range(60))}}}\n"
+            f"constraints:\n  a: {terms_a} <= 30\n  b: {terms_b} <= 20\n")
+    model = model_from_text(text)
+
+    class Slack:
+        def result(self):
+            return floatlp.BasisHint((60, 61), frozenset(), "test", "suggested")
+
+        def discard(self):
+            return None
+
+    monkeypatch.setattr(floatlp, "highs_available", lambda: True)
+    monkeypatch.setattr(floatlp, "start_highs", lambda model, time_limit=None: Slack())
+    events = []
+    r = solve_verified(model, warm_start=True, listener=events.append)
+    rules = {e.rule for e in events if isinstance(e, Pivot)}
+    assert r.status is Status.OPTIMAL and r.warm_start.startswith("accepted: ")
+    assert rules and all(rule.startswith("devex") for rule in rules), rules
+    assert r.objective == solve_verified(model, warm_start=False).objective
