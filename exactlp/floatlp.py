@@ -190,6 +190,13 @@ def start_highs(model: Model, time_limit: float | None = None, background: bool 
     with _quiet_stdout():
         h = highspy.Highs()
         h.setOptionValue("output_flag", False)
+    # highspy's wrapper installs a Python callback, which HiGHS then calls while it
+    # solves: each call needs the interpreter lock, held here while the exact form
+    # is built, so the two sides took turns instead of running side by side (AGG:
+    # 8.9 ms to the hint with it, 5.0 ms without).  Nothing here uses callbacks.
+    disable = getattr(h, "disableCallbacks", None)
+    if disable is not None:
+        disable()
     h.setOptionValue("random_seed", 0)
     h.setOptionValue("threads", 1)
     if time_limit is not None:
