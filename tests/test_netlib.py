@@ -159,7 +159,7 @@ def test_bench_reads_the_targets_off_its_own_figures():
     ]
     assert targets(results, 0.2468) == [
         "up to 500 rows, no warm start, within 5 s: 1 of 3 (not: B 7.2 s, C time limit)",
-        "up to 500 rows, warm start, exact/float ratio: median 2.5 (target 2), worst 6.0 B (target 5), over 3",
+        "up to 500 rows, warm start, exact/float ratio: median 2.50 (target 2), worst 6.00 B (target 5), over 3",
         "up to 500 rows, slowest verification: 1.500 s B (target 1 s)",
         "up to 1,000 rows, certified: 4 of 4, slowest 12.0 s D (target 60 s)",
         "over 1,000 rows, certified: 0 of 1 (not: E time limit)",
