@@ -291,3 +291,19 @@ def test_no_partial_pricing_from_an_accepted_hint(monkeypatch):
     assert r.status is Status.OPTIMAL and r.warm_start.startswith("accepted: ")
     assert rules and all(rule.startswith("devex") for rule in rules), rules
     assert r.objective == solve_verified(model, warm_start=False).objective
+
+
+def test_values_resting_on_bounds_are_fractions_of_the_model():
+    # nonbasic values are reported as the model's own bound objects when those are
+    # Fractions, and converted otherwise (a bound given as a plain int): the type
+    # is Fraction either way (by hand: maximise x + y with x <= 7/2, y <= 2, x + y <= 9
+    # rests both at their upper bounds; the row is slack at 11/2)
+    from exactlp.model import Constraint, Model, Sense, Variable
+
+    m = Model(variables=(Variable("x", F(0), F(7, 2)), Variable("y", 0, 2)),
+              objective=(("x", F(1)), ("y", F(1))), sense=Sense.MAXIMIZE,
+              constraints=(Constraint("r", (("x", F(1)), ("y", F(1))), None, F(9)),))
+    r = exactlp.solve(m, warm_start=False)
+    assert r.status is Status.OPTIMAL and r.objective == F(11, 2)
+    assert r.primal == {"x": F(7, 2), "y": F(2)} and r.activities == {"r": F(11, 2)}
+    assert all(type(v) is F for v in (*r.primal.values(), *r.activities.values()))

@@ -123,8 +123,20 @@ def solve(
     status = Status(out.status)
     extra: dict = {}
     if status in (Status.OPTIMAL, Status.UNBOUNDED):
-        extra["primal"] = frozen_map({vnames[j]: frac(sx.x[j]) for j in range(n)})
-        extra["activities"] = frozen_map({cnames[i]: frac(sx.x[n + i]) for i in range(m)})
+        x, lower, upper = sx.x, form.lower, form.upper
+
+        def value(j: int, item) -> Fraction:
+            # a value resting on one of its own bounds is that bound, already a
+            # Fraction in the model: no conversion (the comparison is of mpq's)
+            v = x[j]
+            if v and sx.state[j] != 0:
+                b = item.lower if v == lower[j] else item.upper if v == upper[j] else None
+                if type(b) is Fraction:
+                    return b
+            return frac(v)
+
+        extra["primal"] = frozen_map({v.name: value(j, v) for j, v in enumerate(model.variables)})
+        extra["activities"] = frozen_map({c.name: value(n + i, c) for i, c in enumerate(model.constraints)})
     if status is Status.OPTIMAL:
         y = out.y
         extra["objective"] = frac(sign * out.z + form.constant)

@@ -251,20 +251,21 @@ class Simplex:
             return "the suggested basis does not have one column per row"
         x = [ZERO] * ncol
         state = [BASIC] * ncol
+        rhs: dict[int, mpq] = {}  # -N x_N, by row
+        cols, at_upper, rest = self.cols, hint.at_upper, self._rest
         for j in range(ncol):
             if j in basic:
                 continue
-            x[j], state[j] = self._rest(j, prefer_upper=j in hint.at_upper)
+            v, state[j] = rest(j, prefer_upper=j in at_upper)
+            if v:
+                x[j] = v
+                for i, a in cols[j]:
+                    rhs[i] = rhs.get(i, ZERO) - a * v
         unit_row = {f.n + i: (i, -1) for i in range(m)}
         try:
             basis, head = FACTOR(m, sorted(basic), self.cols, unit_row)
         except ArithmeticError:
             return "the suggested basis is singular"
-        rhs: dict[int, mpq] = {}
-        for j in range(ncol):
-            if state[j] != BASIC and x[j]:
-                for i, a in self.cols[j]:
-                    rhs[i] = rhs.get(i, ZERO) - a * x[j]
         xb = basis.ftran([(i, v) for i, v in sorted(rhs.items()) if v])
         repair: dict[int, tuple] = {}
         for p, c in enumerate(head):
