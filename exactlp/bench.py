@@ -132,6 +132,7 @@ def float_time(model) -> tuple[float | None, float | None]:
 
     kw, sign = linprog_arguments(model)
     dt, r = best_of(lambda: linprog(**kw))
+    # the float reference's own objective, in its own domain: timed and shown, never certified
     obj = sign * r.fun + float(model.objective_constant) if r.status == 0 else None
     return dt, obj
 
@@ -225,6 +226,8 @@ def run(rows: list[dict], netlib: Path, time_limit: float | None, cold: bool, wa
         obj = format_decimal(objective, 11) if objective is not None else "-"
         match = published_match(objective, row) if objective is not None else "-"
         if match == "NO":
+            # a label only: the exact objective (already certified) beside HiGHS's double-
+            # precision reading of the same file, to say where a published value differs
             other = independent_objective(netlib / row["file"])
             if other is not None and abs(float(objective) - other) <= 1e-9 * max(1.0, abs(other)):
                 match = "no; HiGHS's own reading agrees"

@@ -226,6 +226,21 @@ def test_crossed_bounds_settled_before_the_simplex_with_either_start(warm_start,
     assert r.iterations == 0 and r.warm_start == "off"
 
 
+def _wide_model(sense: str):
+    """60 columns in [0, 4] on 2 rows (over PARTIAL_FACTOR (m + 1)): invented numbers.
+
+    ``minimize`` asks for enough (rows >= 30 and >= 20), ``maximize`` stays within
+    it (rows <= 30 and <= 20), so the slack basis is feasible only for the latter.
+    """
+    side = ">=" if sense == "minimize" else "<="
+    terms_a = " + ".join(f"{(j % 7) + 1} x{j}" for j in range(60))
+    terms_b = " + ".join(f"{(j % 5) + 2}/3 x{j}" for j in range(60))
+    cost = " + ".join(f"{(j * 37) % 11 + 1} x{j}" for j in range(60))
+    return model_from_text(
+        f"{sense}: {cost}\nvariables: {{{', '.join(f'x{j}: {{upper: 4}}' for j in range(60))}}}\n"
+        f"constraints:\n  a: {terms_a} {side} 30\n  b: {terms_b} {side} 20\n")
+
+
 @pytest.mark.parametrize("switch", [2, 0])
 def test_partial_pricing_reports_the_last_scans_reduced_costs(monkeypatch, switch):
     # a wide model (60 columns on 2 rows, over PARTIAL_FACTOR (m + 1)): the
@@ -243,12 +258,7 @@ def test_partial_pricing_reports_the_last_scans_reduced_costs(monkeypatch, switc
         return out
 
     monkeypatch.setattr(simplex_module.Simplex, "_price_partial", spy)
-    terms_a = " + ".join(f"{(j % 7) + 1} x{j}" for j in range(60))
-    terms_b = " + ".join(f"{(j % 5) + 2}/3 x{j}" for j in range(60))
-    cost = " + ".join(f"{(j * 37) % 11 + 1} x{j}" for j in range(60))
-    text = (f"minimize: {cost}\nvariables: {{{', '.join(f'x{j}: {{upper: 4}}' for j in range(60))}}}\n"
-            f"constraints:\n  a: {terms_a} >= 30\n  b: {terms_b} >= 20\n")
-    model = model_from_text(text)
+    model = _wide_model("minimize")
     assert len(model.variables) > simplex_module.PARTIAL_FACTOR * (len(model.constraints) + 1)
     r = solve_verified(model, warm_start=False)
     assert r.status is Status.OPTIMAL
@@ -269,12 +279,7 @@ def test_no_partial_pricing_from_an_accepted_hint(monkeypatch):
     from exactlp import floatlp
     from exactlp.solver.events import Pivot
 
-    terms_a = " + ".join(f"{(j % 7) + 1} x{j}" for j in range(60))
-    terms_b = " + ".join(f"{(j % 5) + 2}/3 x{j}" for j in range(60))
-    gain = " + ".join(f"{(j * 37) % 11 + 1} x{j}" for j in range(60))
-    text = (f"maximize: {gain}\nvariables: {{{', '.join(f'x{j}: {{upper: 4}}' for j in range(60))}}}\n"
-            f"constraints:\n  a: {terms_a} <= 30\n  b: {terms_b} <= 20\n")
-    model = model_from_text(text)
+    model = _wide_model("maximize")
 
     class Slack:
         def result(self):
