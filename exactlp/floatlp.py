@@ -66,10 +66,19 @@ def _arrays(model: Model, rowwise: bool = False):
     rhi = np.array([inf if c.upper is None else _f(c.upper) for c in model.constraints])
     start, idx, val = [0], [], []
     if rowwise:
+        # each distinct value is divided once (real models repeat a few values
+        # thousands of times); a whole number is keyed by itself
+        seen: dict = {}
+        get = seen.get
         for c in model.constraints:
             for name, a in c.terms:
                 idx.append(index[name])
-                val.append(a.numerator / a.denominator)
+                p, r = a.numerator, a.denominator
+                key = p if r == 1 else (p, r)
+                v = get(key)
+                if v is None:
+                    v = seen[key] = p / r
+                val.append(v)
             start.append(len(idx))
     else:
         cols: list[list[tuple[int, float]]] = [[] for _ in range(n)]

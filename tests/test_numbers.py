@@ -152,20 +152,30 @@ def test_model_numbers_stay_short_but_certificates_may_be_long():
         parse_number(long_zero)  # in a model, the 400-character cap applies
 
 
-def test_mpq_to_fraction_keeps_type_and_value():
+@pytest.mark.parametrize("path", ["as installed", "slots", "keyword"])
+def test_mpq_to_fraction_keeps_type_and_value(path, monkeypatch):
     # the solver's boundary conversion skips the second gcd (an mpq is already in
-    # lowest terms); it must equal the normalising constructor on every sign and size
+    # lowest terms); it must equal the normalising constructor on every sign and
+    # size, by each of its three routes (whichever this Python offers is "as installed")
     from fractions import Fraction
 
     from gmpy2 import mpq
 
-    from exactlp.solver.form import frac
+    from exactlp.solver import form
 
+    if path != "as installed":
+        monkeypatch.setattr(form, "_from_coprime", None)
+        if path == "slots" and not form._SLOTS:
+            pytest.skip("this Python's Fraction does not keep (_numerator, _denominator) slots")
+        monkeypatch.setattr(form, "_SLOTS", path == "slots")
+    frac = form.frac
     values = [mpq(0), mpq(-0), mpq(1), mpq(-6, 4), mpq(10**60 + 1, 3 * 10**40), mpq(-(2**521 - 1), 2**127 - 1)]
     for v in values:
         f = frac(v)
         assert type(f) is Fraction
-        assert f == Fraction(int(v.numerator), int(v.denominator))
+        reference = Fraction(int(v.numerator), int(v.denominator))
+        assert f == reference and hash(f) == hash(reference) and str(f) == str(reference)
         assert (f.numerator, f.denominator) == (int(v.numerator), int(v.denominator))
         assert type(f.numerator) is int and type(f.denominator) is int
+        assert f + Fraction(1, 3) == reference + Fraction(1, 3)
     assert frac(mpq(0)) == 0 and frac(mpq(-6, 4)) == Fraction(-3, 2)

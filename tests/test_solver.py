@@ -312,3 +312,31 @@ def test_values_resting_on_bounds_are_fractions_of_the_model():
     assert r.status is Status.OPTIMAL and r.objective == F(11, 2)
     assert r.primal == {"x": F(7, 2), "y": F(2)} and r.activities == {"r": F(11, 2)}
     assert all(type(v) is F for v in (*r.primal.values(), *r.activities.values()))
+
+
+def test_form_holds_the_model_exactly_with_one_mpq_per_distinct_value():
+    # build_form converts each distinct coefficient once and shares the mpq; every
+    # entry, cost and bound must still equal the model's Fraction exactly, signs,
+    # whole numbers and plain ints included (the minimising sign flips the costs)
+    from gmpy2 import mpq
+
+    from exactlp.model import Constraint, Model, Sense, Variable
+    from exactlp.solver.form import build_form
+
+    m = Model(variables=(Variable("x", F(-1, 3), F(5, 2)), Variable("y", 0, None), Variable("z", None, F(7))),
+              objective=(("x", F(3, 4)), ("y", F(-2)), ("z", F(3, 4))), sense=Sense.MAXIMIZE,
+              constraints=(Constraint("a", (("x", F(1, 3)), ("y", F(-2)), ("z", F(1))), F(-1, 3), F(4)),
+                           Constraint("b", (("x", F(-2)), ("z", F(1, 3))), None, F(1, 3)),
+                           Constraint("c", (("y", F(1)),), F(2), F(2))))
+    form = build_form(m)
+    assert form.n == 3 and form.m == 3 and form.sign == -1
+    entries = {(i, j): a for j, col in enumerate(form.cols[:3]) for i, a in col}
+    assert entries == {(0, 0): F(1, 3), (0, 1): F(-2), (0, 2): F(1), (1, 0): F(-2), (1, 2): F(1, 3), (2, 1): F(1)}
+    assert all(type(a) is type(mpq(1)) for col in form.cols for _, a in col)
+    assert entries[(0, 0)] is entries[(1, 2)] and entries[(0, 1)] is entries[(1, 0)]  # shared, not rebuilt
+    assert form.cost == [F(-3, 4), F(2), F(-3, 4), 0, 0, 0]
+    assert form.lower == [F(-1, 3), 0, None, F(-1, 3), None, F(2)]
+    assert form.upper == [F(5, 2), None, F(7), F(4), F(1, 3), F(2)]
+    assert all(type(v) is type(mpq(1)) for v in (*form.cost, *form.lower, *form.upper) if v is not None)
+    assert [col for col in form.cols[3:]] == [[(0, -1)], [(1, -1)], [(2, -1)]]
+    assert form.crossed is None

@@ -20,6 +20,10 @@ from .simplex import PRICING_RULES, Simplex
 __all__ = ["solve", "SolveResult", "Status", "PRICING_RULES", "Start", "Pivot", "PhaseEnd", "Finish"]
 
 
+def _fixed(lo, hi) -> bool:
+    return lo is not None and hi is not None and lo == hi
+
+
 def _check_options(pricing, iteration_limit, time_limit) -> None:
     if pricing not in PRICING_RULES:
         from ..errors import did_you_mean
@@ -108,7 +112,7 @@ def solve(
     cnames = [c.name for c in model.constraints]
     common = dict(
         basis=tuple(sx.labels[c] for c in sx.head if sx.kinds[c] != "artificial"),
-        at_upper=tuple(sx.labels[j] for j in range(form.ncols) if sx.state[j] == 2 and sx.lower[j] != sx.upper[j]),
+        at_upper=tuple(sx.labels[j] for j in range(form.ncols) if sx.state[j] == 2 and not _fixed(sx.lower[j], sx.upper[j])),
         # an artificial left basic on a redundant equality row stands in for that row's
         # logical (both are unit columns of the same row), so the basis is still one
         basis_columns=tuple(form.n + sx.unit_row[c][0] if sx.kinds[c] == "artificial" else c for c in sx.head),
@@ -130,7 +134,8 @@ def solve(
             # Fraction in the model: no conversion (the comparison is of mpq's)
             v = x[j]
             if v and sx.state[j] != 0:
-                b = item.lower if v == lower[j] else item.upper if v == upper[j] else None
+                lo, hi = lower[j], upper[j]  # (never compare an mpq with None: slow in gmpy2)
+                b = item.lower if (lo is not None and v == lo) else item.upper if (hi is not None and v == hi) else None
                 if type(b) is Fraction:
                     return b
             return frac(v)
