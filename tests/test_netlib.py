@@ -168,3 +168,52 @@ def test_bench_reads_the_targets_off_its_own_figures():
     # under a second the slowest time keeps three decimals (0.0 s would say nothing)
     quick = [rec("Q", 20, warm_s=0.25, warm_status="optimal", warm_verify_s=0.01, ratio=1.0)]
     assert targets(quick, None)[-1] == "up to 1,000 rows, certified: 1 of 1, slowest 0.250 s Q (target 60 s)"
+
+
+@pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
+def test_float_copy_handed_to_highs_is_the_model():
+    # The float copy goes to HiGHS as plain arrays in one call; what HiGHS holds
+    # must be the model (minimising: a maximised objective is negated), with every
+    # kind of bound: free, only-upper, boxed and fixed variables, and <=, >=, ranged
+    # and equality rows. Its basis must then be exactly optimal (accepted, no pivot),
+    # and its float objective the exact cold optimum to within rounding.
+    import math
+
+    from exactlp.floatlp import start_highs
+    from exactlp.model import Constraint, Model, Sense, Variable
+
+    F = Fraction
+    m = Model(
+        variables=(Variable("x", F(0), F(10)), Variable("y", None, None), Variable("z", None, F(-1, 2)),
+                   Variable("w", F(3, 4), F(3, 4))),
+        objective=(("x", F(2)), ("y", F(-1)), ("z", F(3, 2)), ("w", F(1))), sense=Sense.MAXIMIZE,
+        constraints=(Constraint("le", (("x", F(1)), ("y", F(1))), None, F(6)),
+                     Constraint("ge", (("y", F(1)), ("z", F(-1))), F(1, 10), None),
+                     Constraint("rng", (("x", F(1)), ("z", F(2)), ("w", F(-1))), F(-3), F(5)),
+                     Constraint("eq", (("x", F(1, 3)), ("y", F(-1))), F(1), F(1))))
+    pending = start_highs(m, background=False)
+    lp = pending._h.getLp()
+    assert (lp.num_col_, lp.num_row_) == (4, 4)
+    assert list(lp.col_cost_) == [-2.0, 1.0, -1.5, -1.0]
+    assert list(lp.col_lower_) == [0.0, -math.inf, -math.inf, 0.75]
+    assert list(lp.col_upper_) == [10.0, math.inf, -0.5, 0.75]
+    assert list(lp.row_lower_) == [-math.inf, 0.1, -3.0, 1.0]
+    assert list(lp.row_upper_) == [6.0, math.inf, 5.0, 1.0]
+    dense = [[0.0] * 4 for _ in range(4)]
+    import highspy
+
+    a = lp.a_matrix_
+    rowwise = a.format_ == highspy.MatrixFormat.kRowwise
+    starts = list(a.start_)
+    for major in range(len(starts) - 1):
+        for k in range(starts[major], starts[major + 1]):
+            i, j = (major, a.index_[k]) if rowwise else (a.index_[k], major)
+            dense[i][j] = a.value_[k]
+    assert dense == [[1, 1, 0, 0], [0, 1, -1, 0], [1, 0, 2, -1], [1 / 3, -1, 0, 0]]
+    hint = pending.result()
+    assert hint is not None and hint.float_status == "Optimal"
+    cold = exactlp.solve(m, warm_start=False)
+    warm = exactlp.solve(m, warm_start=True)
+    assert cold.status is exactlp.Status.OPTIMAL and warm.objective == cold.objective
+    assert warm.warm_start.startswith("accepted") and warm.iterations == 0
+    assert abs(-pending._h.getInfo().objective_function_value - float(cold.objective)) < 1e-9
