@@ -110,13 +110,15 @@ def solve(
     n, m, sign = form.n, form.m, form.sign
     vnames = [v.name for v in model.variables]
     cnames = [c.name for c in model.constraints]
+    state, labels, kinds = sx.state, sx.labels, sx.kinds
+    up = tuple(j for j in range(form.ncols) if state[j] == 2)
     common = dict(
-        basis=tuple(sx.labels[c] for c in sx.head if sx.kinds[c] != "artificial"),
-        at_upper=tuple(sx.labels[j] for j in range(form.ncols) if sx.state[j] == 2 and not _fixed(sx.lower[j], sx.upper[j])),
+        basis=tuple(labels[c] for c in sx.head if kinds[c] != "artificial"),
+        at_upper=tuple(labels[j] for j in up if not _fixed(sx.lower[j], sx.upper[j])),
         # an artificial left basic on a redundant equality row stands in for that row's
         # logical (both are unit columns of the same row), so the basis is still one
-        basis_columns=tuple(form.n + sx.unit_row[c][0] if sx.kinds[c] == "artificial" else c for c in sx.head),
-        at_upper_columns=tuple(j for j in range(form.ncols) if sx.state[j] == 2),
+        basis_columns=tuple(form.n + sx.unit_row[c][0] if kinds[c] == "artificial" else c for c in sx.head),
+        at_upper_columns=up,
         pivots_phase1=sx.pivots[1],
         pivots_phase2=sx.pivots[2],
         bound_flips=sx.flips,
@@ -133,7 +135,7 @@ def solve(
             # a value resting on one of its own bounds is that bound, already a
             # Fraction in the model: no conversion (the comparison is of mpq's)
             v = x[j]
-            if v and sx.state[j] != 0:
+            if v and state[j] != 0:
                 lo, hi = lower[j], upper[j]  # (never compare an mpq with None: slow in gmpy2)
                 b = item.lower if (lo is not None and v == lo) else item.upper if (hi is not None and v == hi) else None
                 if type(b) is Fraction:
@@ -145,20 +147,21 @@ def solve(
     if status is Status.OPTIMAL:
         y = out.y
         extra["objective"] = frac(sign * out.z + form.constant)
-        extra["duals"] = frozen_map({cnames[i]: frac(sign * y[i]) for i in range(m)})
+        flip = sign < 0  # to the model's sense (a negation, not a multiplication, when needed)
+        extra["duals"] = frozen_map({cnames[i]: frac(-y[i] if flip else y[i]) for i in range(m)})
         rc = {}
         kept = out.d  # the pivot loop's own reduced costs, when it priced in full
         for j in range(n):
             if kept is not None and kept[j] is not None:
                 d = kept[j]  # equal to c_j - y^T a_j exactly (checked in the solver tests)
-            elif sx.state[j] == 0:  # basic
+            elif state[j] == 0:  # basic
                 d = ZERO
             else:
                 d = form.cost[j]
                 for i, a in form.cols[j]:
                     if y[i]:
                         d -= y[i] * a
-            rc[vnames[j]] = frac(sign * d)
+            rc[vnames[j]] = frac(-d if flip else d)
         extra["reduced_costs"] = frozen_map(rc)
     elif status is Status.INFEASIBLE:
         rows, bounds = sx.farkas(out.y)
