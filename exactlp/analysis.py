@@ -364,6 +364,13 @@ def ranges(model: Model, variables: list[str] | None = None, **solve_options) ->
         if n + i not in basic and r.duals[c.name] == 0 and not c.is_equality:
             nondegenerate = False
     fixed = fixed_objective_model(model, r.objective)
+    # Every probe starts from the optimal basis just proven, with the new row's
+    # logical basic (at the optimum, which is both its bounds): that point is
+    # feasible for every probe, so no float solve is needed and a few exact
+    # pivots usually reach the probe's own optimum.  It is re-proven as usual.
+    from .floatlp import BasisHint
+
+    start = BasisHint.of_result(r, n, len(model.constraints), added_rows=1, source="optimum of the model")
     out: dict[str, VarRange] = {}
     endpoints: dict[str, tuple] = {}
     solves = 1
@@ -378,7 +385,7 @@ def ranges(model: Model, variables: list[str] | None = None, **solve_options) ->
         probes = []
         for sense in ("minimize", "maximize"):
             probe = replace(fixed, sense=Sense(sense), objective=((name, Fraction(1)),), objective_constant=Fraction(0))
-            pr = solve(probe, **solve_options)
+            pr = solve(probe, **solve_options, start_basis=start)
             probes.append((probe, pr))
             solves += 1
             if pr.status is Status.OPTIMAL:

@@ -32,12 +32,23 @@ def highs_available() -> bool:
 
 @dataclass(frozen=True)
 class BasisHint:
-    """A suggested basis: for each column (structurals, then logicals) its status."""
+    """A suggested basis: for each column (structurals, then logicals) its status.
+
+    Made by HiGHS here, or from an exact optimal basis (:meth:`of_result`).
+    """
 
     basic: tuple[int, ...]  # column indices (structural j, logical n + i)
     at_upper: frozenset[int]  # nonbasic columns resting on their upper bound
     source: str
-    float_status: str
+    float_status: str  # what the float solver said; "exact" when no float solver made it
+
+    @classmethod
+    def of_result(cls, result, n: int, m: int, added_rows: int = 0, source: str = "exact basis") -> "BasisHint":
+        """The final basis of ``result`` (a model with ``n`` variables and ``m`` rows),
+        for the same model with ``added_rows`` rows appended: their logicals
+        (columns ``n + m``, ...) join the basis, so the old point stays where it was."""
+        basic = tuple(result.basis_columns) + tuple(range(n + m, n + m + added_rows))
+        return cls(basic, frozenset(result.at_upper_columns), source, "exact")
 
 
 def _f(x) -> float:

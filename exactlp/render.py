@@ -160,7 +160,7 @@ def solve_report(console: Console, model: Model, result, *, digits: int, certifi
         head.append(("outcome", f"stopped: {st.value.replace('_', ' ')} reached; nothing is proven"))
     head.append(("pivots", f"phase 1: {result.pivots_phase1}, phase 2: {result.pivots_phase2}, bound flips: {result.bound_flips}"))
     if result.warm_start != "off":
-        head.append(("warm start", f"{result.warm_start} (a floating-point suggestion, re-proven exactly)"))
+        head.append(("warm start", f"{result.warm_start} (a suggested starting basis, re-proven exactly)"))
     if verified is not None:
         head.append(("check", "the certificate passed the independent verifier" if verified else "the certificate FAILED verification"))
     if certificate:

@@ -165,6 +165,31 @@ def test_alternative_optima_by_hand():
     assert (row.name, row.terms, row.lower, row.upper) == ("optimal_objective", (("x", F(1)), ("y", F(1))), F(4), F(4))
 
 
+def test_range_probes_start_from_the_proven_optimal_basis():
+    # Each probe (one variable minimised or maximised with the objective held at
+    # its optimum) starts from the parent's exact optimal basis plus the new row's
+    # logical, which is feasible for every probe: the start is accepted, no float
+    # solve is made, and the ends equal those of probes solved from scratch.
+    from exactlp.analysis import ranges
+
+    m = model_from_text(ALTERNATIVE)
+    rg = ranges(m, warm_start=False)
+    parent = rg.result
+    n, rows = len(m.variables), len(m.constraints)
+    for name, ends in rg.endpoints.items():
+        for probe, result in ends:
+            assert result.warm_start == "accepted: the suggested basis is exactly primal feasible"
+            fresh = exactlp.solve(probe, warm_start=False)
+            assert fresh.warm_start == "off" and result.objective == fresh.objective
+            assert exactlp.verify(probe, exactlp.build_certificate(probe, result)).valid
+    # the start handed to the probes: the parent's basis, and the held row's logical
+    from exactlp.floatlp import BasisHint
+
+    hint = BasisHint.of_result(parent, n, rows, added_rows=1)
+    assert hint.basic == tuple(parent.basis_columns) + (n + rows,)
+    assert hint.at_upper == frozenset(parent.at_upper_columns) and hint.float_status == "exact"
+
+
 def test_unique_optimum_by_reduced_costs():
     from exactlp.analysis import ranges
 

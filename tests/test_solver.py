@@ -340,3 +340,26 @@ def test_form_holds_the_model_exactly_with_one_mpq_per_distinct_value():
     assert all(type(v) is type(mpq(1)) for v in (*form.cost, *form.lower, *form.upper) if v is not None)
     assert [col for col in form.cols[3:]] == [[(0, -1)], [(1, -1)], [(2, -1)]]
     assert form.crossed is None
+
+
+def test_start_basis_is_checked_like_any_suggestion():
+    # An exact basis handed in (start_basis) replaces the float solve.  The model's
+    # own optimal basis is accepted with no pivot; one of the wrong size is refused
+    # and the solve goes on from the slack basis to the same exact optimum; anything
+    # but a BasisHint is bad input naming the field.
+    from exactlp.errors import InputError
+    from exactlp.floatlp import BasisHint
+
+    m = model_from_text(KNOWN[0][1])
+    first = exactlp.solve(m, warm_start=False)
+    own = BasisHint.of_result(first, len(m.variables), len(m.constraints))
+    again = solve_verified(m, start_basis=own)
+    assert again.warm_start == "accepted: the suggested basis is exactly primal feasible"
+    assert again.iterations == 0 and again.objective == first.objective == 13
+    short = BasisHint(own.basic[:-1], frozenset(), "test", "exact")
+    r = solve_verified(m, start_basis=short)
+    assert r.warm_start == "rejected: the suggested basis does not have one column per row"
+    assert r.objective == 13 and r.iterations > 0
+    with pytest.raises(InputError) as e:
+        exactlp.solve(m, start_basis=(0, 1, 2))
+    assert e.value.field == "start_basis" and e.value.message == "must be a BasisHint, not tuple"

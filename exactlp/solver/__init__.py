@@ -49,6 +49,7 @@ def solve(
     tableau: bool = False,
     should_stop=None,
     warm_start: bool | None = None,
+    start_basis=None,
 ) -> SolveResult:
     """Solve ``model`` exactly.
 
@@ -63,10 +64,21 @@ def solve(
     at least ``exactlp.floatlp.WARM_START_MIN_ROWS`` rows.  The suggestion is
     re-proven exactly (see :meth:`Simplex._setup_warm`); the certificate never
     depends on it.
+
+    ``start_basis``: an :class:`exactlp.floatlp.BasisHint` to start from instead
+    (for example a related model's optimal basis, by column index); no float solve
+    is made then.  It is checked exactly like a float suggestion: factored, its
+    basic values recomputed, and repaired or dropped (for the slack basis) when
+    it does not fit.
     """
     _check_options(pricing, iteration_limit, time_limit)
     started = time.monotonic()
-    use_warm = warm_start
+    if start_basis is not None:
+        from ..floatlp import BasisHint
+
+        if not isinstance(start_basis, BasisHint):
+            raise InputError(f"must be a BasisHint, not {type(start_basis).__name__}", field="start_basis")
+    use_warm = warm_start if start_basis is None else False
     if use_warm is None:
         from ..floatlp import WARM_START_MIN_ROWS, highs_available
 
@@ -93,7 +105,7 @@ def solve(
             listener(Finish("infeasible", None, 0, 0, 0))
         return SolveResult(status=Status.INFEASIBLE, crossed=form.crossed,
                            seconds=time.monotonic() - started, pricing=pricing)
-    hint = pending.result() if pending is not None else None
+    hint = pending.result() if pending is not None else start_basis
     sx = Simplex(
         form,
         pricing=pricing,
