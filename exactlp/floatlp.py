@@ -143,6 +143,9 @@ class PendingHint:
     def __init__(self, h, m: int, background: bool) -> None:
         self._h, self._m = h, m
         self._error: BaseException | None = None
+        #: when result() gives None: what HiGHS said, and why there is no suggestion
+        self.float_status = "-"
+        self.reason = ""
         self._thread = None
         if background:
             import threading
@@ -167,13 +170,18 @@ class PendingHint:
         if self._thread is not None:
             self._thread.join()
         if self._error is not None:
-            raise self._error
+            if not isinstance(self._error, Exception):
+                raise self._error  # an interrupt or exit, not a failure of the suggestion
+            # the float side only ever suggests: a failure there costs the suggestion, not the solve
+            self.reason = f"the float solver failed ({type(self._error).__name__}); no suggestion"
+            return None
         import highspy
 
         h, m = self._h, self._m
-        status = h.modelStatusToString(h.getModelStatus())
+        status = self.float_status = h.modelStatusToString(h.getModelStatus())
         basis = h.getBasis()
         if not basis.valid:
+            self.reason = f"the float solver gave no basis (it reported: {status})"
             return None
         # Enum members compare slowly one by one; their integer values are read
         # once per list instead (each ``col_status`` access converts the whole list).
@@ -182,12 +190,20 @@ class PendingHint:
         codes = [s.value for s in basis.col_status] + [s.value for s in basis.row_status]
         basic = [j for j, s in enumerate(codes) if s == basic_code]
         if len(basic) != m:
+            self.reason = "the float solver's basis does not have one column per row"
             return None
         upper = frozenset(j for j, s in enumerate(codes) if s == upper_code)
         return BasisHint(tuple(basic), upper, "highs", status)
 
 
 class _NoHint:
+    """No float solve was made (or HiGHS refused the model), and why."""
+
+    float_status = "-"
+
+    def __init__(self, reason: str = "") -> None:
+        self.reason = reason
+
     def result(self) -> None:
         return None
 
@@ -204,7 +220,10 @@ def start_highs(model: Model, time_limit: float | None = None, background: bool 
     import highspy
     import numpy as np
 
-    n, m, _, cost, lo, hi, rlo, rhi, start, idx, val = _arrays(model, rowwise=True)
+    try:
+        n, m, _, cost, lo, hi, rlo, rhi, start, idx, val = _arrays(model, rowwise=True)
+    except OverflowError:  # a model number beyond the double range (the model allows 1e400)
+        return _NoHint("the model holds a number beyond the floating-point range; no float solve was made")
     if m == 0:
         return _NoHint()
     with _quiet_stdout():
@@ -232,7 +251,7 @@ def start_highs(model: Model, time_limit: float | None = None, background: bool 
         np.where(np.isinf(rlo), -big, rlo), np.where(np.isinf(rhi), big, rhi),
         start[:-1].astype(np.int32), idx, val, np.zeros(n, dtype=np.int32))
     if status == highspy.HighsStatus.kError:
-        return _NoHint()  # HiGHS refused the copy (it only ever suggests): start from the slack basis
+        return _NoHint("the float solver refused the model")  # it only ever suggests: start from the slack basis
     return PendingHint(h, m, background)
 
 

@@ -217,3 +217,40 @@ def test_float_copy_handed_to_highs_is_the_model():
     assert cold.status is exactlp.Status.OPTIMAL and warm.objective == cold.objective
     assert warm.warm_start.startswith("accepted") and warm.iterations == 0
     assert abs(-pending._h.getInfo().objective_function_value - float(cold.objective)) < 1e-9
+
+
+@pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
+def test_no_float_suggestion_is_said_not_silent(monkeypatch):
+    # When the warm start is asked for but no suggestion comes, the result and the
+    # log say why (it used to read "off"), and the exact solve goes on from the
+    # slack basis to a verified outcome.
+    from exactlp.floatlp import PendingHint
+    from exactlp.model import Constraint, Model, Sense, Variable
+    from exactlp.solver.events import WarmStart
+
+    from .helpers import solve_verified
+
+    F = Fraction
+    x = (Variable("x", F(0), None),)
+    # a coefficient of 10^400 is a legal model number, but no double holds it
+    huge = Model(variables=x, objective=(("x", F(1)),), sense=Sense.MINIMIZE,
+                 constraints=(Constraint("r", (("x", F(10**400)),), F(1), None),))
+    events = []
+    r = solve_verified(huge, warm_start=True, listener=events.append)
+    assert r.status is exactlp.Status.OPTIMAL and r.objective == F(1, 10**400)
+    assert r.warm_start == ("rejected: the model holds a number beyond the floating-point range; "
+                            "no float solve was made")
+    assert events[0] == WarmStart("highs", "-", False, r.warm_start[len("rejected: "):])
+    # an infeasible model: HiGHS proves it in floats and has no basis to offer
+    bad = Model(variables=x, objective=(("x", F(1)),), sense=Sense.MINIMIZE,
+                constraints=(Constraint("r", (("x", F(1)),), None, F(-1)),))
+    r = solve_verified(bad, warm_start=True)
+    assert r.status is exactlp.Status.INFEASIBLE
+    assert r.warm_start == "rejected: the float solver gave no basis (it reported: Infeasible)"
+
+    # a failure inside the float solver costs the suggestion, not the solve
+    monkeypatch.setattr(PendingHint, "_run", lambda self: setattr(self, "_error", RuntimeError("simulated")))
+    ok = Model(variables=x, objective=(("x", F(1)),), sense=Sense.MINIMIZE,
+               constraints=(Constraint("r", (("x", F(1)),), F(2), None),))
+    r = solve_verified(ok, warm_start=True)
+    assert r.objective == 2 and r.warm_start == "rejected: the float solver failed (RuntimeError); no suggestion"

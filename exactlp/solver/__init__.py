@@ -12,7 +12,7 @@ from fractions import Fraction
 
 from ..errors import InputError
 from ..model import Model
-from .events import Finish, PhaseEnd, Pivot, Start
+from .events import Finish, PhaseEnd, Pivot, Start, WarmStart
 from .form import ZERO, build_form, frac
 from .result import SolveResult, Status, frozen_map
 from .simplex import PRICING_RULES, Simplex
@@ -116,6 +116,9 @@ def solve(
         should_stop=should_stop,
         hint=hint,
     )
+    if pending is not None and hint is None and pending.reason:
+        # asked for, but no suggestion came: said in the log and the result, not silently "off"
+        sx.warm = WarmStart("highs", pending.float_status, False, pending.reason)
     if time_limit is not None:
         sx.time_limit = max(time_limit - (time.monotonic() - started), 0.0)
     out = sx.run()
