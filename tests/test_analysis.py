@@ -334,3 +334,61 @@ def test_sensitivity_report_tampering_is_caught():
     bad = copy.deepcopy(rep)
     bad["rhs_ranges"]["r3"]["upper"] = "11"  # beyond the end the dual changes
     assert not check_report(m, bad).valid
+
+
+def _reference_end_certificates(model, sens):
+    # the straightforward construction the report's shortcut must equal: one
+    # optimal_certificate per range end, each recomputed from the whole variant
+    from exactlp.reports import only_variable, optimal_certificate, with_coefficient, with_side
+
+    r = sens.result
+    x, y, cost, out = dict(r.primal), dict(r.duals), dict(model.objective), {}
+    for name, iv in sens.objective_ranges.items():
+        cj, dy = cost.get(name, F(0)), sens.dual_directions.get(name, {})
+        for side, end, sign in (("lower", iv.lower, -1), ("upper", iv.upper, 1)):
+            if end is None:
+                probe, duals = only_variable(model, name, sign), {k: sign * v for k, v in dy.items()}
+            else:
+                probe, duals = with_coefficient(model, name, end), {k: y[k] + (end - cj) * dy.get(k, 0) for k in y}
+            out[("objective", name, side)] = optimal_certificate(probe, x, duals)
+    for name, rr in sens.rhs_ranges.items():
+        for side, end in (("lower", rr.interval.lower), ("upper", rr.interval.upper)):
+            if end is not None:
+                t = end - rr.value
+                moved = {k: x[k] + t * (rr.direction or {}).get(k, 0) for k in x}
+                out[("rhs", name, side)] = optimal_certificate(with_side(model, name, rr.bound, end), moved, y)
+            elif rr.direction is None:
+                out[("rhs", name, side)] = optimal_certificate(with_side(model, name, rr.bound, None), x, y)
+    return out
+
+
+def _report_end_certificates(rep):
+    got = {}
+    for kind, key in (("objective", "objective_ranges"), ("rhs", "rhs_ranges")):
+        for name, entry in rep[key].items():
+            for side, cert in entry["certificates"].items():
+                if "direction" not in cert:
+                    got[(kind, name, side)] = cert
+    return got
+
+
+@pytest.mark.parametrize("case", ["berth", "drought", "drought_minimax", "emissions", "grants", "shares_historic"])
+def test_sensitivity_report_certificates_equal_the_direct_construction(case):
+    # The report builds each range end's certificate from the shared parts (the
+    # activities, A^T y, the dual objective's terms) and recomputes only what the
+    # variant changes; every one must equal the certificate recomputed from scratch,
+    # value for value and key for key, and no two may share a dictionary (a YAML
+    # writer would turn that into an anchor and alias).
+    from exactlp.reports import sensitivity_report
+
+    m = exactlp.load(CASES / f"{case}.yaml")
+    sens = sensitivity(m)
+    got = _report_end_certificates(sensitivity_report(m, sens))
+    want = _reference_end_certificates(m, sens)
+    assert got and got == want
+    assert [list(c) for c in got.values()] == [list(c) for c in want.values()]  # same key order
+    seen = set()
+    for cert in got.values():
+        for part in ("primal", "activities", "duals", "reduced_costs"):
+            assert id(cert[part]) not in seen
+            seen.add(id(cert[part]))
