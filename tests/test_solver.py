@@ -363,3 +363,10 @@ def test_start_basis_is_checked_like_any_suggestion():
     with pytest.raises(InputError) as e:
         exactlp.solve(m, start_basis=(0, 1, 2))
     assert e.value.field == "start_basis" and e.value.message == "must be a BasisHint, not tuple"
+    with pytest.raises(InputError) as e:
+        exactlp.solve(m, start_basis=BasisHint((0, "x1", 2), frozenset(), "test", "exact"))
+    assert e.value.message == "basic must hold column numbers, not 'x1'"
+    # column numbers out of range are not bad input: the suggestion is refused
+    r = solve_verified(m, start_basis=BasisHint((0, 1, 99), frozenset({-5}), "test", "exact"))
+    assert r.warm_start == "rejected: the suggested basis names a column the model does not have"
+    assert r.objective == 13

@@ -78,6 +78,10 @@ def solve(
 
         if not isinstance(start_basis, BasisHint):
             raise InputError(f"must be a BasisHint, not {type(start_basis).__name__}", field="start_basis")
+        for part in ("basic", "at_upper"):
+            wrong = next((j for j in getattr(start_basis, part) if type(j) is not int), None)
+            if wrong is not None:
+                raise InputError(f"{part} must hold column numbers, not {wrong!r}", field="start_basis")
     use_warm = warm_start if start_basis is None else False
     if use_warm is None:
         from ..floatlp import WARM_START_MIN_ROWS, highs_available

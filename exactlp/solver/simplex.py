@@ -247,7 +247,9 @@ class Simplex:
         f, m = self.f, self.m
         ncol = f.ncols
         basic = set(hint.basic)
-        if len(basic) != m or any(not 0 <= j < ncol for j in basic):
+        if any(not 0 <= j < ncol for j in basic):
+            return "the suggested basis names a column the model does not have"
+        if len(basic) != m:
             return "the suggested basis does not have one column per row"
         x = [ZERO] * ncol
         state = [BASIC] * ncol
