@@ -1,8 +1,8 @@
-"""The exact basis factorisations: one table of random bases runs over both.
+"""The exact basis factorisations: one table of random bases runs over all three.
 
-The product-form reinversion and the sparse LU must give identical exact
-solves (ftran and btran), also after eta updates on top, and the same optimum
-when the solver uses either.
+The product-form reinversion, the sparse LU with eta updates and the sparse LU
+with Forrest-Tomlin updates must give identical exact solves (ftran and btran),
+also after a run of updates, and the same optimum when the solver uses any.
 """
 
 import random
@@ -12,11 +12,11 @@ from gmpy2 import mpq
 
 import exactlp
 import exactlp.solver.simplex as simplex
-from exactlp.solver.basis import factor_lu, reinvert
+from exactlp.solver.basis import factor_ft, factor_lu, reinvert
 
 from .models import KNOWN, klee_minty
 
-FACTORS = {"eta-file": reinvert, "sparse-lu": factor_lu}
+FACTORS = {"eta-file": reinvert, "sparse-lu": factor_lu, "sparse-lu-ft": factor_ft}
 
 
 def random_bases(count=200, seed=7):
@@ -78,30 +78,44 @@ def test_ftran_matches_an_independent_dense_solve(name):
     assert checked > 50
 
 
-def test_both_factorisations_agree_after_updates():
+def test_every_factorisation_agrees_after_updates():
+    # eta columns (product form, LU + etas) and Forrest-Tomlin updates of the LU
+    # must give the same exact ftran and btran after a run of basis changes, and
+    # ftran must still match an independent dense solve with the changed basis
+    from fractions import Fraction as F
+
     rng = random.Random(3)
+    updated = 0
     for m, cols, unit, head in random_bases():
         try:
-            pair = [f(m, head, cols, unit) for f in FACTORS.values()]
+            group = [f(m, head, cols, unit) for f in FACTORS.values()]
         except ArithmeticError:
             continue
-        for _ in range(3):  # a few eta updates on top of each
+        for _ in range(6):  # a run of updates on top of each
             q = rng.randrange(len(cols))
-            ws = [b.ftran(cols[q]) for b, _ in pair]
+            ws = [b.ftran(cols[q]) for b, _ in group]
             if not ws[0]:
                 break
-            leaving = pair[0][1][min(ws[0])]
-            ps = [h.index(leaving) for _, h in pair]
+            leaving = group[0][1][min(ws[0])]
+            ps = [h.index(leaving) for _, h in group]
             if not all(w.get(p) for w, p in zip(ws, ps)):
                 break
-            for (b, h), w, p in zip(pair, ws, ps):
-                b.replace(p, w)
+            for (b, h), w, p in zip(group, ws, ps):
+                b.replace(p, w, cols[q])
                 h[p] = q
+            updated += 1
         for j in range(len(cols)):
-            a, b = ({h[p]: v for p, v in bb.ftran(cols[j]).items()} for bb, h in pair)
-            assert a == b
-        ys = [b.btran({p: mpq(h[p] + 1) for p in range(m)}) for b, h in pair]
-        assert ys[0] == ys[1]
+            first, *others = ({h[p]: v for p, v in bb.ftran(cols[j]).items()} for bb, h in group)
+            assert all(o == first for o in others)
+        heads = [list(h) for _, h in group]
+        ys = [b.btran({p: mpq(h[p] + 1) for p in range(m)}) for b, h in group]  # y by row
+        assert all(y == ys[0] for y in ys[1:])
+        rhs = {i: mpq(2 * i + 1, 3) for i in range(m)}
+        ref = dense_solve(m, cols, heads[0], rhs)
+        x = {heads[0][p]: v for p, v in group[0][0].ftran(list(rhs.items())).items()}
+        assert {c: F(int(x.get(c, mpq(0)).numerator), int(x.get(c, mpq(0)).denominator)) for c in heads[0]} == \
+            {c: ref[k] for k, c in enumerate(heads[0])}
+    assert updated > 300
 
 
 @pytest.mark.parametrize("name", FACTORS)

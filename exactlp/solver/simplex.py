@@ -84,10 +84,11 @@ from dataclasses import dataclass
 
 from gmpy2 import mpq
 
-from .basis import EtaBasis, factor_lu, reinvert
+from .basis import EtaBasis, factor_ft
 
-#: the exact factorisation used to (re)build the basis: sparse LU (Markowitz)
-FACTOR = factor_lu
+#: the exact factorisation used to (re)build the basis: sparse LU (Markowitz),
+#: with Forrest-Tomlin updates between refactorisations
+FACTOR = factor_ft
 from .events import Finish, PhaseEnd, Pivot, Start, WarmStart
 from .form import Form, frac
 
@@ -940,7 +941,7 @@ class Simplex:
                 self.pos_of[b] = -1
                 self.pos_of[q] = p
                 self.head[p] = q
-                self.basis.replace(p, alpha)
+                self.basis.replace(p, alpha, self.cols[q])
                 if self._refactor_due():
                     self._reinvert()
             changed = self._after_step is not None and self._after_step()
