@@ -12,6 +12,7 @@ from hypothesis import HealthCheck, given, settings
 
 import exactlp
 from exactlp.audit import AuditLog, read_log
+from exactlp.floatlp import highs_available
 from exactlp.io import model_from_text
 
 from .models import KNOWN, klee_minty
@@ -250,3 +251,21 @@ def test_pivot_rules_are_the_documented_ones(monkeypatch, forced_partial, switch
     # devex only where partial pricing is off, or after it has given way
     assert ("devex" in seen) == (not forced_partial or switch > 0)
     assert {"dantzig", "bland"} <= seen
+
+
+@pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
+def test_warm_start_record_says_what_became_of_the_suggestion():
+    # the README's audit-log section: a `warm_start` record after the header, with
+    # its source, the float solver's status, and whether and why it was accepted;
+    # a suggestion asked for that never came is recorded as refused, with why
+    m = model_from_text(KNOWN[0][1])
+    r, _, recs = solve_logged(m, warm_start=True)
+    assert [x["record"] for x in recs][:3] == ["header", "warm_start", "start"]
+    assert recs[1] == {"record": "warm_start", "source": "highs", "float_status": "Optimal", "accepted": True,
+                       "reason": "the suggested basis is exactly primal feasible"}
+    assert r.warm_start == "accepted: the suggested basis is exactly primal feasible"
+    huge = model_from_text("minimize: x\nvariables: {x: {}}\nconstraints:\n  r: 1e400 x >= 1\n")
+    r, _, recs = solve_logged(huge, warm_start=True)
+    assert recs[1] == {"record": "warm_start", "source": "highs", "float_status": "-", "accepted": False,
+                       "reason": "the model holds a number beyond the floating-point range; no float solve was made"}
+    assert r.objective == F(1, 10**400)
