@@ -160,7 +160,9 @@ def solve_report(console: Console, model: Model, result, *, digits: int, certifi
         head.append(("outcome", f"stopped: {st.value.replace('_', ' ')} reached; nothing is proven"))
     head.append(("pivots", f"phase 1: {result.pivots_phase1}, phase 2: {result.pivots_phase2}, bound flips: {result.bound_flips}"))
     if result.warm_start != "off":
-        head.append(("warm start", f"{result.warm_start} (a suggested starting basis, re-proven exactly)"))
+        how = ("a suggested starting basis, re-proven exactly" if result.warm_start.startswith("accepted")
+               else "the exact solve started from its own slack basis")
+        head.append(("warm start", f"{result.warm_start} ({how})"))
     if verified is not None:
         head.append(("check", "the certificate passed the independent verifier" if verified else "the certificate FAILED verification"))
     if certificate:

@@ -198,3 +198,23 @@ def test_internal_error_is_one_line_exit_4(cli, monkeypatch):
 def test_no_colour_codes_when_piped(cli):
     _, out, _ = cli("solve", DROUGHT)
     assert "\x1b[" not in out
+
+
+def test_solve_screen_says_what_became_of_the_warm_start(cli, write, tmp_path):
+    # pinned width, no colour: the "warm start" line of the solve summary, for a
+    # suggestion accepted and for one asked for that never came
+    from exactlp.floatlp import highs_available
+
+    if not highs_available():
+        pytest.skip("the warm start needs highspy")
+    code, out, _ = cli("solve", CASES / "berth.yaml", "--warm-start", "-c", tmp_path / "a.cert")
+    assert code == 0
+    line = next(x for x in out.splitlines() if x.lstrip().startswith("warm start"))
+    assert line.split(None, 2)[2] == ("accepted: the suggested basis is exactly primal feasible "
+                                      "(a suggested starting basis, re-proven exactly)")
+    path = write("huge.yaml", "minimize: x\nvariables: {x: {}}\nconstraints:\n  r: 1e400 x >= 1\n")
+    code, out, _ = cli("solve", path, "--warm-start", "-c", tmp_path / "b.cert")
+    assert code == 0
+    line = next(x for x in out.splitlines() if x.lstrip().startswith("warm start"))
+    assert line.split(None, 2)[2] == ("rejected: the model holds a number beyond the floating-point range; "
+                                      "no float solve was made (the exact solve started from its own slack basis)")
