@@ -218,3 +218,24 @@ def test_solve_screen_says_what_became_of_the_warm_start(cli, write, tmp_path):
     line = next(x for x in out.splitlines() if x.lstrip().startswith("warm start"))
     assert line.split(None, 2)[2] == ("rejected: the model holds a number beyond the floating-point range; "
                                       "no float solve was made (the exact solve started from its own slack basis)")
+
+
+def test_help_and_check_import_nothing_heavy(tmp_path):
+    # `exactlp --help` must not pay for the readers, the solver or the numeric
+    # libraries, and `exactlp check` on a small model not for the solver or the
+    # float side (issue 6: fast start-up; the figures are in the benchmark)
+    import subprocess
+    import sys
+
+    heavy = ("gmpy2", "numpy", "scipy", "highspy", "sympy", "yaml", "exactlp.io", "exactlp.solver",
+             "exactlp.verifier", "exactlp.floatlp")
+    probe = ("import sys\nsys.argv = ['exactlp'] + sys.argv[1:]\nfrom exactlp.cli import main\n"
+             "try:\n    main()\nexcept SystemExit:\n    pass\n"
+             f"print('LOADED', sorted(m for m in {heavy!r} if m in sys.modules), file=sys.stderr)\n")
+
+    def loaded(*args):
+        p = subprocess.run([sys.executable, "-c", probe, *args], capture_output=True, text=True, timeout=60)
+        return p.stderr.strip().splitlines()[-1]
+
+    assert loaded("--help") == "LOADED []"
+    assert loaded("check", str(CASES / "drought.yaml")) == "LOADED ['exactlp.io', 'yaml']"
