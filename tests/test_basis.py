@@ -14,6 +14,7 @@ import exactlp
 import exactlp.solver.simplex as simplex
 from exactlp.solver.basis import factor_ft, factor_lu, reinvert
 
+from .conftest import NETLIB, needs_netlib, netlib_table
 from .models import KNOWN, klee_minty
 
 FACTORS = {"eta-file": reinvert, "sparse-lu": factor_lu, "sparse-lu-ft": factor_ft}
@@ -118,6 +119,32 @@ def test_every_factorisation_agrees_after_updates():
     assert updated > 300
 
 
+def test_pivot_path_does_not_depend_on_the_factorisation(monkeypatch):
+    # exact arithmetic gives the same numbers whatever the factorisation; the
+    # tie-breaks (lowest column, largest |alpha_p|, the lexicographic order of a
+    # degenerate run, fixed by column) must not depend on basis positions either,
+    # so every factorisation, refactoring at any interval, takes the same pivots
+    from exactlp.io import model_from_text
+    from exactlp.solver.events import Pivot
+
+    models = [model_from_text(text) for _, text, _, _, _ in KNOWN] + [model_from_text(klee_minty(5))]
+    monkeypatch.setattr(simplex, "LEX_AFTER_FACTOR", 0)  # lexicographic ties from the first degenerate pivot
+    paths = {}
+    for name, factor in FACTORS.items():
+        for every in (2, 16):
+            monkeypatch.setattr(simplex, "FACTOR", factor)
+            monkeypatch.setattr(simplex, "REINVERT_EVERY", every)
+            path = []
+            for m in models:
+                events = []
+                exactlp.solve(m, warm_start=False, listener=events.append)
+                path.append([(e.entering, e.leaving, e.rule) for e in events if isinstance(e, Pivot)])
+            paths[(name, every)] = path
+    first = next(iter(paths.values()))
+    assert sum(len(p) for p in first) > 20
+    assert all(p == first for p in paths.values())
+
+
 @pytest.mark.parametrize("name", FACTORS)
 def test_solver_reaches_the_same_optimum_with_either(name, monkeypatch):
     monkeypatch.setattr(simplex, "FACTOR", FACTORS[name])
@@ -181,3 +208,24 @@ def test_sparse_lu_sums_a_repeated_row_entry():
         results.append({order[p]: v for p, v in basis.ftran(rhs).items()})
     # by hand: x0 = 3, x0 + 2 x1 = 7 gives x1 = 2
     assert results[0] == results[1] == {0: 3, 1: 2}
+
+
+@needs_netlib
+def test_pivot_path_on_a_degenerate_netlib_problem_does_not_depend_on_the_factorisation(monkeypatch):
+    # FORPLAN's cold solve makes long degenerate runs broken by the lexicographic
+    # rule, with refactorisations in between that renumber the positions; eta
+    # columns and Forrest-Tomlin updates must take the same pivots (they took 348
+    # and 409 while the rule's order followed the positions)
+    from exactlp.io import read_mps
+    from exactlp.solver.events import Pivot
+
+    m = read_mps(NETLIB / netlib_table()["FORPLAN"]["file"])
+    paths = []
+    for factor in (factor_lu, factor_ft):
+        monkeypatch.setattr(simplex, "FACTOR", factor)
+        events = []
+        r = exactlp.solve(m, warm_start=False, listener=events.append)
+        assert r.status is exactlp.Status.OPTIMAL
+        paths.append([(e.entering, e.leaving, e.rule) for e in events if isinstance(e, Pivot)])
+    assert any("lexicographic" in rule for _, _, rule in paths[0])
+    assert paths[0] == paths[1]

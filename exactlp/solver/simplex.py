@@ -809,9 +809,17 @@ class Simplex:
         return b, p, bound
 
     def _run_rank(self) -> list[int]:
-        """The perturbation order for a new degenerate run: basic columns first."""
+        """The perturbation order for a new degenerate run: basic columns first.
+
+        Within each group the order is by column, not by basis position: any fixed
+        order with the basic columns first makes the argument in :meth:`_lex_choice`
+        work, and positions are renumbered by every refactorisation, so an order by
+        position made the path depend on when (and with which updates) the basis
+        was last refactored (TUFF: 790 pivots with eta columns, 813 with
+        Forrest-Tomlin updates; by column, 680 with either).
+        """
         rank = [0] * len(self.cols)
-        order = list(self.head) + [j for j in range(len(self.cols)) if self.state[j] != BASIC]
+        order = sorted(self.head) + [j for j in range(len(self.cols)) if self.state[j] != BASIC]
         for r, j in enumerate(order):
             rank[j] = r
         self._run_order = order
