@@ -70,7 +70,7 @@ def _arrays(model: Model, rowwise: bool = False):
     cost = np.zeros(n)
     for name, c in model.objective:
         cost[index[name]] = sign * _f(c)
-    inf = float("inf")
+    inf = float("inf")  # an absent bound in the float copy, which only ever suggests a basis
     lo = np.array([-inf if v.lower is None else _f(v.lower) for v in model.variables])
     hi = np.array([inf if v.upper is None else _f(v.upper) for v in model.variables])
     rlo = np.array([-inf if c.lower is None else _f(c.lower) for c in model.constraints])
@@ -239,6 +239,7 @@ def start_highs(model: Model, time_limit: float | None = None, background: bool 
     h.setOptionValue("random_seed", 0)
     h.setOptionValue("threads", 1)
     if time_limit is not None:
+        # wall-clock seconds for HiGHS (the one float a solve takes); no model number
         h.setOptionValue("time_limit", float(max(time_limit, 0.01)))
     # The model goes over as plain arrays in one call (the overload with an
     # integrality array, all zero: every column continuous), which copies them

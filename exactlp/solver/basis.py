@@ -168,7 +168,10 @@ class LUBasis(EtaBasis):
         #: nonzeros of L and U (the diagonal included): the cost of one solve with the factors
         self.lu_nonzeros = sum(len(ls) for _, ls in lsteps) + sum(len(above) + 1 for _, _, above in ucols)
 
-    def ftran(self, col):
+    # -- kernels, shared with FTBasis (a column's ``above`` entries are a list
+    # here and a dictionary by row there once it has been updated) ---------
+    def _lower(self, col) -> dict[int, mpq]:
+        """``L^-1 a`` by position: the row operations of the elimination, in order."""
         v: dict[int, mpq] = {}
         for i, a in col:
             v[i] = a
@@ -181,6 +184,10 @@ class LUBasis(EtaBasis):
                         v[i] = nv
                     else:
                         v.pop(i, None)
+        return v
+
+    def _upper(self, v: dict[int, mpq]) -> dict[int, mpq]:
+        """``U^-1 v`` by back-substitution (``v`` is used up)."""
         x: dict[int, mpq] = {}
         for r, ukk, above in reversed(self.ucols):
             t = v.get(r)
@@ -188,24 +195,28 @@ class LUBasis(EtaBasis):
                 continue
             t = t / ukk
             x[r] = t
-            for rj, u in above:
+            for rj, u in (above.items() if type(above) is dict else above):
                 nv = v.get(rj, ZERO) - u * t
                 if nv:
                     v[rj] = nv
                 else:
                     v.pop(rj, None)
-        return self._etas_forward(x)
+        return x
 
-    def btran(self, cb):
-        u = self._etas_backward(cb)
+    def _upper_t(self, u: list[mpq]) -> list[mpq]:
+        """``w`` with ``w^T U = u^T``, forward by the columns of U."""
         w = [ZERO] * self.m
         for r, ukk, above in self.ucols:
             s = u[r]
-            for rj, uu in above:
+            for rj, uu in (above.items() if type(above) is dict else above):
                 wj = w[rj]
                 if wj:
                     s -= wj * uu
             w[r] = s / ukk if s else ZERO
+        return w
+
+    def _lower_t(self, w: list[mpq]) -> list[mpq]:
+        """``w^T L^-1``: the row operations undone in reverse (in place)."""
         for r, ls in reversed(self.lsteps):
             s = w[r]
             for i, l in ls:
@@ -214,6 +225,12 @@ class LUBasis(EtaBasis):
                     s -= l * wi
             w[r] = s
         return w
+
+    def ftran(self, col):
+        return self._etas_forward(self._upper(self._lower(col)))
+
+    def btran(self, cb):
+        return self._lower_t(self._upper_t(self._etas_backward(cb)))
 
 
 class FTBasis(LUBasis):
@@ -252,18 +269,7 @@ class FTBasis(LUBasis):
 
     def _spike(self, col) -> dict[int, mpq]:
         """``R L^-1 a`` by position."""
-        v: dict[int, mpq] = {}
-        for i, a in col:
-            v[i] = a
-        for r, ls in self.lsteps:
-            t = v.get(r)
-            if t:
-                for i, l in ls:
-                    nv = v.get(i, ZERO) - l * t
-                    if nv:
-                        v[i] = nv
-                    else:
-                        v.pop(i, None)
+        v = self._lower(col)
         for p, zs in self.rsteps:
             t = v.get(p, ZERO)
             for rj, z in zs:
@@ -282,49 +288,21 @@ class FTBasis(LUBasis):
         v = self._spike(col)
         # kept for replace(): the simplex updates with the column it last solved for
         self._last = (col, dict(v))
-        x: dict[int, mpq] = {}
-        for r, ukk, above in reversed(self.ucols):
-            t = v.get(r)
-            if not t:
-                continue
-            t = t / ukk
-            x[r] = t
-            for rj, u in above.items():
-                nv = v.get(rj, ZERO) - u * t
-                if nv:
-                    v[rj] = nv
-                else:
-                    v.pop(rj, None)
-        return x
+        return self._upper(v)
 
     def btran(self, cb):
         if not self._dicts:
             return LUBasis.btran(self, cb)
-        m = self.m
-        w = [ZERO] * m
-        u = [ZERO] * m
+        u = [ZERO] * self.m
         for p, c in cb.items():
             u[p] = c
-        for r, ukk, above in self.ucols:
-            t = u[r]
-            for rj, uu in above.items():
-                wj = w[rj]
-                if wj:
-                    t -= wj * uu
-            w[r] = t / ukk if t else ZERO
+        w = self._upper_t(u)
         for p, zs in reversed(self.rsteps):
             wp = w[p]
             if wp:
                 for rj, z in zs:
                     w[rj] -= z * wp
-        for r, ls in reversed(self.lsteps):
-            t = w[r]
-            for i, l in ls:
-                wi = w[i]
-                if wi:
-                    t -= l * wi
-            w[r] = t
-        return w
+        return self._lower_t(w)
 
     def replace(self, p: int, w: dict[int, mpq], col=None) -> None:
         if col is None:
