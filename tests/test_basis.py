@@ -11,6 +11,7 @@ import pytest
 from gmpy2 import mpq
 
 import exactlp
+import exactlp.solver.basis as basis_module
 import exactlp.solver.simplex as simplex
 from exactlp.solver.basis import factor_ft, factor_lu, reinvert
 
@@ -57,8 +58,39 @@ def dense_solve(m, cols, head, rhs):
     return [M[i][m] for i in range(m)]
 
 
+@pytest.fixture(params=["scaled when long", "always scaled"])
+def scale_bits(request, monkeypatch):
+    """The solves scale by ``det B``'s numerator past SCALE_BITS; 0 scales every solve."""
+    if request.param == "always scaled":
+        monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
+    return basis_module.SCALE_BITS
+
+
+def dense_det(m, cols, head):
+    from fractions import Fraction as F
+
+    M = [[F(0)] * m for _ in range(m)]
+    for k, c in enumerate(head):
+        for i, a in cols[c]:
+            M[i][k] += F(int(a.numerator), int(a.denominator))
+    det = F(1)
+    for c in range(m):
+        p = next((r for r in range(c, m) if M[r][c] != 0), None)
+        if p is None:
+            return F(0)
+        if p != c:
+            M[c], M[p] = M[p], M[c]
+            det = -det
+        det *= M[c][c]
+        for r in range(c + 1, m):
+            if M[r][c]:
+                f = M[r][c] / M[c][c]
+                M[r] = [a - f * b for a, b in zip(M[r], M[c])]
+    return det
+
+
 @pytest.mark.parametrize("name", FACTORS)
-def test_ftran_matches_an_independent_dense_solve(name):
+def test_ftran_matches_an_independent_dense_solve(name, scale_bits):
     factor = FACTORS[name]
     checked = 0
     for m, cols, unit, head in random_bases():
@@ -79,7 +111,7 @@ def test_ftran_matches_an_independent_dense_solve(name):
     assert checked > 50
 
 
-def test_every_factorisation_agrees_after_updates():
+def test_every_factorisation_agrees_after_updates(scale_bits):
     # eta columns (product form, LU + etas) and Forrest-Tomlin updates of the LU
     # must give the same exact ftran and btran after a run of basis changes, and
     # ftran must still match an independent dense solve with the changed basis
@@ -116,6 +148,17 @@ def test_every_factorisation_agrees_after_updates():
         x = {heads[0][p]: v for p, v in group[0][0].ftran(list(rhs.items())).items()}
         assert {c: F(int(x.get(c, mpq(0)).numerator), int(x.get(c, mpq(0)).denominator)) for c in heads[0]} == \
             {c: ref[k] for k, c in enumerate(heads[0])}
+        # btran against the definition: y^T a_c = cost of c for every basic column
+        y = ys[0]
+        for p, c in enumerate(heads[0]):
+            assert sum((y[i] * a for i, a in cols[c]), mpq(0)) == mpq(c + 1)
+        # the determinant each keeps (the solves' scale is its numerator) is the
+        # changed basis's, up to sign
+        det = dense_det(m, cols, heads[0])
+        for (b, h) in group:
+            assert abs(F(int(b.det.numerator), int(b.det.denominator))) == abs(det) != 0
+            long = abs(b.det.numerator).bit_length() > scale_bits
+            assert b.scale == (abs(b.det.numerator) if long else None)
     assert updated > 300
 
 

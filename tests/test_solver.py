@@ -174,9 +174,30 @@ def test_partial_pricing_with_updated_duals(recheck_updates, monkeypatch, switch
     assert r.status.is_proven
 
 
+@pytest.mark.parametrize("partial", ["off", "giving way"])
+@settings(max_examples=100, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(model=lp_models(max_vars=6, max_rows=6))
+def test_updates_with_every_solve_scaled(recheck_updates, monkeypatch, partial, model):
+    # SCALE_BITS 0: every ftran and btran works on D v with D the numerator of
+    # det B, and the tableau row and the duals' update divide by D themselves
+    import exactlp.solver.basis as basis_module
+
+    monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
+    if partial != "off":
+        monkeypatch.setattr(simplex_module, "PARTIAL_FACTOR", 0)
+        monkeypatch.setattr(simplex_module, "PARTIAL_SWITCH", 2)
+    r = solve_verified(model, pricing="guarded")
+    assert r.status.is_proven
+
+
+@pytest.mark.parametrize("scaled", ["when long", "always"])
 @pytest.mark.parametrize("partial", ["off", "to the end", "giving way"])
 @pytest.mark.parametrize("name", ["SC50A", "KB2", "SHARE2B"])
-def test_updated_reduced_costs_on_netlib(recheck_updates, monkeypatch, partial, name):
+def test_updated_reduced_costs_on_netlib(recheck_updates, monkeypatch, partial, name, scaled):
+    if scaled == "always":
+        import exactlp.solver.basis as basis_module
+
+        monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
     if partial != "off":
         monkeypatch.setattr(simplex_module, "PARTIAL_FACTOR", 0)
         monkeypatch.setattr(simplex_module, "PARTIAL_SWITCH", 0 if partial == "to the end" else 2)

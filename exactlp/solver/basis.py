@@ -25,9 +25,14 @@ from __future__ import annotations
 import heapq
 from collections import deque
 
-from gmpy2 import mpq
+from gmpy2 import mpq, mpz
 
 ZERO = mpq(0)
+
+#: Solves scale their vector by the numerator of ``det B`` once it has more bits
+#: than this (see :meth:`EtaBasis._set_scale`); below it the scaling costs more
+#: than it saves.
+SCALE_BITS = 64
 
 
 class EtaBasis:
@@ -38,14 +43,35 @@ class EtaBasis:
         self.eta_nonzeros = 0
         #: etas added by pivots since the file was last built (reinversion's own do not count)
         self.updates = 0
+        self.det = mpq(-1 if sum(1 for x in signs if x < 0) % 2 else 1)
+        self.scale: mpz | None = None
+        self._set_scale()
+
+    # -- the scale of the solves ------------------------------------------
+    # ``B^-1 = adj(B) / det(B)``, so the entries of ``B^-1 a`` and ``c^T B^-1``
+    # share long denominators built from ``det B``: every operation of a solve
+    # in ``mpq`` then meets two long denominators and pays for their gcd (about
+    # 11 us at 3,000 bits, against 1 us for a product of integers).  So the
+    # solves work on ``D v`` instead of ``v``, with ``D`` the numerator of
+    # ``det B``: the entries they build are then (nearly always) integers, or
+    # carry only the short denominators of the factors, and each result is
+    # divided by ``D`` once at the end.  This is exact whatever ``D`` is (the
+    # solves are linear); ``D`` only decides how short the numbers stay.  On
+    # STAIR's optimal basis ftran took 272 ms for six columns unscaled and
+    # 86 ms scaled, on GROW7's 14.8 and 7.7 ms.
+    def _set_scale(self) -> None:
+        d = abs(self.det.numerator)
+        self.scale = d if d.bit_length() > SCALE_BITS else None
 
     # -- solves --------------------------------------------------------
     def ftran(self, col: list[tuple[int, mpq]]) -> dict[int, mpq]:
-        signs = self.signs
+        signs, d = self.signs, self.scale
         v: dict[int, mpq] = {}
         for i, a in col:
             v[i] = a if signs[i] > 0 else -a
-        return self._etas_forward(v)
+        if d is None:
+            return self._etas_forward(v)
+        return _down(self._etas_forward(_up(v, d)), d)
 
     def _etas_forward(self, v: dict[int, mpq]) -> dict[int, mpq]:
         """Apply E1^-1 ... Ek^-1 to ``v`` in place (the updates, in order)."""
@@ -77,19 +103,39 @@ class EtaBasis:
             u[p] = s / wp if s else ZERO
         return u
 
-    def btran(self, cb: dict[int, mpq]) -> list[mpq]:
-        u = self._etas_backward(cb)
+    def btran_scaled(self, cb: dict[int, mpq]) -> tuple[list[mpq], mpz | None]:
+        """``(D c^T B^-1, D)``, or ``(c^T B^-1, None)`` when the basis is not scaled."""
+        d = self.scale
+        u = self._etas_backward(cb if d is None else _up(cb, d))
         signs = self.signs
-        return [x if signs[i] > 0 else -x for i, x in enumerate(u)]
+        return [x if signs[i] > 0 else -x for i, x in enumerate(u)], d
+
+    def btran(self, cb: dict[int, mpq]) -> list[mpq]:
+        w, d = self.btran_scaled(cb)
+        return w if d is None else [x / d if x else ZERO for x in w]
 
     def replace(self, p: int, w: dict[int, mpq], col=None) -> None:
         """Record that position ``p`` now holds the column whose ftran is ``w``
         (``col``, the column itself, is used by :class:`FTBasis` only)."""
+        self._replaced(w[p])
         wp = w[p]
         rest = [(i, wi) for i, wi in sorted(w.items()) if i != p]
         self.etas.append((p, wp, rest))
         self.eta_nonzeros += len(rest) + 1
         self.updates += 1
+
+    def _replaced(self, alpha_p: mpq) -> None:
+        # B' = B E with E the identity but column p = alpha, so det B' = alpha_p det B
+        self.det *= alpha_p
+        self._set_scale()
+
+
+def _up(v: dict[int, mpq], d: mpz) -> dict[int, mpq]:
+    return {i: a * d for i, a in v.items()}
+
+
+def _down(v: dict[int, mpq], d: mpz) -> dict[int, mpq]:
+    return {i: a / d for i, a in v.items()}
 
 
 def reinvert(
@@ -167,6 +213,13 @@ class LUBasis(EtaBasis):
         self.pivots = pivots
         #: nonzeros of L and U (the diagonal included): the cost of one solve with the factors
         self.lu_nonzeros = sum(len(ls) for _, ls in lsteps) + sum(len(above) + 1 for _, _, above in ucols)
+        # L is unit triangular and the positions only permute, so |det B| = prod |u_kk|
+        # (the sign is not kept: only the numerator's size is used)
+        det = mpq(1)
+        for _, ukk, _ in ucols:
+            det *= ukk
+        self.det = det
+        self._set_scale()
 
     # -- kernels, shared with FTBasis (a column's ``above`` entries are a list
     # here and a dictionary by row there once it has been updated) ---------
@@ -227,10 +280,14 @@ class LUBasis(EtaBasis):
         return w
 
     def ftran(self, col):
-        return self._etas_forward(self._upper(self._lower(col)))
+        d = self.scale
+        if d is None:
+            return self._etas_forward(self._upper(self._lower(col)))
+        return _down(self._etas_forward(self._upper(_up(self._lower(col), d))), d)
 
-    def btran(self, cb):
-        return self._lower_t(self._upper_t(self._etas_backward(cb)))
+    def btran_scaled(self, cb):
+        d = self.scale
+        return self._lower_t(self._upper_t(self._etas_backward(cb if d is None else _up(cb, d)))), d
 
 
 class FTBasis(LUBasis):
@@ -288,25 +345,28 @@ class FTBasis(LUBasis):
         v = self._spike(col)
         # kept for replace(): the simplex updates with the column it last solved for
         self._last = (col, dict(v))
-        return self._upper(v)
+        d = self.scale
+        return self._upper(v) if d is None else _down(self._upper(_up(v, d)), d)
 
-    def btran(self, cb):
+    def btran_scaled(self, cb):
         if not self._dicts:
-            return LUBasis.btran(self, cb)
+            return LUBasis.btran_scaled(self, cb)
+        d = self.scale
         u = [ZERO] * self.m
         for p, c in cb.items():
-            u[p] = c
+            u[p] = c if d is None else c * d
         w = self._upper_t(u)
         for p, zs in reversed(self.rsteps):
             wp = w[p]
             if wp:
                 for rj, z in zs:
                     w[rj] -= z * wp
-        return self._lower_t(w)
+        return self._lower_t(w), d
 
     def replace(self, p: int, w: dict[int, mpq], col=None) -> None:
         if col is None:
             raise ValueError("a Forrest-Tomlin update needs the entering column")
+        self._replaced(w[p])
         if not self._dicts:
             self._to_dicts()
         last = self._last

@@ -481,7 +481,10 @@ class Simplex:
     def _update_duals(self, y: list[mpq], dq: mpq, p: int, alpha_pq: mpq) -> None:
         """``y' = y + theta rho`` with ``theta = d_q / alpha_pq`` (see :meth:`_update_reduced_costs`)."""
         theta = dq / alpha_pq
-        for i, r in enumerate(self.basis.btran({p: ONE})):
+        rho, d = self.basis.btran_scaled({p: ONE})
+        if d is not None:
+            theta /= d
+        for i, r in enumerate(rho):
             if r:
                 y[i] += theta * r
 
@@ -592,7 +595,10 @@ class Simplex:
         ``rho = e_p^T B^-1`` by one btran; then only the rows of A where rho
         is nonzero are read, which is cheap when rho is sparse.
         """
-        rho = self.basis.btran({p: ONE})
+        # the btran's scaled row ``D rho`` has (nearly) integer entries, so the
+        # sums below meet only the short denominators of A; each sum is divided
+        # by ``D`` once (see basis.EtaBasis._set_scale)
+        rho, d = self.basis.btran_scaled({p: ONE})
         rows, state = self._rows(), self.state
         acc: dict[int, mpq] = {}
         get = acc.get
@@ -601,6 +607,9 @@ class Simplex:
                 for j, a in rows[i]:
                     if state[j] != BASIC:
                         acc[j] = get(j, ZERO) + r * a
+        if d is not None:
+            for j, v in acc.items():
+                acc[j] = v / d
         return acc
 
     def _rows(self) -> list[list[tuple[int, mpq]]]:
