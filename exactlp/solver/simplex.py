@@ -478,6 +478,19 @@ class Simplex:
         """y^T = c_B^T B^-1, by one btran (needed only when a phase ends or stops)."""
         return self.basis.btran({p: cost[c] for p, c in enumerate(self.head) if cost[c]})
 
+    def _duals_scaled(self, cost: list[mpq]):
+        """``(y, (D y, D))``, or ``(y, None)`` when the basis solves unscaled."""
+        w, d = self.basis.btran_scaled({p: cost[c] for p, c in enumerate(self.head) if cost[c]})
+        if d is None:
+            return w, None
+        y = [x / d if x else ZERO for x in w]
+        # ``D`` can be far longer than the duals' own denominators (GROW22's optimal
+        # basis: 7,930 bits against at most 368, the costs touch a small part of
+        # it); then the short fractions are cheaper to sum than the long integers
+        if 4 * max((x.denominator.bit_length() for x in y if x), default=0) < d.bit_length():
+            return y, None
+        return y, (w, d)
+
     def _update_duals(self, y: list[mpq], dq: mpq, p: int, alpha_pq: mpq) -> None:
         """``y' = y + theta rho`` with ``theta = d_q / alpha_pq`` (see :meth:`_update_reduced_costs`)."""
         theta = dq / alpha_pq
@@ -623,10 +636,35 @@ class Simplex:
             self._rows_cache = (ncol, rows)
         return self._rows_cache[1]
 
-    def _reduced_costs(self, cost: list[mpq], y: list[mpq]) -> list[mpq | None]:
-        """d_j = c_j - y^T a_j for every nonbasic column that can move (else None)."""
+    def _reduced_costs(self, cost: list[mpq], y: list[mpq], scaled=None) -> list[mpq | None]:
+        """d_j = c_j - y^T a_j for every nonbasic column that can move (else None).
+
+        With ``scaled = (D y, D)`` from the btran, ``y^T a_j`` is summed from
+        ``D y`` (whose entries are nearly always integers, so each product meets
+        only the short denominators of A) and divided by ``D`` once per column.
+        """
         out: list[mpq | None] = [None] * len(self.cols)
         state, lower, upper, cols = self.state, self.lower, self.upper, self.cols
+        if scaled is not None:
+            w, dd = scaled
+            for j in range(len(cols)):
+                if state[j] == BASIC:
+                    continue
+                lo, hi = lower[j], upper[j]
+                if lo is not None and hi is not None and lo == hi:
+                    continue
+                terms = [(i, a) for i, a in cols[j] if w[i]]
+                if len(terms) < 3:  # one or two terms: the division would cost more than it saves
+                    dj = cost[j]
+                    for i, a in terms:
+                        dj -= y[i] * a
+                    out[j] = dj
+                    continue
+                s = ZERO
+                for i, a in terms:
+                    s += w[i] * a
+                out[j] = cost[j] - s / dd if s else cost[j]
+            return out
         for j in range(len(cols)):
             if state[j] == BASIC:
                 continue
@@ -860,8 +898,10 @@ class Simplex:
                     assert y == self._duals(cost), "dual update drifted"
                 d = None
             elif d is None:
-                y = self._duals(cost)  # current until the next pivot
-                d = self._reduced_costs(cost, y)
+                y, ys = self._duals_scaled(cost)  # current until the next pivot
+                d = self._reduced_costs(cost, y, ys)
+                if self.check_updates:
+                    assert y == self._duals(cost) and d == self._reduced_costs(cost, y), "scaled pricing drifted"
                 self.scores = None  # computed when first needed (not at all at an optimal start)
             elif self.check_updates:
                 assert d == self._reduced_costs(cost, self._duals(cost)), "reduced-cost update drifted"
