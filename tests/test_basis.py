@@ -63,6 +63,8 @@ def scale_bits(request, monkeypatch):
     """The solves scale by ``det B``'s numerator past SCALE_BITS; 0 scales every solve."""
     if request.param == "always scaled":
         monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
+        monkeypatch.setattr(basis_module, "SCALE_MIN_SEEN", 0)
+        monkeypatch.setattr(basis_module, "SCALE_RATIO", 10**9)
     return basis_module.SCALE_BITS
 
 
@@ -157,8 +159,10 @@ def test_every_factorisation_agrees_after_updates(scale_bits):
         det = dense_det(m, cols, heads[0])
         for (b, h) in group:
             assert abs(F(int(b.det.numerator), int(b.det.denominator))) == abs(det) != 0
-            long = abs(b.det.numerator).bit_length() > scale_bits
-            assert b.scale == (abs(b.det.numerator) if long else None)
+            bits, seen = abs(b.det.numerator).bit_length(), b.seen
+            scaled = bits > scale_bits and (
+                seen is None or (seen >= basis_module.SCALE_MIN_SEEN and bits <= basis_module.SCALE_RATIO * seen))
+            assert b.scale == (abs(b.det.numerator) if scaled else None)
     assert updated > 300
 
 

@@ -183,6 +183,8 @@ def test_updates_with_every_solve_scaled(recheck_updates, monkeypatch, partial, 
     import exactlp.solver.basis as basis_module
 
     monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
+    monkeypatch.setattr(basis_module, "SCALE_MIN_SEEN", 0)
+    monkeypatch.setattr(basis_module, "SCALE_RATIO", 10**9)
     if partial != "off":
         monkeypatch.setattr(simplex_module, "PARTIAL_FACTOR", 0)
         monkeypatch.setattr(simplex_module, "PARTIAL_SWITCH", 2)
@@ -198,6 +200,8 @@ def test_updated_reduced_costs_on_netlib(recheck_updates, monkeypatch, partial, 
         import exactlp.solver.basis as basis_module
 
         monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
+        monkeypatch.setattr(basis_module, "SCALE_MIN_SEEN", 0)
+        monkeypatch.setattr(basis_module, "SCALE_RATIO", 10**9)
     if partial != "off":
         monkeypatch.setattr(simplex_module, "PARTIAL_FACTOR", 0)
         monkeypatch.setattr(simplex_module, "PARTIAL_SWITCH", 0 if partial == "to the end" else 2)

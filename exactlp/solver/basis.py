@@ -29,10 +29,17 @@ from gmpy2 import mpq, mpz
 
 ZERO = mpq(0)
 
-#: Solves scale their vector by the numerator of ``det B`` once it has more bits
-#: than this (see :meth:`EtaBasis._set_scale`); below it the scaling costs more
-#: than it saves.
+#: Solves scale their vector by the numerator ``D`` of ``det B`` once it has more
+#: bits than this (see :meth:`EtaBasis._set_scale`) ...
 SCALE_BITS = 64
+#: ... unless the last ftran's result had denominators under this many bits
+#: (short fractions are cheap as they are) ...
+SCALE_MIN_SEEN = 128
+#: ... or ``D`` is over this many times as long as them (``det B`` multiplies the
+#: determinants of a basis's independent blocks, while ``B^-1``'s denominators
+#: only need their least common multiple: SCSD8's bases reach ``D`` of 4,000 bits
+#: with results of 100 to 400, and scaling there made the cold solve 40% slower)
+SCALE_RATIO = 6
 
 
 class EtaBasis:
@@ -44,7 +51,9 @@ class EtaBasis:
         #: etas added by pivots since the file was last built (reinversion's own do not count)
         self.updates = 0
         self.det = mpq(-1 if sum(1 for x in signs if x < 0) % 2 else 1)
-        self.scale: mpz | None = None
+        #: the longest denominator (bits) in the last ftran's result, or None
+        self.seen: int | None = None
+        self.scale: mpz | None = None  # the D of the next solve, or None
         self._set_scale()
 
     # -- the scale of the solves ------------------------------------------
@@ -59,9 +68,24 @@ class EtaBasis:
     # solves are linear); ``D`` only decides how short the numbers stay.  On
     # STAIR's optimal basis ftran took 272 ms for six columns unscaled and
     # 86 ms scaled, on GROW7's 14.8 and 7.7 ms.
+    #
+    # Whether to scale at all is decided from the sizes (exactness never depends
+    # on it): ``D`` must be long, and the last result's denominators long and
+    # not far shorter than ``D`` (see SCALE_MIN_SEEN and SCALE_RATIO).
     def _set_scale(self) -> None:
         d = abs(self.det.numerator)
-        self.scale = d if d.bit_length() > SCALE_BITS else None
+        bits, seen = d.bit_length(), self.seen
+        if bits <= SCALE_BITS or (seen is not None and (seen < SCALE_MIN_SEEN or bits > SCALE_RATIO * seen)):
+            self.scale = None
+        else:
+            self.scale = d
+
+    def _saw(self, x: dict[int, mpq]) -> dict[int, mpq]:
+        """Note the longest denominator of an ftran's result (and return it)."""
+        if x and (self.scale is not None or self.det.numerator.bit_length() > SCALE_BITS):
+            self.seen = max(v.denominator.bit_length() for v in x.values())
+            self._set_scale()
+        return x
 
     # -- solves --------------------------------------------------------
     def ftran(self, col: list[tuple[int, mpq]]) -> dict[int, mpq]:
@@ -70,8 +94,8 @@ class EtaBasis:
         for i, a in col:
             v[i] = a if signs[i] > 0 else -a
         if d is None:
-            return self._etas_forward(v)
-        return _down(self._etas_forward(_up(v, d)), d)
+            return self._saw(self._etas_forward(v))
+        return self._saw(_down(self._etas_forward(_up(v, d)), d))
 
     def _etas_forward(self, v: dict[int, mpq]) -> dict[int, mpq]:
         """Apply E1^-1 ... Ek^-1 to ``v`` in place (the updates, in order)."""
@@ -282,8 +306,8 @@ class LUBasis(EtaBasis):
     def ftran(self, col):
         d = self.scale
         if d is None:
-            return self._etas_forward(self._upper(self._lower(col)))
-        return _down(self._etas_forward(self._upper(_up(self._lower(col), d))), d)
+            return self._saw(self._etas_forward(self._upper(self._lower(col))))
+        return self._saw(_down(self._etas_forward(self._upper(_up(self._lower(col), d))), d))
 
     def btran_scaled(self, cb):
         d = self.scale
@@ -346,7 +370,7 @@ class FTBasis(LUBasis):
         # kept for replace(): the simplex updates with the column it last solved for
         self._last = (col, dict(v))
         d = self.scale
-        return self._upper(v) if d is None else _down(self._upper(_up(v, d)), d)
+        return self._saw(self._upper(v) if d is None else _down(self._upper(_up(v, d)), d))
 
     def btran_scaled(self, cb):
         if not self._dicts:

@@ -1040,7 +1040,10 @@ class Simplex:
         return lu is not None and basis.eta_nonzeros > ETA_BUDGET * (lu + self.m)
 
     def _reinvert(self) -> None:
+        seen = self.basis.seen
         self.basis, self.head = FACTOR(self.m, self.head, self.cols, self.unit_row)
+        self.basis.seen = seen  # the sizes of the last results decide the first solves' scale
+        self.basis._set_scale()
         for p, c in enumerate(self.head):
             self.pos_of[c] = p
 
