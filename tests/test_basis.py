@@ -58,13 +58,21 @@ def dense_solve(m, cols, head, rhs):
     return [M[i][m] for i in range(m)]
 
 
+def always_scaled(monkeypatch):
+    monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
+    monkeypatch.setattr(basis_module, "SCALE_MIN_SEEN", 0)
+    monkeypatch.setattr(basis_module, "SCALE_RATIO", 10**9)
+
+
+def never_scaled(monkeypatch):
+    monkeypatch.setattr(basis_module, "SCALE_BITS", 10**9)
+
+
 @pytest.fixture(params=["scaled when long", "always scaled"])
 def scale_bits(request, monkeypatch):
     """The solves scale by ``det B``'s numerator past SCALE_BITS; 0 scales every solve."""
     if request.param == "always scaled":
-        monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
-        monkeypatch.setattr(basis_module, "SCALE_MIN_SEEN", 0)
-        monkeypatch.setattr(basis_module, "SCALE_RATIO", 10**9)
+        always_scaled(monkeypatch)
     return basis_module.SCALE_BITS
 
 
@@ -179,14 +187,18 @@ def test_pivot_path_does_not_depend_on_the_factorisation(monkeypatch):
     paths = {}
     for name, factor in FACTORS.items():
         for every in (2, 16):
-            monkeypatch.setattr(simplex, "FACTOR", factor)
-            monkeypatch.setattr(simplex, "REINVERT_EVERY", every)
-            path = []
-            for m in models:
-                events = []
-                exactlp.solve(m, warm_start=False, listener=events.append)
-                path.append([(e.entering, e.leaving, e.rule) for e in events if isinstance(e, Pivot)])
-            paths[(name, every)] = path
+            # never scaled, or every solve scaled (the ratio test then reads D alpha)
+            for scaled in (False, True):
+                monkeypatch.setattr(simplex, "FACTOR", factor)
+                monkeypatch.setattr(simplex, "REINVERT_EVERY", every)
+                monkeypatch.setattr(simplex, "REINVERT_EVERY_SCALED", every)
+                always_scaled(monkeypatch) if scaled else never_scaled(monkeypatch)
+                path = []
+                for m in models:
+                    events = []
+                    exactlp.solve(m, warm_start=False, listener=events.append)
+                    path.append([(e.entering, e.leaving, e.rule) for e in events if isinstance(e, Pivot)])
+                paths[(name, every, scaled)] = path
     first = next(iter(paths.values()))
     assert sum(len(p) for p in first) > 20
     assert all(p == first for p in paths.values())
@@ -268,11 +280,14 @@ def test_pivot_path_on_a_degenerate_netlib_problem_does_not_depend_on_the_factor
 
     m = read_mps(NETLIB / netlib_table()["FORPLAN"]["file"])
     paths = []
-    for factor in (factor_lu, factor_ft):
+    # and with every solve scaled, the ratio test and its lexicographic ties reading D alpha
+    for factor, scaled in ((factor_lu, False), (factor_ft, False), (factor_ft, True)):
         monkeypatch.setattr(simplex, "FACTOR", factor)
+        if scaled:
+            always_scaled(monkeypatch)
         events = []
         r = exactlp.solve(m, warm_start=False, listener=events.append)
         assert r.status is exactlp.Status.OPTIMAL
         paths.append([(e.entering, e.leaving, e.rule) for e in events if isinstance(e, Pivot)])
     assert any("lexicographic" in rule for _, _, rule in paths[0])
-    assert paths[0] == paths[1]
+    assert paths[0] == paths[1] == paths[2]

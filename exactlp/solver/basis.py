@@ -138,9 +138,17 @@ class EtaBasis:
         w, d = self.btran_scaled(cb)
         return w if d is None else [x / d if x else ZERO for x in w]
 
-    def replace(self, p: int, w: dict[int, mpq], col=None) -> None:
+    def ftran_scaled(self, col) -> tuple[dict[int, mpq], mpz | None]:
+        """``(D B^-1 a, D)``, or ``(B^-1 a, None)``; here always the latter
+        (:class:`FTBasis` returns the scaled form between refactorisations)."""
+        return self.ftran(col), None
+
+    def replace(self, p: int, w: dict[int, mpq], col=None, scale: mpz | None = None) -> None:
         """Record that position ``p`` now holds the column whose ftran is ``w``
-        (``col``, the column itself, is used by :class:`FTBasis` only)."""
+        (``col``, the column itself, is used by :class:`FTBasis` only; ``scale``:
+        ``w`` is ``D B^-1 a`` from :meth:`ftran_scaled`)."""
+        if scale is not None:
+            w = _down(w, scale)
         self._replaced(w[p])
         wp = w[p]
         rest = [(i, wi) for i, wi in sorted(w.items()) if i != p]
@@ -372,6 +380,19 @@ class FTBasis(LUBasis):
         d = self.scale
         return self._saw(self._upper(v) if d is None else _down(self._upper(_up(v, d)), d))
 
+    def ftran_scaled(self, col):
+        # Until the first update (the first ftran after each factorisation) the
+        # result is divided in full, and its denominators decide the scale
+        # (EtaBasis._saw); after it, a scaled result is handed back as it is.
+        if not self._dicts:
+            return LUBasis.ftran(self, col), None
+        v = self._spike(col)
+        self._last = (col, dict(v))
+        d = self.scale
+        if d is None:
+            return self._saw(self._upper(v)), None
+        return self._upper(_up(v, d)), d
+
     def btran_scaled(self, cb):
         if not self._dicts:
             return LUBasis.btran_scaled(self, cb)
@@ -387,10 +408,19 @@ class FTBasis(LUBasis):
                     w[rj] -= z * wp
         return self._lower_t(w), d
 
-    def replace(self, p: int, w: dict[int, mpq], col=None) -> None:
+    def replace(self, p: int, w: dict[int, mpq], col=None, scale=None) -> None:
         if col is None:
             raise ValueError("a Forrest-Tomlin update needs the entering column")
-        self._replaced(w[p])
+        if scale is None:
+            self._replaced(w[p])
+        else:
+            # a scaled ftran's own denominators are not measured; the pivot's, which
+            # is divided anyway, can only raise the last measure, while D grows
+            # by alpha_p's numerator at each update, so a D that outgrows the
+            # results still ends the scaling (an unscaled ftran measures them all)
+            alpha_p = w[p] / scale
+            self.seen = max(self.seen or 0, alpha_p.denominator.bit_length())
+            self._replaced(alpha_p)
         if not self._dicts:
             self._to_dicts()
         last = self._last

@@ -731,8 +731,17 @@ class Simplex:
         return 0
 
     def _ratio(self, q: int, direction: int, alpha: dict[int, mpq], rank: list[int] | None = None,
-               prefer_large: bool = False):
+               prefer_large: bool = False, scale=None):
         """Return (t, leaving column or None for a flip or unbounded, bound hit).
+
+        With ``scale = D``, ``alpha`` holds ``D B^-1 a_q``: every ratio is then
+        ``1 / D`` of the true one, so the smallest, the ties among them and the
+        largest ``|alpha_p|`` are the same, and only the step found is multiplied
+        by ``D`` (before it is compared with the entering column's own span).  The
+        lexicographic comparison divides each candidate's terms by its own
+        ``|alpha_p|``, which leaves them all ``1 / D`` of the true ones or, for
+        the entering column's own term, unchanged; the flip's terms are 2 and 0,
+        and only their signs are compared with the others, so it chooses the same.
 
         Ties in the smallest ratio go to the lowest column index; with
         ``prefer_large``, to the largest ``|alpha_p|``; when ``rank`` is given
@@ -762,6 +771,8 @@ class Simplex:
                 best_t, ties = t, [(b, p, bound)]
             elif t == best_t:
                 ties.append((b, p, bound))
+        if scale is not None and best_t is not None:
+            best_t = best_t * scale
         lo, hi = lower[q], upper[q]
         flip_bound = "upper" if direction > 0 else "lower"
         flip = lo is not None and hi is not None and (best_t is None or hi - lo <= best_t)
@@ -942,14 +953,17 @@ class Simplex:
             else:
                 q, rule = first, "bland"
             direction = self._eligible(q, d[q])  # type: ignore[arg-type]
-            alpha = self.basis.ftran(self.cols[q])
+            # alpha = B^-1 a_q, possibly as (D alpha, D): the ratio test and the step
+            # of the basic values take it scaled (see _ratio), and only alpha_p is divided
+            alpha, ad = self.basis.ftran_scaled(self.cols[q])
             guarded = pricing == "guarded" and not bland_mode
-            t, b, bound = self._ratio(q, direction, alpha, rank if guarded else None, prefer_large=guarded)
+            t, b, bound = self._ratio(q, direction, alpha, rank if guarded else None, prefer_large=guarded,
+                                      scale=ad)
             if guarded:
                 if t is not None and t == 0 and rank is None and run_degenerate >= lex_after:
                     # a degenerate run has gone on: fix its perturbation from this basis
                     rank = self._run_rank()
-                    t, b, bound = self._ratio(q, direction, alpha, rank)
+                    t, b, bound = self._ratio(q, direction, alpha, rank, scale=ad)
                 if rank is not None:
                     rule = rule + " (lexicographic ties)"
             elif pricing == "guarded":
@@ -959,15 +973,15 @@ class Simplex:
                 if first != q:
                     q = first
                     direction = self._eligible(q, d[q])  # type: ignore[arg-type]
-                    alpha = self.basis.ftran(self.cols[q])
-                    t, b, bound = self._ratio(q, direction, alpha)
+                    alpha, ad = self.basis.ftran_scaled(self.cols[q])
+                    t, b, bound = self._ratio(q, direction, alpha, scale=ad)
                 rule = "bland (degenerate run)"
             elif pricing == "hybrid" and rule == "bland":
                 rule = "bland (degenerate run)"
             if t is None:
                 ray = {q: mpq(direction)}
                 for p, a in alpha.items():
-                    ray[self.head[p]] = -direction * a
+                    ray[self.head[p]] = -direction * (a if ad is None else a / ad)
                 return Outcome("unbounded", z, self._duals(cost), ray)
             if self.tableau:
                 yy = self._duals(cost)
@@ -980,8 +994,9 @@ class Simplex:
             if t:
                 dt = t if direction > 0 else -t
                 self.x[q] += dt
+                per = dt if ad is None else dt / ad  # x_B -= dt alpha = (dt / D) (D alpha)
                 for p, a in alpha.items():
-                    self.x[self.head[p]] -= dt * a
+                    self.x[self.head[p]] -= per * a
                 z += dq * dt  # type: ignore[operator]
             if b is None:
                 self.flips += 1
@@ -990,10 +1005,11 @@ class Simplex:
             else:
                 self.pivots[phase] += 1
                 p = self.pos_of[b]
+                alpha_p = alpha[p] if ad is None else alpha[p] / ad
                 if partial:
-                    self._update_duals(y, d[q], p, alpha[p])
+                    self._update_duals(y, d[q], p, alpha_p)
                 else:
-                    self._update_reduced_costs(d, q, b, p, alpha[p])
+                    self._update_reduced_costs(d, q, b, p, alpha_p)
                     y = None  # no longer current
                 self.x[b] = self.lower[b] if bound == "lower" else self.upper[b]
                 self.state[b] = AT_LOWER if bound == "lower" else AT_UPPER
@@ -1001,7 +1017,7 @@ class Simplex:
                 self.pos_of[b] = -1
                 self.pos_of[q] = p
                 self.head[p] = q
-                self.basis.replace(p, alpha, self.cols[q])
+                self.basis.replace(p, alpha, self.cols[q], ad)
                 if self._refactor_due():
                     self._reinvert()
             changed = self._after_step is not None and self._after_step()
