@@ -80,6 +80,12 @@ class EtaBasis:
         else:
             self.scale = d
 
+    def take_sizes(self, seen: int | None) -> None:
+        """Start from the sizes an earlier basis of the same solve measured (a
+        refactorisation's first solves are scaled as the last ones were)."""
+        self.seen = seen
+        self._set_scale()
+
     def _saw(self, x: dict[int, mpq]) -> dict[int, mpq]:
         """Note the longest denominator of an ftran's result (and return it)."""
         if x and (self.scale is not None or self.det.numerator.bit_length() > SCALE_BITS):

@@ -1061,8 +1061,7 @@ class Simplex:
     def _reinvert(self) -> None:
         seen = self.basis.seen
         self.basis, self.head = FACTOR(self.m, self.head, self.cols, self.unit_row)
-        self.basis.seen = seen  # the sizes of the last results decide the first solves' scale
-        self.basis._set_scale()
+        self.basis.take_sizes(seen)
         for p, c in enumerate(self.head):
             self.pos_of[c] = p
 
