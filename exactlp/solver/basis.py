@@ -40,6 +40,11 @@ SCALE_MIN_SEEN = 128
 #: only need their least common multiple: SCSD8's bases reach ``D`` of 4,000 bits
 #: with results of 100 to 400, and scaling there made the cold solve 40% slower)
 SCALE_RATIO = 6
+#: ... or ``D`` is longer than this.  Nested structure can make ``D`` enormous
+#: while most entries stay short (a chain ``1e300 x_i + x_(i+1) <= b_i`` of 400
+#: rows: ``D`` of 400,000 bits, and the final division of every entry by it cost
+#: 3.5 times the unscaled solve); the Netlib bases reach at most 8,480 bits.
+SCALE_MAX_BITS = 16_384
 
 
 class EtaBasis:
@@ -75,7 +80,8 @@ class EtaBasis:
     def _set_scale(self) -> None:
         d = abs(self.det.numerator)
         bits, seen = d.bit_length(), self.seen
-        if bits <= SCALE_BITS or (seen is not None and (seen < SCALE_MIN_SEEN or bits > SCALE_RATIO * seen)):
+        if bits <= SCALE_BITS or bits > SCALE_MAX_BITS or (
+                seen is not None and (seen < SCALE_MIN_SEEN or bits > SCALE_RATIO * seen)):
             self.scale = None
         else:
             self.scale = d
