@@ -60,6 +60,7 @@ def dense_solve(m, cols, head, rhs):
 
 def always_scaled(monkeypatch):
     monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
+    monkeypatch.setattr(basis_module, "SCALE_SPREAD", 0)
     monkeypatch.setattr(basis_module, "SCALE_MIN_SEEN", 0)
     monkeypatch.setattr(basis_module, "SCALE_RATIO", 10**9)
 
@@ -168,7 +169,7 @@ def test_every_factorisation_agrees_after_updates(scale_bits):
         for (b, h) in group:
             assert abs(F(int(b.det.numerator), int(b.det.denominator))) == abs(det) != 0
             bits, seen = abs(b.det.numerator).bit_length(), b.seen
-            scaled = bits > scale_bits and (
+            scaled = bits > scale_bits and bits <= basis_module.SCALE_MAX_BITS and not b.nested and (
                 seen is None or (seen >= basis_module.SCALE_MIN_SEEN and bits <= basis_module.SCALE_RATIO * seen))
             assert b.scale == (abs(b.det.numerator) if scaled else None)
     assert updated > 300
@@ -291,3 +292,25 @@ def test_pivot_path_on_a_degenerate_netlib_problem_does_not_depend_on_the_factor
         paths.append([(e.entering, e.leaving, e.rule) for e in events if isinstance(e, Pivot)])
     assert any("lexicographic" in rule for _, _, rule in paths[0])
     assert paths[0] == paths[1] == paths[2]
+
+
+def test_nested_denominators_turn_the_scaling_off():
+    # a chain of rows  1e30 x_i + x_(i+1) = b_i : det B = 10^(30 m), but the
+    # entries of B^-1 b have denominators 10^30, 10^60, ... (nested, not
+    # shared), and scaling them all by D would make every one long
+    m = 8
+    cols = [[(j, mpq(10**30))] + ([(j - 1, mpq(1))] if j else []) for j in range(m)]
+    cols += [[(i, mpq(-1))] for i in range(m)]
+    unit = {m + i: (i, -1) for i in range(m)}
+    basis, order = factor_ft(m, list(range(m)), cols, unit)
+    assert basis.scale == abs(basis.det.numerator) == 10 ** (30 * m)  # long, nothing seen yet
+    x = basis.ftran([(i, mpq(1)) for i in range(m)])
+    dens = sorted(v.denominator for v in x.values())
+    assert dens[0] == 10**30 and dens[-1] == 10 ** (30 * m)
+    assert basis.nested and basis.scale is None
+    # a basis whose entries share one long denominator keeps it
+    rng = random.Random(5)
+    cols = [[(i, mpq(rng.randint(1, 10**6))) for i in range(m)] for _ in range(m)]
+    basis, order = factor_ft(m, list(range(m)), cols, {})
+    basis.ftran([(i, mpq(1)) for i in range(m)])
+    assert not basis.nested and basis.scale == abs(basis.det.numerator)

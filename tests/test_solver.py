@@ -185,6 +185,7 @@ def test_updates_with_every_solve_scaled(recheck_updates, monkeypatch, partial, 
     monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
     monkeypatch.setattr(basis_module, "SCALE_MIN_SEEN", 0)
     monkeypatch.setattr(basis_module, "SCALE_RATIO", 10**9)
+    monkeypatch.setattr(basis_module, "SCALE_SPREAD", 0)
     if partial != "off":
         monkeypatch.setattr(simplex_module, "PARTIAL_FACTOR", 0)
         monkeypatch.setattr(simplex_module, "PARTIAL_SWITCH", 2)
@@ -202,6 +203,7 @@ def test_updated_reduced_costs_on_netlib(recheck_updates, monkeypatch, partial, 
         monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
         monkeypatch.setattr(basis_module, "SCALE_MIN_SEEN", 0)
         monkeypatch.setattr(basis_module, "SCALE_RATIO", 10**9)
+        monkeypatch.setattr(basis_module, "SCALE_SPREAD", 0)
     if partial != "off":
         monkeypatch.setattr(simplex_module, "PARTIAL_FACTOR", 0)
         monkeypatch.setattr(simplex_module, "PARTIAL_SWITCH", 0 if partial == "to the end" else 2)

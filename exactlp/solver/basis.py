@@ -45,6 +45,9 @@ SCALE_RATIO = 6
 #: rows: ``D`` of 400,000 bits, and the final division of every entry by it cost
 #: 3.5 times the unscaled solve); the Netlib bases reach at most 8,480 bits.
 SCALE_MAX_BITS = 16_384
+#: ... or the last measured result's mean denominator was under this many tenths
+#: of its longest (see EtaBasis._saw)
+SCALE_SPREAD = 6
 
 
 class EtaBasis:
@@ -58,6 +61,8 @@ class EtaBasis:
         self.det = mpq(-1 if sum(1 for x in signs if x < 0) % 2 else 1)
         #: the longest denominator (bits) in the last ftran's result, or None
         self.seen: int | None = None
+        #: whether that result's denominators were nested (see SCALE_SPREAD)
+        self.nested = False
         self.scale: mpz | None = None  # the D of the next solve, or None
         self._set_scale()
 
@@ -80,22 +85,27 @@ class EtaBasis:
     def _set_scale(self) -> None:
         d = abs(self.det.numerator)
         bits, seen = d.bit_length(), self.seen
-        if bits <= SCALE_BITS or bits > SCALE_MAX_BITS or (
+        if bits <= SCALE_BITS or bits > SCALE_MAX_BITS or self.nested or (
                 seen is not None and (seen < SCALE_MIN_SEEN or bits > SCALE_RATIO * seen)):
             self.scale = None
         else:
             self.scale = d
 
-    def take_sizes(self, seen: int | None) -> None:
+    def take_sizes(self, seen: int | None, nested: bool = False) -> None:
         """Start from the sizes an earlier basis of the same solve measured (a
         refactorisation's first solves are scaled as the last ones were)."""
-        self.seen = seen
+        self.seen, self.nested = seen, nested
         self._set_scale()
 
     def _saw(self, x: dict[int, mpq]) -> dict[int, mpq]:
         """Note the longest denominator of an ftran's result (and return it)."""
         if x and (self.scale is not None or self.det.numerator.bit_length() > SCALE_BITS):
-            self.seen = max(v.denominator.bit_length() for v in x.values())
+            bits = [v.denominator.bit_length() for v in x.values()]
+            self.seen = top = max(bits)
+            # nested rather than shared denominators: most entries far shorter than
+            # the longest (a chain of rows: the mean is half the longest, against
+            # 0.9-0.95 of it on GROW7 and STAIR), and scaling makes them all long
+            self.nested = 10 * sum(bits) < SCALE_SPREAD * top * len(bits)
             self._set_scale()
         return x
 

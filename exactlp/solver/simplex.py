@@ -1059,9 +1059,9 @@ class Simplex:
         return lu is not None and basis.eta_nonzeros > ETA_BUDGET * (lu + self.m)
 
     def _reinvert(self) -> None:
-        seen = self.basis.seen
+        old = self.basis
         self.basis, self.head = FACTOR(self.m, self.head, self.cols, self.unit_row)
-        self.basis.take_sizes(seen)
+        self.basis.take_sizes(old.seen, old.nested)
         for p, c in enumerate(self.head):
             self.pos_of[c] = p
 
