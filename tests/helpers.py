@@ -178,3 +178,22 @@ def exact_violation(model: Model, point) -> Fraction:
         if c.upper is not None:
             worst = max(worst, a - c.upper)
     return worst
+
+
+def always_scaled(monkeypatch) -> None:
+    """Every basis solve scaled by the numerator of det B, whatever the sizes
+    (the rules of exactlp.solver.basis would skip some); exactness must not change."""
+    import exactlp.solver.basis as basis_module
+
+    monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
+    monkeypatch.setattr(basis_module, "SCALE_MIN_SEEN", 0)
+    monkeypatch.setattr(basis_module, "SCALE_RATIO", 10**9)
+    monkeypatch.setattr(basis_module, "SCALE_SPREAD", 0)
+    monkeypatch.setattr(basis_module, "SCALE_MAX_BITS", 10**9)
+
+
+def never_scaled(monkeypatch) -> None:
+    """No basis solve scaled."""
+    import exactlp.solver.basis as basis_module
+
+    monkeypatch.setattr(basis_module, "SCALE_BITS", 10**9)

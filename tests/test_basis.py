@@ -16,6 +16,7 @@ import exactlp.solver.simplex as simplex
 from exactlp.solver.basis import factor_ft, factor_lu, reinvert
 
 from .conftest import NETLIB, needs_netlib, netlib_table
+from .helpers import always_scaled, never_scaled
 from .models import KNOWN, klee_minty
 
 FACTORS = {"eta-file": reinvert, "sparse-lu": factor_lu, "sparse-lu-ft": factor_ft}
@@ -56,17 +57,6 @@ def dense_solve(m, cols, head, rhs):
             if r != c and M[r][c]:
                 M[r] = [a - M[r][c] * b for a, b in zip(M[r], M[c])]
     return [M[i][m] for i in range(m)]
-
-
-def always_scaled(monkeypatch):
-    monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
-    monkeypatch.setattr(basis_module, "SCALE_SPREAD", 0)
-    monkeypatch.setattr(basis_module, "SCALE_MIN_SEEN", 0)
-    monkeypatch.setattr(basis_module, "SCALE_RATIO", 10**9)
-
-
-def never_scaled(monkeypatch):
-    monkeypatch.setattr(basis_module, "SCALE_BITS", 10**9)
 
 
 @pytest.fixture(params=["scaled when long", "always scaled"])

@@ -13,7 +13,7 @@ import exactlp
 from exactlp.io import model_from_text
 from exactlp.solver import PRICING_RULES, Status
 
-from .helpers import scipy_solve, solve_verified, sympy_solve
+from .helpers import always_scaled, scipy_solve, solve_verified, sympy_solve
 from .models import KNOWN, klee_minty
 
 CASES = [pytest.param(text, status, obj, id=name) for name, text, status, obj, _ in KNOWN]
@@ -178,14 +178,9 @@ def test_partial_pricing_with_updated_duals(recheck_updates, monkeypatch, switch
 @settings(max_examples=100, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(model=lp_models(max_vars=6, max_rows=6))
 def test_updates_with_every_solve_scaled(recheck_updates, monkeypatch, partial, model):
-    # SCALE_BITS 0: every ftran and btran works on D v with D the numerator of
-    # det B, and the tableau row and the duals' update divide by D themselves
-    import exactlp.solver.basis as basis_module
-
-    monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
-    monkeypatch.setattr(basis_module, "SCALE_MIN_SEEN", 0)
-    monkeypatch.setattr(basis_module, "SCALE_RATIO", 10**9)
-    monkeypatch.setattr(basis_module, "SCALE_SPREAD", 0)
+    # every ftran and btran works on D v with D the numerator of det B, and the
+    # tableau row and the duals' update divide by D themselves
+    always_scaled(monkeypatch)
     if partial != "off":
         monkeypatch.setattr(simplex_module, "PARTIAL_FACTOR", 0)
         monkeypatch.setattr(simplex_module, "PARTIAL_SWITCH", 2)
@@ -198,12 +193,7 @@ def test_updates_with_every_solve_scaled(recheck_updates, monkeypatch, partial, 
 @pytest.mark.parametrize("name", ["SC50A", "KB2", "SHARE2B"])
 def test_updated_reduced_costs_on_netlib(recheck_updates, monkeypatch, partial, name, scaled):
     if scaled == "always":
-        import exactlp.solver.basis as basis_module
-
-        monkeypatch.setattr(basis_module, "SCALE_BITS", 0)
-        monkeypatch.setattr(basis_module, "SCALE_MIN_SEEN", 0)
-        monkeypatch.setattr(basis_module, "SCALE_RATIO", 10**9)
-        monkeypatch.setattr(basis_module, "SCALE_SPREAD", 0)
+        always_scaled(monkeypatch)
     if partial != "off":
         monkeypatch.setattr(simplex_module, "PARTIAL_FACTOR", 0)
         monkeypatch.setattr(simplex_module, "PARTIAL_SWITCH", 0 if partial == "to the end" else 2)
