@@ -1,14 +1,17 @@
-"""The exact basis factorisations: one table of random bases runs over all three.
+"""The exact basis factorisations: one table of random bases runs over all of them.
 
-The product-form reinversion, the sparse LU with eta updates and the sparse LU
-with Forrest-Tomlin updates must give identical exact solves (ftran and btran),
+The product-form reinversion, the sparse LU with eta updates (its nucleus
+eliminated on integer rows or on fractions) and the sparse LU with
+Forrest-Tomlin updates must give identical exact solves (ftran and btran),
 also after a run of updates, and the same optimum when the solver uses any.
 """
 
 import random
+from fractions import Fraction
+from functools import partial
 
 import pytest
-from gmpy2 import mpq
+from gmpy2 import mpq, mpz
 
 import exactlp
 import exactlp.solver.basis as basis_module
@@ -19,7 +22,12 @@ from .conftest import NETLIB, needs_netlib, netlib_table
 from .helpers import always_scaled, never_scaled
 from .models import KNOWN, klee_minty
 
-FACTORS = {"eta-file": reinvert, "sparse-lu": factor_lu, "sparse-lu-ft": factor_ft}
+FACTORS = {
+    "eta-file": reinvert,
+    "sparse-lu": factor_lu,  # the nucleus on integer rows where the rule allows (here always)
+    "sparse-lu-fractions": partial(factor_lu, integer_rows=False),
+    "sparse-lu-ft": factor_ft,
+}
 
 
 def random_bases(count=200, seed=7):
@@ -304,3 +312,43 @@ def test_nested_denominators_turn_the_scaling_off():
     basis, order = factor_ft(m, list(range(m)), cols, {})
     basis.ftran([(i, mpq(1)) for i in range(m)])
     assert not basis.nested and basis.scale == abs(basis.det.numerator)
+
+
+def test_integer_rows_only_where_the_denominators_share_a_short_multiple():
+    from exactlp.solver.basis import _integer_rows
+
+    # decimal data: denominators 2^a 5^b, whose multiple is the longest of them
+    rows = [{0: mpq(3, 10), 1: mpq(-7, 4)}, {0: mpq(1, 8), 2: mpq(6, 1)}]
+    scale = _integer_rows(rows, [True, True])
+    assert scale == {0: mpq(1, 20), 1: mpq(1, 8)}
+    assert rows == [{0: 6, 1: -35}, {0: 1, 2: 48}]
+    assert all(type(v) is type(mpz(1)) for r in rows for v in r.values())
+    # a row of 1/p for the first 30 primes: their multiple has 121 bits against
+    # 7 of the longest, past 64 + 2 x 7; the rows stay fractions, untouched
+    primes = [p for p in range(2, 114) if all(p % q for q in range(2, p))][:30]
+    rows = [{j: mpq(1, p) for j, p in enumerate(primes)}]
+    assert _integer_rows(rows, [True]) is None
+    assert rows == [{j: mpq(1, p) for j, p in enumerate(primes)}]
+
+
+def test_integer_and_fraction_rows_give_the_same_exact_solves():
+    # a dense basis of 1/p entries (p prime): the rule keeps fractions, and the
+    # integer rows, forced, must still give the same exact solves
+    rng = random.Random(11)
+    primes = [p for p in range(2, 200) if all(p % q for q in range(2, p))]
+    m = 7
+    cols = [[(i, mpq(rng.randint(-9, 9) or 1, rng.choice(primes))) for i in range(m)] for _ in range(m)]
+    rhs = [(i, mpq(rng.randint(-5, 5), rng.choice(primes))) for i in range(m)]
+    cost = [mpq(rng.randint(-5, 5), 7) for _ in range(m)]  # by column
+    by_row = [{c: a for c in range(m) for i, a in cols[c] if i == r} for r in range(m)]
+    assert basis_module._integer_rows(by_row, [True] * m) is None  # the rule: fractions
+    results = []
+    for integer_rows in (None, False, True):
+        basis, order = factor_lu(m, list(range(m)), cols, {}, integer_rows=integer_rows)
+        x = basis.ftran(rhs)  # by position: order[p] is the column there
+        y = basis.btran({p: cost[order[p]] for p in range(m)})  # by row
+        results.append(({order[p]: v for p, v in x.items()}, y))
+    assert results[0] == results[1] == results[2]
+    x = results[0][0]
+    expect = dense_solve(m, cols, list(range(m)), dict(rhs))
+    assert expect == [Fraction(int(x[j].numerator), int(x[j].denominator)) if j in x else 0 for j in range(m)]

@@ -25,6 +25,9 @@ from __future__ import annotations
 import heapq
 from collections import deque
 
+from gmpy2 import divexact as _divexact
+from gmpy2 import gcd as _gcd
+from gmpy2 import lcm as _lcm
 from gmpy2 import mpq, mpz
 
 ZERO = mpq(0)
@@ -499,8 +502,13 @@ def factor_lu(
     head: list[int],
     cols: list[list[tuple[int, mpq]]],
     unit_row: dict[int, tuple[int, int]],
+    integer_rows: bool | None = None,
 ) -> tuple[LUBasis, list[int]]:
     """Factor the basis of columns ``head``; return it and the position -> column list.
+
+    ``integer_rows``: eliminate the nucleus on integer rows (True), on fractions
+    (False), or as :func:`_integer_rows` decides (None).  The factors are exact
+    either way; only the pivot order and the cost can differ.
 
     Raises ArithmeticError when the columns are linearly dependent.
     """
@@ -603,6 +611,11 @@ def factor_lu(
         if ls:
             lsteps.append((r, ls))
         retire(r, c, piv)
+    # The nucleus (what the singletons leave) is eliminated on rows of integers
+    # when its denominators share one short multiple (see _integer_rows), and
+    # on rows of fractions otherwise.
+    scale = None if integer_rows is False else _integer_rows(rows, row_alive, force=bool(integer_rows))
+    ints = scale is not None
     # a lazy heap of (column count, column): stale entries are skipped when popped
     heap = [(len(colrows[c]), c) for c in remaining]
     heapq.heapify(heap)
@@ -624,45 +637,22 @@ def factor_lu(
                 raise ArithmeticError("singular basis")
             for i in sorted(colrows[c]):
                 # fill first; among equal fill, the pivot with the shortest numbers,
-                # since every multiplier and updated entry is divided by it
+                # since every multiplier and updated entry is divided by it (on
+                # integer rows, the shortest integer: it multiplies the other rows)
                 ri = rows[i]
                 fill = (len(ri) - 1) * (cc - 1)
                 if fill > best_fill >= 0:
                     continue
                 v = ri[c]
-                cost = (fill, v.numerator.bit_length() + v.denominator.bit_length())
+                cost = (fill, v.bit_length() if ints else v.numerator.bit_length() + v.denominator.bit_length())
                 if best_cost is None or cost < best_cost:
                     best, best_cost, best_fill = (i, c), cost, fill
         r, c = best
-        piv = rows[r][c]
-        # the pivot row becomes a row of U; record it by columns
-        for cj, val in rows[r].items():
-            if cj != c:
-                ucols_by_col[cj].append((r, val))
-        # eliminate column c from the other active rows
-        touched: set[int] = set()
-        ls = []
         prow = rows[r]
-        for i in sorted(colrows[c]):
-            if i == r:
-                continue
-            l = rows[i][c] / piv
-            ls.append((i, l))
-            ri = rows[i]
-            del ri[c]
-            for cj, val in prow.items():
-                if cj == c:
-                    continue
-                nv = ri.get(cj, ZERO) - l * val
-                if nv:
-                    if cj not in ri:
-                        colrows[cj].add(i)
-                        touched.add(cj)
-                    ri[cj] = nv
-                elif cj in ri:
-                    del ri[cj]
-                    colrows[cj].discard(i)
-                    touched.add(cj)
+        if ints:
+            piv, ls, touched = _eliminate_integer(r, c, rows, colrows, scale, ucols_by_col)
+        else:
+            piv, ls, touched = _eliminate_fraction(r, c, rows, colrows, ucols_by_col)
         if ls:  # a step with no multipliers changes nothing in either solve
             lsteps.append((r, ls))
         # retire the pivot row and column
@@ -685,3 +675,143 @@ def factor_lu(
     for c, r in position.items():
         new_head[r] = c
     return LUBasis(m, lsteps, ucols, position), new_head
+
+
+#: the nucleus is eliminated on integer rows only when the least common multiple
+#: of its denominators has at most INT_ROWS_SLACK + 2 x (the longest one's) bits
+INT_ROWS_SLACK = 64
+
+
+def _integer_rows(rows: list[dict], row_alive: list[bool], force: bool = False) -> dict[int, mpq] | None:
+    """Turn the nucleus's rows into primitive integer rows, in place, and return
+    each row's scale (true row ``i`` = ``scale[i] * rows[i]``); or leave them as
+    they are and return None.
+
+    Why: every entry of a Schur complement of a rational matrix is a ratio of
+    minors, so the entries of one row share long denominators, and in ``mpq``
+    each update ``a_ij - l_i a_rj`` pays two gcds of long numbers.  On integer
+    rows the same step is ``R_i <- (u R_i - v R_r)`` with ``u/v`` the pivot over
+    ``R_ic`` in lowest terms, followed by dividing out the row's content (one
+    gcd over the row): products and exact divisions of integers, with no
+    per-entry gcd.  On STAIR's optimal basis the factorisation took 113 ms on
+    fractions and 60 ms on integer rows; on PILOT4's, 48 and 34 ms; on GROW7's
+    (a small nucleus) the same.
+
+    When: scaling the whole nucleus by the least common multiple ``L`` of its
+    denominators gives an integer matrix, every later entry of which is a ratio
+    of its minors, and a primitive row holds at most those minors: no number is
+    longer than the numerators the fractions would carry, given ``L`` short.
+    Decimal data (denominators ``2^a 5^b``) always qualifies.  Denominators with
+    many different prime factors (``1/3, 1/7, 1/11, ...`` in one row) would make
+    ``L`` the product of them all, and with it every entry of the row; then the
+    rows stay fractions (``INT_ROWS_SLACK``; ``force`` turns them to integers
+    all the same, for tests).
+    """
+    live = [i for i, ri in enumerate(rows) if ri and row_alive[i]]
+    top = max((v.denominator.bit_length() for i in live for v in rows[i].values()), default=0)
+    limit = INT_ROWS_SLACK + 2 * top
+    lcm = mpz(1)
+    for i in live:
+        for v in rows[i].values():
+            d = v.denominator
+            if d != 1:
+                lcm = _lcm(lcm, d)
+                if lcm.bit_length() > limit and not force:  # given up early: no lcm grows past this
+                    return None
+    scale: dict[int, mpq] = {}
+    for i in live:
+        ri = rows[i]
+        r = {c: v.numerator * (lcm // v.denominator) for c, v in ri.items()}
+        g = _gcd(*r.values())
+        rows[i] = r if g == 1 else {c: _divexact(v, g) for c, v in r.items()}
+        scale[i] = mpq(g, lcm)
+    return scale
+
+
+def _eliminate_fraction(r, c, rows, colrows, ucols_by_col):
+    """One elimination step on rows of fractions; returns (pivot, multipliers,
+    columns whose counts changed).  The pivot row becomes a row of U."""
+    prow = rows[r]
+    piv = prow[c]
+    for cj, val in prow.items():
+        if cj != c:
+            ucols_by_col[cj].append((r, val))
+    touched: set[int] = set()
+    ls = []
+    for i in sorted(colrows[c]):
+        if i == r:
+            continue
+        ri = rows[i]
+        l = ri.pop(c) / piv
+        ls.append((i, l))
+        for cj, val in prow.items():
+            if cj == c:
+                continue
+            nv = ri.get(cj, ZERO) - l * val
+            if nv:
+                if cj not in ri:
+                    colrows[cj].add(i)
+                    touched.add(cj)
+                ri[cj] = nv
+            elif cj in ri:
+                del ri[cj]
+                colrows[cj].discard(i)
+                touched.add(cj)
+    return piv, ls, touched
+
+
+def _eliminate_integer(r, c, rows, colrows, scale, ucols_by_col):
+    """One elimination step on primitive integer rows (see :func:`_integer_rows`).
+
+    Row ``i`` is ``s_i R_i`` and the pivot row ``s_r R_r``.  The multiplier is
+    ``l = s_i R_ic / (s_r R_rc)``, and with ``g = gcd(R_rc, R_ic)``,
+    ``u = R_rc / g``, ``v = R_ic / g``:
+
+        s_i R_i - l s_r R_r = (s_i / u) (u R_i - v R_r),
+
+    whose entry in column c is ``(u R_ic - v R_rc) = 0``.  The new integer row
+    is then divided by its content ``h`` (and ``s_i`` multiplied by it), which
+    keeps it primitive and so no longer than the minors it stands for.
+    """
+    prow = rows[r]
+    sp = scale[r]
+    rpc = prow[c]
+    piv = sp * rpc
+    pitems = []
+    for cj, val in prow.items():
+        if cj != c:
+            ucols_by_col[cj].append((r, sp * val))
+            pitems.append((cj, val))
+    touched: set[int] = set()
+    ls = []
+    for i in sorted(colrows[c]):
+        if i == r:
+            continue
+        ri = rows[i]
+        ric = ri.pop(c)
+        si = scale[i]
+        ls.append((i, (si * ric) / piv))
+        g = _gcd(rpc, ric)
+        u, v = _divexact(rpc, g), _divexact(ric, g)
+        if u != 1:
+            ri = {cj: x * u for cj, x in ri.items()}
+            si = si / u
+        for cj, val in pitems:
+            nv = ri.get(cj, 0) - v * val
+            if nv:
+                if cj not in ri:
+                    colrows[cj].add(i)
+                    touched.add(cj)
+                ri[cj] = nv
+            elif cj in ri:
+                del ri[cj]
+                colrows[cj].discard(i)
+                touched.add(cj)
+        if ri:
+            h = _gcd(*ri.values())
+            if h != 1:
+                ri = {cj: _divexact(x, h) for cj, x in ri.items()}
+                si = si * h
+        rows[i] = ri
+        scale[i] = si
+    return piv, ls, touched
