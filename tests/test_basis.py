@@ -127,7 +127,7 @@ def test_every_factorisation_agrees_after_updates(scale_bits):
     from fractions import Fraction as F
 
     rng = random.Random(3)
-    updated = 0
+    updated = row_scaled = 0
     for m, cols, unit, head in random_bases():
         try:
             group = [f(m, head, cols, unit) for f in FACTORS.values()]
@@ -170,7 +170,22 @@ def test_every_factorisation_agrees_after_updates(scale_bits):
             scaled = bits > scale_bits and bits <= basis_module.SCALE_MAX_BITS and not b.nested and (
                 seen is None or (seen >= basis_module.SCALE_MIN_SEEN and bits <= basis_module.SCALE_RATIO * seen))
             assert b.scale == (abs(b.det.numerator) if scaled else None)
-    assert updated > 300
+            row_scaled += check_row_scaled(b)
+    assert updated > 300 and row_scaled > 100
+
+
+def check_row_scaled(b):
+    """The integer copy of U that scaled ftrans use (LUBasis.fcols) must be U with
+    row r multiplied by rowden[r], entry for entry, after any run of updates."""
+    fc = getattr(b, "fcols", None)
+    if fc is None:
+        return False
+    den = b.rowden
+    assert len(fc) == len(b.ucols)
+    for (r, ukk, above), (fr, fkk, fabove) in zip(b.ucols, fc):
+        assert fr == r and fkk == ukk * den[r]
+        assert dict(fabove) == {rj: u * den[rj] for rj, u in dict(above).items()}
+    return True
 
 
 def test_pivot_path_does_not_depend_on_the_factorisation(monkeypatch):

@@ -31,6 +31,7 @@ from gmpy2 import lcm as _lcm
 from gmpy2 import mpq, mpz
 
 ZERO = mpq(0)
+ONE_Z = mpz(1)
 
 #: Solves scale their vector by the numerator ``D`` of ``det B`` once it has more
 #: bits than this (see :meth:`EtaBasis._set_scale`) ...
@@ -263,10 +264,14 @@ class LUBasis(EtaBasis):
     :class:`EtaBasis`, and applied after (ftran) or before (btran) the LU part.
     """
 
-    def __init__(self, m: int, lsteps, ucols, pivots) -> None:
+    def __init__(self, m: int, lsteps, ucols, pivots, fcols=None, rowden=None) -> None:
         super().__init__(m, [1] * m)
         self.lsteps = lsteps  # [(r_k, [(i, l_ik), ...])] in elimination order
         self.ucols = ucols  # [(r_k, u_kk, [(r_j, u_jk) for j < k])] in elimination order
+        # the same with row r multiplied by rowden[r] (integers, where the nucleus was
+        # eliminated on integer rows), for the scaled back-substitution; or None
+        self.fcols = fcols
+        self.rowden = rowden
         self.pivots = pivots
         #: nonzeros of L and U (the diagonal included): the cost of one solve with the factors
         self.lu_nonzeros = sum(len(ls) for _, ls in lsteps) + sum(len(above) + 1 for _, _, above in ucols)
@@ -313,6 +318,42 @@ class LUBasis(EtaBasis):
                     v.pop(rj, None)
         return x
 
+    def _upper_scaled(self, v: dict[int, mpq]) -> dict[int, mpq]:
+        """``U^-1 v`` for a scaled solve (``v`` is used up), on U's rows made integers.
+
+        Multiplying row r of ``U x = v`` by ``d_r`` (``rowden``) changes nothing
+        in ``x``: back-substitution on ``d_r U_r. x = d_r v_r`` gives the same
+        values.  But in a scaled solve the entries of ``x`` (``D B^-1 a``) are
+        short fractions, and so is every partial sum ``w_r = d_r v_r - ...``
+        (each is ``d_r U_r. x`` over the columns still to come, integers times
+        short fractions); so every product and difference below meets only short
+        denominators, where U's own entries (ratios of minors, long over long)
+        cost a gcd of long numbers each.  Only the division by ``d_r u_kk``, once
+        per nonzero of ``x``, and the first ``d_r v_r`` meet a long one.
+        """
+        fc = self.fcols
+        if fc is None:
+            return self._upper(v)
+        den = self.rowden
+        w: dict[int, mpq] = {}
+        for r, a in v.items():
+            dr = den[r]
+            w[r] = a if dr == 1 else a * dr
+        x: dict[int, mpq] = {}
+        for r, ukk, above in reversed(fc):
+            t = w.get(r)
+            if not t:
+                continue
+            t = t / ukk
+            x[r] = t
+            for rj, u in (above.items() if type(above) is dict else above):
+                nv = w.get(rj, ZERO) - u * t
+                if nv:
+                    w[rj] = nv
+                else:
+                    w.pop(rj, None)
+        return x
+
     def _upper_t(self, u: list[mpq]) -> list[mpq]:
         """``w`` with ``w^T U = u^T``, forward by the columns of U."""
         w = [ZERO] * self.m
@@ -340,7 +381,7 @@ class LUBasis(EtaBasis):
         d = self.scale
         if d is None:
             return self._saw(self._etas_forward(self._upper(self._lower(col))))
-        return self._saw(_down(self._etas_forward(self._upper(_up(self._lower(col), d))), d))
+        return self._saw(_down(self._etas_forward(self._upper_scaled(_up(self._lower(col), d))), d))
 
     def btran_scaled(self, cb):
         d = self.scale
@@ -367,8 +408,8 @@ class FTBasis(LUBasis):
                 ``w_(r_j) -= z_j w_p``;  then L as in :class:`LUBasis`.
     """
 
-    def __init__(self, m: int, lsteps, ucols, pivots) -> None:
-        super().__init__(m, lsteps, ucols, pivots)
+    def __init__(self, m: int, lsteps, ucols, pivots, fcols=None, rowden=None) -> None:
+        super().__init__(m, lsteps, ucols, pivots, fcols, rowden)
         self.rsteps: list[tuple[int, list[tuple[int, mpq]]]] = []  # row etas, in order
         self._last = None
         # Until the first update this is the plain LU (its solves, its lists: a warm
@@ -379,6 +420,8 @@ class FTBasis(LUBasis):
 
     def _to_dicts(self) -> None:
         self.ucols = [(r, ukk, dict(above)) for r, ukk, above in self.ucols]
+        if self.fcols is not None:
+            self.fcols = [(r, ukk, dict(above)) for r, ukk, above in self.fcols]
         self._dicts = True
 
     def _spike(self, col) -> dict[int, mpq]:
@@ -403,7 +446,7 @@ class FTBasis(LUBasis):
         # kept for replace(): the simplex updates with the column it last solved for
         self._last = (col, dict(v))
         d = self.scale
-        return self._saw(self._upper(v) if d is None else _down(self._upper(_up(v, d)), d))
+        return self._saw(self._upper(v) if d is None else _down(self._upper_scaled(_up(v, d)), d))
 
     def ftran_scaled(self, col):
         # Until the first update (the first ftran after each factorisation) the
@@ -416,7 +459,7 @@ class FTBasis(LUBasis):
         d = self.scale
         if d is None:
             return self._saw(self._upper(v)), None
-        return self._upper(_up(v, d)), d
+        return self._upper_scaled(_up(v, d)), d
 
     def btran_scaled(self, cb):
         if not self._dicts:
@@ -451,7 +494,7 @@ class FTBasis(LUBasis):
         last = self._last
         spike = last[1] if last is not None and last[0] is col else self._spike(col)
         self._last = None
-        ucols = self.ucols
+        ucols, fc = self.ucols, self.fcols
         k = next(i for i, (r, _, _) in enumerate(ucols) if r == p)
         # multipliers z (by pivot row) that clear row p from the columns after k:
         # column j's entry in row p, less what the earlier multipliers took, over u_jj
@@ -459,6 +502,8 @@ class FTBasis(LUBasis):
         for j in range(k + 1, len(ucols)):
             r, ujj, above = ucols[j]
             t = above.pop(p, None)  # row p leaves this column: R_new makes that entry zero
+            if fc is not None and t is not None:
+                del fc[j][2][p]
             if t is None:
                 if not z:
                     continue
@@ -485,6 +530,12 @@ class FTBasis(LUBasis):
             raise ArithmeticError("singular basis after an update")
         del ucols[k]
         ucols.append((p, d, {i: v for i, v in sorted(spike.items()) if i != p and v}))
+        if fc is not None:
+            # the spike's rows scaled as the rest of U's (row p keeps its d_p)
+            den = self.rowden
+            del fc[k]
+            fc.append((p, d if den[p] == 1 else d * den[p],
+                       {i: (v if den[i] == 1 else v * den[i]) for i, v in ucols[-1][2].items()}))
         if z:
             self.rsteps.append((p, list(z.items())))
         self.eta_nonzeros += len(z) + len(ucols[-1][2]) + 1
@@ -494,7 +545,7 @@ class FTBasis(LUBasis):
 def factor_ft(m, head, cols, unit_row):
     """:func:`factor_lu`, as an :class:`FTBasis` (Forrest-Tomlin updates on top)."""
     lu, new_head = factor_lu(m, head, cols, unit_row)
-    return FTBasis(m, lu.lsteps, lu.ucols, lu.pivots), new_head
+    return FTBasis(m, lu.lsteps, lu.ucols, lu.pivots, lu.fcols, lu.rowden), new_head
 
 
 def factor_lu(
@@ -616,6 +667,8 @@ def factor_lu(
     # on rows of fractions otherwise.
     scale = None if integer_rows is False else _integer_rows(rows, row_alive, force=bool(integer_rows))
     ints = scale is not None
+    # the rows of U from integer rows, scaled to integers: {column: {row: d_r u_rc}}
+    uint: dict[int, dict[int, mpz]] = {}
     # a lazy heap of (column count, column): stale entries are skipped when popped
     heap = [(len(colrows[c]), c) for c in remaining]
     heapq.heapify(heap)
@@ -650,7 +703,7 @@ def factor_lu(
         r, c = best
         prow = rows[r]
         if ints:
-            piv, ls, touched = _eliminate_integer(r, c, rows, colrows, scale, ucols_by_col)
+            piv, ls, touched = _eliminate_integer(r, c, rows, colrows, scale, ucols_by_col, uint)
         else:
             piv, ls, touched = _eliminate_fraction(r, c, rows, colrows, ucols_by_col)
         if ls:  # a step with no multipliers changes nothing in either solve
@@ -674,7 +727,58 @@ def factor_lu(
     new_head = [-1] * m
     for c, r in position.items():
         new_head[r] = c
-    return LUBasis(m, lsteps, ucols, position), new_head
+    fcols, rowden = _row_scaled(m, order, ucols, scale, uint) if ints else (None, None)
+    return LUBasis(m, lsteps, ucols, position, fcols, rowden), new_head
+
+
+def _row_scaled(m, order, ucols, scale, uint):
+    """U with each row ``r`` multiplied by a multiple ``d_r`` of its denominators,
+    by column as ``ucols``; and the ``d_r`` by row (see :meth:`LUBasis._upper_scaled`).
+
+    A row of U made from an integer row ``s_r R_r`` is ``n_r R_r / d_r``
+    (``s_r = n_r / d_r``), and its integers ``n_r R_r`` were recorded during
+    the elimination (``uint``, by column then row).  The other rows hold the
+    model's own entries (short): ``d_r`` is the least common multiple of their
+    denominators, or 1 when that is long (past ``INT_ROWS_SLACK`` + twice the
+    longest), and then the row stays as it is.
+    """
+    rowden: list = [None] * m
+    for r, s in scale.items():
+        rowden[r] = s.denominator
+    lcms: dict[int, mpz] = {}
+    tops: dict[int, int] = {}
+
+    def meet(r: int, v: mpq) -> None:
+        d = v.denominator
+        if d != 1:
+            lcms[r] = _lcm(lcms.get(r, ONE_Z), d)
+            tops[r] = max(tops.get(r, 0), d.bit_length())
+
+    for r, ukk, above in ucols:
+        if rowden[r] is None:
+            meet(r, ukk)
+        for rj, u in above:
+            if rowden[rj] is None:
+                meet(rj, u)
+    for r in range(m):
+        if rowden[r] is None:
+            d = lcms.get(r, ONE_Z)
+            rowden[r] = d if d.bit_length() <= INT_ROWS_SLACK + 2 * tops.get(r, 0) else ONE_Z
+    fcols = []
+    for c, (r, ukk, above) in zip(order, ucols):
+        rec = uint.get(c, {})
+        row = []
+        for rj, u in above:
+            v = rec.get(rj)
+            if v is None:
+                dj = rowden[rj]
+                v = u if dj == 1 else u * dj
+            row.append((rj, v))
+        v = rec.get(r)
+        if v is None:
+            v = ukk if rowden[r] == 1 else ukk * rowden[r]
+        fcols.append((r, v, row))
+    return fcols, rowden
 
 
 #: the nucleus is eliminated on integer rows only when the least common multiple
@@ -760,7 +864,7 @@ def _eliminate_fraction(r, c, rows, colrows, ucols_by_col):
     return piv, ls, touched
 
 
-def _eliminate_integer(r, c, rows, colrows, scale, ucols_by_col):
+def _eliminate_integer(r, c, rows, colrows, scale, ucols_by_col, uint):
     """One elimination step on primitive integer rows (see :func:`_integer_rows`).
 
     Row ``i`` is ``s_i R_i`` and the pivot row ``s_r R_r``.  The multiplier is
@@ -777,10 +881,13 @@ def _eliminate_integer(r, c, rows, colrows, scale, ucols_by_col):
     sp = scale[r]
     rpc = prow[c]
     piv = sp * rpc
+    n = sp.numerator  # row r of U is (n R_r) / (the denominator of s_r): keep both forms
+    uint.setdefault(c, {})[r] = n * rpc
     pitems = []
     for cj, val in prow.items():
         if cj != c:
             ucols_by_col[cj].append((r, sp * val))
+            uint.setdefault(cj, {})[r] = n * val
             pitems.append((cj, val))
     touched: set[int] = set()
     ls = []
