@@ -264,14 +264,16 @@ class LUBasis(EtaBasis):
     :class:`EtaBasis`, and applied after (ftran) or before (btran) the LU part.
     """
 
-    def __init__(self, m: int, lsteps, ucols, pivots, fcols=None, rowden=None) -> None:
+    def __init__(self, m: int, lsteps, ucols, pivots, fsrc=None) -> None:
         super().__init__(m, [1] * m)
         self.lsteps = lsteps  # [(r_k, [(i, l_ik), ...])] in elimination order
         self.ucols = ucols  # [(r_k, u_kk, [(r_j, u_jk) for j < k])] in elimination order
-        # the same with row r multiplied by rowden[r] (integers, where the nucleus was
-        # eliminated on integer rows), for the scaled back-substitution; or None
-        self.fcols = fcols
-        self.rowden = rowden
+        # the same with row r multiplied by rowden[r] (integers where the nucleus was
+        # eliminated on integer rows), for the scaled back-substitution; built by the
+        # first one from what the elimination recorded (fsrc), or never
+        self.fcols = None
+        self.rowden = None
+        self._fsrc = fsrc
         self.pivots = pivots
         #: nonzeros of L and U (the diagonal included): the cost of one solve with the factors
         self.lu_nonzeros = sum(len(ls) for _, ls in lsteps) + sum(len(above) + 1 for _, _, above in ucols)
@@ -333,7 +335,12 @@ class LUBasis(EtaBasis):
         """
         fc = self.fcols
         if fc is None:
-            return self._upper(v)
+            if self._fsrc is None:
+                return self._upper(v)
+            order, scale, uint = self._fsrc
+            self._fsrc = None
+            self.fcols, self.rowden = _row_scaled(self.m, order, self.ucols, scale, uint)
+            fc = self.fcols
         den = self.rowden
         w: dict[int, mpq] = {}
         for r, a in v.items():
@@ -408,8 +415,8 @@ class FTBasis(LUBasis):
                 ``w_(r_j) -= z_j w_p``;  then L as in :class:`LUBasis`.
     """
 
-    def __init__(self, m: int, lsteps, ucols, pivots, fcols=None, rowden=None) -> None:
-        super().__init__(m, lsteps, ucols, pivots, fcols, rowden)
+    def __init__(self, m: int, lsteps, ucols, pivots, fsrc=None) -> None:
+        super().__init__(m, lsteps, ucols, pivots, fsrc)
         self.rsteps: list[tuple[int, list[tuple[int, mpq]]]] = []  # row etas, in order
         self._last = None
         # Until the first update this is the plain LU (its solves, its lists: a warm
@@ -420,6 +427,7 @@ class FTBasis(LUBasis):
 
     def _to_dicts(self) -> None:
         self.ucols = [(r, ukk, dict(above)) for r, ukk, above in self.ucols]
+        self._fsrc = None  # the integer copy is built before the first update or not at all
         if self.fcols is not None:
             self.fcols = [(r, ukk, dict(above)) for r, ukk, above in self.fcols]
         self._dicts = True
@@ -542,10 +550,10 @@ class FTBasis(LUBasis):
         self.updates += 1
 
 
-def factor_ft(m, head, cols, unit_row):
+def factor_ft(m, head, cols, unit_row, integer_rows=None):
     """:func:`factor_lu`, as an :class:`FTBasis` (Forrest-Tomlin updates on top)."""
-    lu, new_head = factor_lu(m, head, cols, unit_row)
-    return FTBasis(m, lu.lsteps, lu.ucols, lu.pivots, lu.fcols, lu.rowden), new_head
+    lu, new_head = factor_lu(m, head, cols, unit_row, integer_rows)
+    return FTBasis(m, lu.lsteps, lu.ucols, lu.pivots, lu._fsrc), new_head
 
 
 def factor_lu(
@@ -662,11 +670,13 @@ def factor_lu(
         if ls:
             lsteps.append((r, ls))
         retire(r, c, piv)
-    # The nucleus (what the singletons leave) is eliminated on rows of integers
-    # when its denominators share one short multiple (see _integer_rows), and
-    # on rows of fractions otherwise.
-    scale = None if integer_rows is False else _integer_rows(rows, row_alive, force=bool(integer_rows))
+    # The nucleus (what the singletons leave) is eliminated on rows of fractions
+    # while its numbers are short, and on integer rows from the first pivot
+    # longer than INT_ROWS_BITS, if each row's denominators share a short
+    # multiple (see _integer_rows); integer_rows=True: integer rows throughout.
+    scale = _integer_rows(rows, row_alive, force=True) if integer_rows else None
     ints = scale is not None
+    may_switch = integer_rows is None
     # the rows of U from integer rows, scaled to integers: {column: {row: d_r u_rc}}
     uint: dict[int, dict[int, mpz]] = {}
     # a lazy heap of (column count, column): stale entries are skipped when popped
@@ -702,6 +712,10 @@ def factor_lu(
                     best, best_cost, best_fill = (i, c), cost, fill
         r, c = best
         prow = rows[r]
+        if may_switch and best_cost[1] > INT_ROWS_BITS:
+            may_switch = False  # one try: the rows stay fractions if it fails
+            scale = _integer_rows(rows, row_alive)
+            ints = scale is not None
         if ints:
             piv, ls, touched = _eliminate_integer(r, c, rows, colrows, scale, ucols_by_col, uint)
         else:
@@ -727,8 +741,7 @@ def factor_lu(
     new_head = [-1] * m
     for c, r in position.items():
         new_head[r] = c
-    fcols, rowden = _row_scaled(m, order, ucols, scale, uint) if ints else (None, None)
-    return LUBasis(m, lsteps, ucols, position, fcols, rowden), new_head
+    return LUBasis(m, lsteps, ucols, position, (order, scale, uint) if ints else None), new_head
 
 
 def _row_scaled(m, order, ucols, scale, uint):
@@ -781,13 +794,21 @@ def _row_scaled(m, order, ucols, scale, uint):
     return fcols, rowden
 
 
-#: the nucleus is eliminated on integer rows only when the least common multiple
-#: of its denominators has at most INT_ROWS_SLACK + 2 x (the longest one's) bits
+#: the nucleus is eliminated on integer rows from its first pivot longer than
+#: this (numerator and denominator bits).  On short numbers the fractions are
+#: cheaper: the bases of DEGEN2's and BANDM's cold solves (pivots of 5 to 600
+#: bits) took twice as long on integer rows throughout.  On long ones the
+#: integer rows are (STAIR's optimal basis, 60 ms against 113 ms).  With the
+#: switch at 1,024 bits, the 66 bases of STAIR's cold solve took 1.2-1.4 s
+#: against 1.7-1.8 s on fractions, GROW7's 35 about the same, BANDM's none
+INT_ROWS_BITS = 1024
+#: a row becomes an integer row only if the least common multiple of its
+#: denominators has at most INT_ROWS_SLACK + 2 x (the longest one's) bits
 INT_ROWS_SLACK = 64
 
 
 def _integer_rows(rows: list[dict], row_alive: list[bool], force: bool = False) -> dict[int, mpq] | None:
-    """Turn the nucleus's rows into primitive integer rows, in place, and return
+    """Turn the active rows into primitive integer rows, in place, and return
     each row's scale (true row ``i`` = ``scale[i] * rows[i]``); or leave them as
     they are and return None.
 
@@ -798,32 +819,35 @@ def _integer_rows(rows: list[dict], row_alive: list[bool], force: bool = False) 
     ``R_ic`` in lowest terms, followed by dividing out the row's content (one
     gcd over the row): products and exact divisions of integers, with no
     per-entry gcd.  On STAIR's optimal basis the factorisation took 113 ms on
-    fractions and 60 ms on integer rows; on PILOT4's, 48 and 34 ms; on GROW7's
-    (a small nucleus) the same.
+    fractions and 60 ms on integer rows; on PILOT4's, 48 and 34 ms.  On short
+    numbers the extra passes over each row cost more than the gcds they save,
+    hence INT_ROWS_BITS.
 
-    When: scaling the whole nucleus by the least common multiple ``L`` of its
+    When: multiplying each row by the least common multiple ``L_i`` of its
     denominators gives an integer matrix, every later entry of which is a ratio
     of its minors, and a primitive row holds at most those minors: no number is
-    longer than the numerators the fractions would carry, given ``L`` short.
-    Decimal data (denominators ``2^a 5^b``) always qualifies.  Denominators with
-    many different prime factors (``1/3, 1/7, 1/11, ...`` in one row) would make
-    ``L`` the product of them all, and with it every entry of the row; then the
-    rows stay fractions (``INT_ROWS_SLACK``; ``force`` turns them to integers
-    all the same, for tests).
+    longer than the numerators the fractions would carry, given each ``L_i``
+    short.  Rows whose entries share their denominators (decimal data, or the
+    rows of a Schur complement) qualify.  Denominators with many different
+    prime factors (``1/3, 1/7, 1/11, ...`` in one row) would make ``L_i`` the
+    product of them all, and with it every entry of the row; then all rows stay
+    fractions (``INT_ROWS_SLACK``; ``force`` turns them to integers all the
+    same, for tests).
     """
     live = [i for i, ri in enumerate(rows) if ri and row_alive[i]]
-    top = max((v.denominator.bit_length() for i in live for v in rows[i].values()), default=0)
-    limit = INT_ROWS_SLACK + 2 * top
-    lcm = mpz(1)
+    lcms = []
     for i in live:
-        for v in rows[i].values():
-            d = v.denominator
+        dens = [v.denominator for v in rows[i].values()]
+        limit = INT_ROWS_SLACK + 2 * max(d.bit_length() for d in dens)
+        lcm = ONE_Z
+        for d in dens:
             if d != 1:
                 lcm = _lcm(lcm, d)
                 if lcm.bit_length() > limit and not force:  # given up early: no lcm grows past this
                     return None
+        lcms.append(lcm)
     scale: dict[int, mpq] = {}
-    for i in live:
+    for i, lcm in zip(live, lcms):
         ri = rows[i]
         r = {c: v.numerator * (lcm // v.denominator) for c, v in ri.items()}
         g = _gcd(*r.values())
