@@ -671,9 +671,10 @@ def factor_lu(
             lsteps.append((r, ls))
         retire(r, c, piv)
     # The nucleus (what the singletons leave) is eliminated on rows of fractions
-    # while its numbers are short, and on integer rows from the first pivot
-    # longer than INT_ROWS_BITS, if each row's denominators share a short
-    # multiple (see _integer_rows); integer_rows=True: integer rows throughout.
+    # while its numbers are short, and on integer rows once a multiplier's
+    # denominator is longer than INT_ROWS_BITS, if each row's denominators share
+    # a short multiple (see _integer_rows); integer_rows=True: integer rows
+    # throughout.
     scale = _integer_rows(rows, row_alive, force=True) if integer_rows else None
     ints = scale is not None
     may_switch = integer_rows is None
@@ -712,14 +713,14 @@ def factor_lu(
                     best, best_cost, best_fill = (i, c), cost, fill
         r, c = best
         prow = rows[r]
-        if may_switch and best_cost[1] > INT_ROWS_BITS:
-            may_switch = False  # one try: the rows stay fractions if it fails
-            scale = _integer_rows(rows, row_alive)
-            ints = scale is not None
         if ints:
             piv, ls, touched = _eliminate_integer(r, c, rows, colrows, scale, ucols_by_col, uint)
         else:
-            piv, ls, touched = _eliminate_fraction(r, c, rows, colrows, ucols_by_col)
+            piv, ls, touched, longest = _eliminate_fraction(r, c, rows, colrows, ucols_by_col)
+            if may_switch and longest > INT_ROWS_BITS:
+                may_switch = False  # one try: the rows stay fractions if it fails
+                scale = _integer_rows(rows, row_alive)
+                ints = scale is not None
         if ls:  # a step with no multipliers changes nothing in either solve
             lsteps.append((r, ls))
         # retire the pivot row and column
@@ -794,14 +795,15 @@ def _row_scaled(m, order, ucols, scale, uint):
     return fcols, rowden
 
 
-#: the nucleus is eliminated on integer rows from its first pivot longer than
-#: this (numerator and denominator bits).  On short numbers the fractions are
-#: cheaper: the bases of DEGEN2's and BANDM's cold solves (pivots of 5 to 600
-#: bits) took twice as long on integer rows throughout.  On long ones the
-#: integer rows are (STAIR's optimal basis, 60 ms against 113 ms).  With the
-#: switch at 1,024 bits, the 66 bases of STAIR's cold solve took 1.2-1.4 s
-#: against 1.7-1.8 s on fractions, GROW7's 35 about the same, BANDM's none
-INT_ROWS_BITS = 1024
+#: the nucleus is eliminated on fractions until a multiplier's denominator has
+#: more bits than this, and on integer rows from there.  On short numbers the
+#: fractions are cheaper: the bases of DEGEN2's and BANDM's cold solves took
+#: twice as long on integer rows throughout.  On long ones the integer rows are:
+#: STAIR's optimal basis took 81 ms against 120 ms on fractions, PILOT4's 46
+#: against 58, and the 66 bases of STAIR's cold solve 1.0 s against 1.4 s (at
+#: 256 bits BANDM's switched too, and were no faster; at 1,024, STAIR's optimal
+#: basis switched late and took 100 ms)
+INT_ROWS_BITS = 512
 #: a row becomes an integer row only if the least common multiple of its
 #: denominators has at most INT_ROWS_SLACK + 2 x (the longest one's) bits
 INT_ROWS_SLACK = 64
@@ -858,7 +860,8 @@ def _integer_rows(rows: list[dict], row_alive: list[bool], force: bool = False) 
 
 def _eliminate_fraction(r, c, rows, colrows, ucols_by_col):
     """One elimination step on rows of fractions; returns (pivot, multipliers,
-    columns whose counts changed).  The pivot row becomes a row of U."""
+    columns whose counts changed, the longest multiplier's denominator in bits).
+    The pivot row becomes a row of U."""
     prow = rows[r]
     piv = prow[c]
     for cj, val in prow.items():
@@ -866,12 +869,16 @@ def _eliminate_fraction(r, c, rows, colrows, ucols_by_col):
             ucols_by_col[cj].append((r, val))
     touched: set[int] = set()
     ls = []
+    longest = 0
     for i in sorted(colrows[c]):
         if i == r:
             continue
         ri = rows[i]
         l = ri.pop(c) / piv
         ls.append((i, l))
+        bits = l.denominator.bit_length()
+        if bits > longest:
+            longest = bits
         for cj, val in prow.items():
             if cj == c:
                 continue
@@ -885,7 +892,7 @@ def _eliminate_fraction(r, c, rows, colrows, ucols_by_col):
                 del ri[cj]
                 colrows[cj].discard(i)
                 touched.add(cj)
-    return piv, ls, touched
+    return piv, ls, touched, longest
 
 
 def _eliminate_integer(r, c, rows, colrows, scale, ucols_by_col, uint):
