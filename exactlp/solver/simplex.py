@@ -82,7 +82,7 @@ from __future__ import annotations
 import time
 from dataclasses import dataclass
 
-from gmpy2 import mpq
+from gmpy2 import mpq, mpz
 
 from .basis import EtaBasis, factor_ft
 
@@ -142,21 +142,47 @@ def _gain(dj: mpq, state: int) -> mpq | None:
     return None
 
 
-def _log16(v: mpq) -> int:
-    """About 16 log2 |v| as an integer (v nonzero), within 0.15 bit.
+def _mantissa_table() -> tuple[int, ...]:
+    """``floor(16 log2 (M / 128))`` for ``M = 128 .. 255``, in integers: the
+    largest ``t`` with ``2^t 128^16 <= M^16``."""
+    out = []
+    for m in range(128, 256):
+        t = 0
+        while t < 15 and (1 << (t + 1)) * 128**16 <= m**16:
+            t += 1
+        out.append(t)
+    return tuple(out)
 
-    Each side contributes ``16 (bits - 1) + (leading five bits - 16)``: the bit
-    length gives the integer part and the next four bits a linear estimate of
-    the fraction, ``log2(1 + f) ~ f``.  Integer arithmetic only.
+
+_MANTISSA16 = _mantissa_table()
+
+
+def _log16_of(n, d) -> int:
+    """:func:`_log16` of ``n / d`` (positive integers, in lowest terms or not)."""
+    # |v| = n / d lies in [2^(e-1), 2^(e+1)); q = floor(|v| 2^(7-e)) in [64, 256)
+    e = n.bit_length() - d.bit_length()
+    k = 7 - e
+    q = (n << k) // d if k >= 0 else n // (d << -k)
+    if q < 128:  # |v| < 2^e: E = e - 1
+        e -= 1
+        k += 1
+        q = (n << k) // d if k >= 0 else n // (d << -k)
+    return 16 * e + _MANTISSA16[q - 128]
+
+
+def _log16(v: mpq) -> int:
+    """About 16 log2 |v| as an integer (v nonzero), at most 0.08 bit under it.
+
+    ``16 E + floor(16 log2 (M / 128))`` with ``2^E <= |v| < 2^(E+1)`` and
+    ``M = floor(|v| 2^(7-E))``, the leading eight bits of the value.  Both are
+    functions of the value alone, found by one integer division of short
+    quotient, so any fraction equal to ``v`` gives the same result
+    (:func:`_log16_of` takes ``v`` unreduced: the devex update reads
+    ``alpha_pj`` as ``(D alpha_pj) / D`` without dividing, and the pivot path
+    does not depend on whether the solves were scaled).  Integer arithmetic only.
     """
-    n, d = v.numerator, v.denominator
-    if n < 0:
-        n = -n
-    bn, bd = n.bit_length(), d.bit_length()
-    # (one function, no helper calls: the devex update runs this twice per entry of a tableau row)
-    tn = n >> (bn - 5) if bn > 5 else n << (5 - bn)
-    td = d >> (bd - 5) if bd > 5 else d << (5 - bd)
-    return 16 * (bn - bd) + int(tn - td)
+    n = v.numerator
+    return _log16_of(-n if n < 0 else n, v.denominator)
 
 
 #: rebuild the eta file after this many updates
@@ -576,23 +602,28 @@ class Simplex:
         """
         theta = d[q] / alpha_pq  # type: ignore[operator]
         d[q] = None
-        acc = self._tableau_row(p)
+        # the row comes as D alpha_pj when the solves are scaled: then
+        # d_j -= (theta / D) (D alpha_pj), one division in all instead of one a column
+        acc, scale = self._tableau_row(p)
+        step = theta if scale is None else theta / scale
         score = self.scores  # None unless the guarded rule has priced by weights
         if score is None:
             for j, v in acc.items():
                 dj = d[j]
                 if dj is not None and v:
-                    d[j] = dj - theta * v
+                    d[j] = dj - step * v
         else:
             # devex: w_j = max(w_j, (alpha_pj / alpha_pq)^2 w_q), w_b = max(w_q / alpha_pq^2, 1),
-            # here as 16 log2 of each
+            # here as 16 log2 of each (of alpha_pj read as (D alpha_pj) / D, undivided)
             w = self.weights
             wq = w[q] - 2 * _log16(alpha_pq)
             for j, v in acc.items():
                 dj = d[j]
                 if dj is not None and v:
-                    dj = d[j] = dj - theta * v
-                    wj = wq + 2 * _log16(v)
+                    dj = d[j] = dj - step * v
+                    n = v.numerator
+                    wj = wq + 2 * _log16_of(-n if n < 0 else n,
+                                            v.denominator if scale is None else v.denominator * scale)
                     if wj > w[j]:
                         w[j] = wj
                     score[j] = 2 * _log16(dj) - w[j] if dj else 0
@@ -605,15 +636,16 @@ class Simplex:
             if score is not None:
                 score[b] = 2 * _log16(theta) - self.weights[b]
 
-    def _tableau_row(self, p: int) -> dict[int, mpq]:
-        """Row p of ``B^-1 A`` at the nonbasic columns: ``rho . a_j`` for each j.
+    def _tableau_row(self, p: int) -> tuple[dict[int, mpq], mpz | None]:
+        """Row p of ``B^-1 A`` at the nonbasic columns, ``rho . a_j`` for each j,
+        as ``(D rho . a_j, D)`` when the solves are scaled, else ``(..., None)``.
 
         ``rho = e_p^T B^-1`` by one btran; then only the rows of A where rho
         is nonzero are read, which is cheap when rho is sparse.
         """
         # the btran's scaled row ``D rho`` has (nearly) integer entries, so the
-        # sums below meet only the short denominators of A; each sum is divided
-        # by ``D`` once (see basis.EtaBasis._set_scale)
+        # sums below meet only the short denominators of A; they are left scaled
+        # (see basis.EtaBasis._set_scale and _update_reduced_costs)
         rho, d = self.basis.btran_scaled({p: ONE})
         rows, state = self._rows(), self.state
         acc: dict[int, mpq] = {}
@@ -623,10 +655,7 @@ class Simplex:
                 for j, a in rows[i]:
                     if state[j] != BASIC:
                         acc[j] = get(j, ZERO) + r * a
-        if d is not None:
-            for j, v in acc.items():
-                acc[j] = v / d
-        return acc
+        return acc, d
 
     def _rows(self) -> list[list[tuple[int, mpq]]]:
         """The columns read by rows (kept until the set of columns changes)."""
