@@ -159,15 +159,14 @@ _MANTISSA16 = _mantissa_table()
 
 def _log16_of(n, d) -> int:
     """:func:`_log16` of ``n / d`` (positive integers, in lowest terms or not)."""
-    # |v| = n / d lies in [2^(e-1), 2^(e+1)); q = floor(|v| 2^(7-e)) in [64, 256)
+    # |v| = n / d lies in [2^(e-1), 2^(e+1)); q = floor(|v| 2^(8-e)) in [128, 512):
+    # at 256 or more E = e and M = floor(q / 2) (= floor(|v| 2^(7-e))), else E = e - 1, M = q
     e = n.bit_length() - d.bit_length()
-    k = 7 - e
+    k = 8 - e
     q = (n << k) // d if k >= 0 else n // (d << -k)
-    if q < 128:  # |v| < 2^e: E = e - 1
-        e -= 1
-        k += 1
-        q = (n << k) // d if k >= 0 else n // (d << -k)
-    return 16 * e + _MANTISSA16[q - 128]
+    if q >= 256:
+        return 16 * e + _MANTISSA16[(q >> 1) - 128]
+    return 16 * e - 16 + _MANTISSA16[q - 128]
 
 
 def _log16(v: mpq) -> int:
@@ -617,16 +616,20 @@ class Simplex:
             # here as 16 log2 of each (of alpha_pj read as (D alpha_pj) / D, undivided)
             w = self.weights
             wq = w[q] - 2 * _log16(alpha_pq)
+            log16 = _log16_of
             for j, v in acc.items():
                 dj = d[j]
                 if dj is not None and v:
                     dj = d[j] = dj - step * v
                     n = v.numerator
-                    wj = wq + 2 * _log16_of(-n if n < 0 else n,
-                                            v.denominator if scale is None else v.denominator * scale)
+                    wj = wq + 2 * log16(-n if n < 0 else n, v.denominator if scale is None else v.denominator * scale)
                     if wj > w[j]:
                         w[j] = wj
-                    score[j] = 2 * _log16(dj) - w[j] if dj else 0
+                    if dj:
+                        n = dj.numerator
+                        score[j] = 2 * log16(-n if n < 0 else n, dj.denominator) - w[j]
+                    else:
+                        score[j] = 0
             w[b] = max(wq, 0)
         lo, hi = self.lower[b], self.upper[b]
         if lo is not None and hi is not None and lo == hi:
