@@ -1,4 +1,10 @@
-"""The long differential run: python tests/long_differential.py N (random models against scipy HiGHS)."""
+"""The long differential run: python tests/long_differential.py N [--forced]
+(N random models against scipy HiGHS).
+
+--forced: the nucleus of every factorisation on integer rows from its first
+step, every basis solve scaled, and every reduced-cost and dual update checked
+against a recomputation (the paths the Netlib problems take only on long numbers).
+"""
 import sys
 import time
 from pathlib import Path
@@ -7,6 +13,14 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 from tests.helpers import exact_violation, float_ray_holds, scipy_solve, solve_verified
 from tests.strategies import lp_models
 N = int(sys.argv[1])
+if "--forced" in sys.argv[2:]:
+    import exactlp.solver.basis as basis_module
+    import exactlp.solver.simplex as simplex_module
+
+    basis_module.INT_ROWS_BITS = 0
+    basis_module.SCALE_BITS = basis_module.SCALE_MIN_SEEN = basis_module.SCALE_SPREAD = 0
+    basis_module.SCALE_RATIO = basis_module.SCALE_MAX_BITS = 10**9
+    simplex_module.Simplex.check_updates = True
 count = {"n": 0}
 @settings(max_examples=N, deadline=None, database=None, suppress_health_check=list(HealthCheck))
 @given(lp_models(max_vars=7, max_rows=7))
