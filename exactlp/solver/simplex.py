@@ -729,9 +729,34 @@ class Simplex:
         """
         state = self.state
         first = best = -1
+        if weighted:
+            # (_gain written out: this loop runs over every column at every pivot,
+            # and |d_j| is needed only to break a tie of scores)
+            best_score = None
+            scores = self.scores  # 2 (16 log2 |d_j|) - 16 log2 w_j, kept with d and w
+            for j, dj in enumerate(d):
+                if dj is None:
+                    continue
+                if dj < 0:
+                    if state[j] == AT_UPPER:
+                        continue
+                elif dj > 0:
+                    if state[j] == AT_LOWER:
+                        continue
+                else:
+                    continue
+                if first < 0:
+                    first = j
+                    if scores is None:
+                        w = self.weights
+                        scores = self.scores = [2 * _log16(v) - w[i] if v else 0 for i, v in enumerate(d)]
+                score = scores[j]
+                if best_score is None or score > best_score:
+                    best, best_score = j, score
+                elif score == best_score and abs(dj) > abs(d[best]):  # type: ignore[arg-type]
+                    best = j
+            return first, best
         best_abs = ZERO
-        best_score = None
-        scores = self.scores  # 2 (16 log2 |d_j|) - 16 log2 w_j, kept with d and w
         for j, dj in enumerate(d):
             if dj is None:
                 continue
@@ -740,14 +765,7 @@ class Simplex:
                 continue
             if first < 0:
                 first = j
-            if weighted:
-                if scores is None:
-                    w = self.weights
-                    scores = self.scores = [2 * _log16(v) - w[i] if v else 0 for i, v in enumerate(d)]
-                score = scores[j]
-                if best_score is None or score > best_score or (score == best_score and a > best_abs):
-                    best, best_abs, best_score = j, a, score
-            elif a > best_abs:
+            if a > best_abs:
                 best, best_abs = j, a
         return first, best
 
