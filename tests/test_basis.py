@@ -401,3 +401,25 @@ def test_the_nucleus_turns_to_integer_rows_once_its_numbers_are_long():
     assert results[0] == results[1]
     bits = max(v.denominator.bit_length() for v in results[0].values())
     assert bits > 600  # the numbers were long indeed (733 bits here)
+
+
+def test_row_scaled_copy_gives_up_on_rows_of_many_primes():
+    # U's rows that are not integer rows get the least common multiple of their
+    # denominators, unless it grows long: a row of 1/p over 30 primes keeps
+    # d_r = 1 (stays as it is), a decimal row gets its multiple
+    from exactlp.solver.basis import _row_scaled
+
+    primes = [p for p in range(2, 114) if all(p % q for q in range(2, p))][:30]
+    m = 32
+    ucols = [(0, mpq(1, 2), [])]
+    for k, p in enumerate(primes):  # column k + 1: pivot row k + 1, with an entry 1/p in row 0
+        ucols.append((k + 1, mpq(1), [(0, mpq(1, p))]))
+    ucols.append((31, mpq(3, 10), [(0, mpq(1, 2))]))
+    ucols[1] = (1, mpq(7, 4), [(0, mpq(1, 2))])  # row 1: diagonal 7/4
+    order = list(range(m))
+    fcols, rowden = _row_scaled(m, order, ucols, {}, {})
+    assert rowden[0] == 1  # 30 primes: given up
+    assert rowden[1] == 4 and rowden[31] == 10 and rowden[5] == 1
+    for (r, ukk, above), (fr, fkk, fabove) in zip(ucols, fcols):
+        assert fr == r and fkk == ukk * rowden[r]
+        assert dict(fabove) == {rj: u * rowden[rj] for rj, u in above}

@@ -751,10 +751,12 @@ def _row_scaled(m, order, ucols, scale, uint):
 
     A row of U made from an integer row ``s_r R_r`` is ``n_r R_r / d_r``
     (``s_r = n_r / d_r``), and its integers ``n_r R_r`` were recorded during
-    the elimination (``uint``, by column then row).  The other rows hold the
-    model's own entries (short): ``d_r`` is the least common multiple of their
-    denominators, or 1 when that is long (past ``INT_ROWS_SLACK`` + twice the
-    longest), and then the row stays as it is.
+    the elimination (``uint``, by column then row).  The other rows (the
+    model's own entries, or rows eliminated on fractions before the switch):
+    ``d_r`` is the least common multiple of their denominators, or 1 as soon as
+    that is long (past ``INT_ROWS_SLACK`` + twice the longest so far; the
+    multiple is not pursued further, so its cost stays bounded), and then the
+    row stays as it is.
     """
     rowden: list = [None] * m
     for r, s in scale.items():
@@ -765,8 +767,10 @@ def _row_scaled(m, order, ucols, scale, uint):
     def meet(r: int, v: mpq) -> None:
         d = v.denominator
         if d != 1:
-            lcms[r] = _lcm(lcms.get(r, ONE_Z), d)
-            tops[r] = max(tops.get(r, 0), d.bit_length())
+            lcm = lcms[r] = _lcm(lcms.get(r, ONE_Z), d)
+            top = tops[r] = max(tops.get(r, 0), d.bit_length())
+            if lcm.bit_length() > INT_ROWS_SLACK + 2 * top:
+                rowden[r] = ONE_Z  # given up: this row stays as it is
 
     for r, ukk, above in ucols:
         if rowden[r] is None:
