@@ -412,3 +412,68 @@ def test_start_basis_is_checked_like_any_suggestion():
     r = solve_verified(m, start_basis=BasisHint((0, 1, 99), frozenset({-5}), "test", "exact"))
     assert r.warm_start == "rejected: the suggested basis names a column the model does not have"
     assert r.objective == 13
+
+
+def test_ratio_test_skips_only_candidates_that_cannot_be_smallest():
+    # The ratio test skips a candidate without dividing when its gap and rate's
+    # bit lengths put it 2^4 above the best so far (simplex.Simplex._ratio); the
+    # step, the leaving column and its bound must be those of the plain minimum
+    # with ties to the lowest column, over long and short, tied and zero gaps
+    import random
+
+    from gmpy2 import mpq
+
+    from exactlp.io import model_from_text
+    from exactlp.solver.form import build_form
+    from exactlp.solver.simplex import Simplex
+
+    m = 12
+    text = "minimize: " + " + ".join(f"x{i}" for i in range(m)) + "\nvariables:\n"
+    text += "".join(f"  x{i}: {{}}\n" for i in range(m)) + "constraints:\n"
+    text += "".join(f"  c{i}: x{i} >= 0\n" for i in range(m))
+    sx = Simplex(build_form(model_from_text(text)))
+    ncol = len(sx.cols)
+    rng = random.Random(12)
+    checked = 0
+    for _ in range(3000):
+        head = rng.sample(range(ncol), m)
+        sx.head = head
+        q = next(j for j in range(ncol) if j not in head)
+        sx.lower[q], sx.upper[q] = mpq(0), None  # no flip
+        alpha = {}
+        near = rng.random() < 0.5  # gaps and rates just around powers of two: the
+        # bit-length estimates then differ by 1 to 3 between values that differ by
+        # less than 2^4, where a looser skip would drop the smallest
+
+        def around(k):
+            return mpq(max(1, 2**k + rng.randint(-3, 3)), max(1, 2 ** rng.randint(0, 3) + rng.randint(-1, 1)))
+
+        for p, b in enumerate(head):
+            lo = mpq(rng.randint(-9, 9), rng.choice([1, 3, 10**rng.randint(0, 40)]))
+            if near:
+                span = around(rng.randint(20, 23))
+            else:
+                span = rng.choice([mpq(0), mpq(rng.randint(1, 9), rng.choice([1, 7, 2**rng.randint(0, 90)]))])
+            sx.lower[b], sx.upper[b] = lo, lo + rng.choice([span, mpq(rng.randint(1, 10**30), 3)])
+            sx.x[b] = lo + span if rng.random() < 0.5 else lo
+            if rng.random() < 0.8:
+                if near:
+                    alpha[p] = rng.choice([-1, 1]) * around(rng.randint(4, 7))
+                else:
+                    alpha[p] = mpq(rng.choice([-1, 1]) * rng.randint(1, 10**rng.randint(1, 30)),
+                                   rng.randint(1, 10**rng.randint(0, 30)))
+        direction = rng.choice([-1, 1])
+        expect = None
+        for p, a in alpha.items():
+            b = head[p]
+            rate = -a if direction > 0 else a
+            t, bound = ((sx.x[b] - sx.lower[b]) / -rate, "lower") if rate < 0 else ((sx.upper[b] - sx.x[b]) / rate, "upper")
+            if expect is None or (t, b) < (expect[0], expect[1]):
+                expect = (t, b, bound)
+        got = sx._ratio(q, direction, alpha)
+        if expect is None:
+            assert got == (None, None, None)
+        else:
+            assert got == expect
+            checked += 1
+    assert checked > 2000

@@ -800,6 +800,7 @@ class Simplex:
         the entering column's own bound goes to the flip, which changes no basis.
         """
         best_t = None
+        best_e = 0  # bit-length estimate of log2 best_t (see below)
         ties: list[tuple[int, int, str]] = []  # (column, position, bound)
         x, lower, upper, head = self.x, self.lower, self.upper, self.head
         for p, a in alpha.items():
@@ -809,16 +810,29 @@ class Simplex:
                 lo = lower[b]
                 if lo is None:
                     continue
-                t = (x[b] - lo) / -rate
+                gap, rate = x[b] - lo, -rate
                 bound = "lower"
             else:
                 hi = upper[b]
                 if hi is None:
                     continue
-                t = (hi - x[b]) / rate
+                gap = hi - x[b]
                 bound = "upper"
+            # A positive n/d lies strictly between 2^(bits n - bits d - 1) and
+            # 2^(bits n - bits d + 1), so t = gap/rate lies strictly between
+            # 2^(e - 2) and 2^(e + 2) with e the difference of the two estimates.
+            # A gap whose estimate is 4 or more above the best's cannot be smallest
+            # nor tie: it is skipped without the division (a long gcd each).
+            if gap > 0:
+                e = (gap.numerator.bit_length() - gap.denominator.bit_length()
+                     - rate.numerator.bit_length() + rate.denominator.bit_length())
+                if best_t is not None and (not best_t or e >= best_e + 4) and best_t >= 0:
+                    continue
+            else:
+                e = 0
+            t = gap / rate
             if best_t is None or t < best_t:
-                best_t, ties = t, [(b, p, bound)]
+                best_t, best_e, ties = t, e, [(b, p, bound)]
             elif t == best_t:
                 ties.append((b, p, bound))
         if scale is not None and best_t is not None:
