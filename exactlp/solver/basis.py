@@ -131,12 +131,7 @@ class EtaBasis:
                 continue
             vp = vp / wp
             v[p] = vp
-            for i, wi in rest:
-                nv = v.get(i, ZERO) - wi * vp
-                if nv:
-                    v[i] = nv
-                else:
-                    v.pop(i, None)
+            _subtract(v, rest, vp)
         return v
 
     def _etas_backward(self, cb: dict[int, mpq]) -> list[mpq]:
@@ -186,6 +181,33 @@ class EtaBasis:
         # B' = B E with E the identity but column p = alpha, so det B' = alpha_p det B
         self.det *= alpha_p
         self._set_scale()
+
+
+def _back_substitute(ucols, v: dict[int, mpq]) -> dict[int, mpq]:
+    """``x`` with ``U x = v`` for U given by columns in elimination order,
+    ``[(r_k, u_kk, entries above the diagonal by row)]`` (``v`` is used up).
+    The kernel of :meth:`LUBasis._upper` (U itself) and of
+    :meth:`LUBasis._upper_scaled` (U with its rows made integers)."""
+    x: dict[int, mpq] = {}
+    for r, ukk, above in reversed(ucols):
+        t = v.get(r)
+        if not t:
+            continue
+        t = t / ukk
+        x[r] = t
+        _subtract(v, above.items() if type(above) is dict else above, t)
+    return x
+
+
+def _subtract(v: dict[int, mpq], entries, t: mpq) -> None:
+    """``v -= t e`` in place for the sparse ``e`` given as (index, value) pairs,
+    dropping the entries that become zero."""
+    for i, e in entries:
+        nv = v.get(i, ZERO) - e * t
+        if nv:
+            v[i] = nv
+        else:
+            v.pop(i, None)
 
 
 def _up(v: dict[int, mpq], d: mpz) -> dict[int, mpq]:
@@ -295,30 +317,12 @@ class LUBasis(EtaBasis):
         for r, ls in self.lsteps:
             t = v.get(r)
             if t:
-                for i, l in ls:
-                    nv = v.get(i, ZERO) - l * t
-                    if nv:
-                        v[i] = nv
-                    else:
-                        v.pop(i, None)
+                _subtract(v, ls, t)
         return v
 
     def _upper(self, v: dict[int, mpq]) -> dict[int, mpq]:
         """``U^-1 v`` by back-substitution (``v`` is used up)."""
-        x: dict[int, mpq] = {}
-        for r, ukk, above in reversed(self.ucols):
-            t = v.get(r)
-            if not t:
-                continue
-            t = t / ukk
-            x[r] = t
-            for rj, u in (above.items() if type(above) is dict else above):
-                nv = v.get(rj, ZERO) - u * t
-                if nv:
-                    v[rj] = nv
-                else:
-                    v.pop(rj, None)
-        return x
+        return _back_substitute(self.ucols, v)
 
     def _upper_scaled(self, v: dict[int, mpq]) -> dict[int, mpq]:
         """``U^-1 v`` for a scaled solve (``v`` is used up), on U's rows made integers.
@@ -346,20 +350,7 @@ class LUBasis(EtaBasis):
         for r, a in v.items():
             dr = den[r]
             w[r] = a if dr == 1 else a * dr
-        x: dict[int, mpq] = {}
-        for r, ukk, above in reversed(fc):
-            t = w.get(r)
-            if not t:
-                continue
-            t = t / ukk
-            x[r] = t
-            for rj, u in (above.items() if type(above) is dict else above):
-                nv = w.get(rj, ZERO) - u * t
-                if nv:
-                    w[rj] = nv
-                else:
-                    w.pop(rj, None)
-        return x
+        return _back_substitute(fc, w)
 
     def _upper_t(self, u: list[mpq]) -> list[mpq]:
         """``w`` with ``w^T U = u^T``, forward by the columns of U."""
