@@ -477,3 +477,109 @@ def test_ratio_test_skips_only_candidates_that_cannot_be_smallest():
             assert got == expect
             checked += 1
     assert checked > 2000
+
+
+def test_partial_pricing_on_integers_equals_the_fractions():
+    # Simplex._price_partial works on integers (the duals over their common
+    # denominator, each column over its own) when that denominator is short, and
+    # must choose exactly as _price_partial_fractions: the same lowest eligible
+    # and best column, their reduced costs, where the next scan starts, and, when
+    # none is eligible, every reduced cost it reports.  Random states over
+    # columns with fractional entries and costs, fixed and free columns, columns
+    # at either bound, ties of |d_j| (integer data), duals that are zero or share
+    # denominators, and nested long denominators (there the fractions are used).
+    import random
+
+    from gmpy2 import mpq
+
+    from exactlp.solver import simplex as sm
+    from exactlp.solver.form import build_form
+
+    m, n = 6, 70  # wide: partial pricing looks at a part (2 (m + 1) = 14 columns) at a time
+    rng = random.Random(6)
+    tried = {"integers": 0, "fractions": 0, "none eligible": 0, "lowest": 0}
+    for trial in range(400):
+        integral = trial % 3 == 0  # small integers: many ties of |d_j|
+        lines = []
+        for i in range(m):
+            terms = []
+            for j in range(n):
+                if rng.random() < 0.4:
+                    a = F(rng.randint(-4, 4)) if integral else F(rng.randint(-9, 9), rng.choice([1, 2, 3, 10, 7]))
+                    if a:
+                        terms.append(f"{a} x{j}" if not terms else f"{'+' if a > 0 else '-'} {abs(a)} x{j}")
+            if not terms:
+                terms = [f"x{i}"]
+            lines.append(f"  r{i}: {' '.join(terms)} <= {rng.randint(1, 9)}\n")
+        bounds = []
+        for j in range(n):
+            kind = rng.random()
+            bounds.append("{lower: -inf}" if kind < 0.1 else "{upper: 0}" if kind < 0.15
+                          else f"{{upper: {rng.randint(1, 5)}}}")
+        text = ("minimize: " + " + ".join(f"{F(rng.randint(1, 9), 1 if integral else rng.choice([1, 4, 3]))} x{j}"
+                                           for j in range(n)) + "\nvariables:\n"
+                + "".join(f"  x{j}: {b}\n" for j, b in enumerate(bounds)) + "constraints:\n" + "".join(lines))
+        sx = sm.Simplex(build_form(model_from_text(text)))
+        ncol = len(sx.cols)
+        for c in rng.sample(range(ncol), m):
+            sx.state[c] = sm.BASIC
+        for j in range(ncol):
+            if sx.state[j] != sm.BASIC:
+                lo, hi = sx.lower[j], sx.upper[j]
+                sx.state[j] = (sm.AT_ZERO if lo is None and hi is None else sm.AT_LOWER if hi is None
+                               else sm.AT_UPPER if lo is None or rng.random() < 0.3 else sm.AT_LOWER)
+        nested = trial % 5 == 4
+        y = []
+        for i in range(m):
+            if rng.random() < 0.2:
+                y.append(mpq(0))
+            elif nested:  # pairwise coprime long denominators: their product is longer than twice the longest
+                y.append(mpq(rng.randint(-10**9, 10**9), [2**100 + 1, 3**70, 5**50, 7**40, 11**30, 13**30][i]))
+            else:
+                y.append(mpq(rng.randint(-20, 20), rng.choice([1, 2, 6]) * (1 if integral else 3)))
+        cost = [mpq(c) for c in sx.f.cost] + [mpq(0)] * (ncol - len(sx.f.cost))
+        if trial % 7 == 1:  # every |d_j| equal: the tie rule decides, across the wrap-around too
+            y = [mpq(0)] * m
+            cost = [mpq(-1)] * ncol
+            start = rng.randrange(ncol - 10, ncol)
+        else:
+            start = rng.randrange(ncol)
+        if rng.random() < 0.2:  # a state where no column improves: every reduced cost is reported
+            for j in range(ncol):
+                if sx.state[j] != sm.BASIC:
+                    dj = cost[j] - sum((y[i] * a for i, a in sx.cols[j]), mpq(0))
+                    if sm._gain(dj, sx.state[j]) is not None:
+                        sx.state[j] = sm.AT_LOWER if dj > 0 else sm.AT_UPPER
+                        sx.lower[j] = sx.lower[j] if sx.lower[j] is not None else mpq(-5)
+                        sx.upper[j] = sx.upper[j] if sx.upper[j] is not None else mpq(5)
+        lowest = rng.random() < 0.15
+        results = []
+        for way in (sx._price_partial, sx._price_partial_fractions):
+            sx._partial_start, sx.partial_seen = start, {}
+            d, first, best = way(cost, y, lowest)
+            results.append((first, best, {j: d[j] for j in {first, best} if j >= 0},
+                            sx._partial_start, sx.partial_looked, dict(sx.partial_seen) if first < 0 else None))
+            assert all(type(v) is type(mpq(0)) for v in d.values())
+        assert results[0] == results[1]
+        tried["fractions" if sm._dual_ints(y) is None else "integers"] += 1
+        tried["none eligible"] += results[0][0] < 0
+        tried["lowest"] += lowest
+    assert tried["integers"] > 250 and tried["fractions"] > 60 and tried["none eligible"] > 20 and tried["lowest"] > 30, tried
+
+
+def test_dual_ints_are_the_duals_over_their_common_denominator():
+    from gmpy2 import mpq, mpz
+
+    from exactlp.solver.simplex import DUAL_INTS_SLACK, _dual_ints
+
+    y = [mpq(1, 6), mpq(0), mpq(-5, 4), mpq(7)]
+    ys, d = _dual_ints(y)
+    assert d == 12 and type(d) is type(mpz(1))
+    assert ys == [2, 0, -15, 84] and [mpq(v, d) for v in ys] == y
+    assert _dual_ints([mpq(0), mpq(3)]) == ([0, 3], 1)
+    # the common denominator may be at most DUAL_INTS_SLACK bits past twice the
+    # longest: three 41-bit primes pass (123 bits <= 64 + 82), four do not (164 bits)
+    primes = [2**40 + 15, 2**40 + 27, 2**40 + 55, 2**40 + 97]
+    assert DUAL_INTS_SLACK == 64
+    assert _dual_ints([mpq(1, p) for p in primes[:3]]) is not None
+    assert _dual_ints([mpq(1, p) for p in primes]) is None
