@@ -129,7 +129,7 @@ def test_every_factorisation_agrees_after_updates(scale_bits):
     from fractions import Fraction as F
 
     rng = random.Random(3)
-    updated = row_scaled = 0
+    updated = row_scaled = between = kept_rows = 0
     for m, cols, unit, head in random_bases():
         try:
             group = [f(m, head, cols, unit) for f in FACTORS.values()]
@@ -148,6 +148,15 @@ def test_every_factorisation_agrees_after_updates(scale_bits):
                 b.replace(p, w, cols[q])
                 h[p] = q
             updated += 1
+            # a btran between updates: the factors' rows (made by the first
+            # transposed solve) must be kept in step by each update after it
+            if rng.random() < 0.6:
+                ys = [b.btran({p: mpq(h[p] + 1) for p in range(m)}) for b, h in group]
+                assert all(y == ys[0] for y in ys[1:])
+                h0 = group[0][1]
+                for p, c in enumerate(h0):
+                    assert sum((ys[0][i] * a for i, a in cols[c]), mpq(0)) == mpq(c + 1)
+                between += 1
         for j in range(len(cols)):
             first, *others = ({h[p]: v for p, v in bb.ftran(cols[j]).items()} for bb, h in group)
             assert all(o == first for o in others)
@@ -173,9 +182,12 @@ def test_every_factorisation_agrees_after_updates(scale_bits):
                 seen is None or (seen >= basis_module.SCALE_MIN_SEEN and bits <= basis_module.SCALE_RATIO * seen))
             assert b.scale == (abs(b.det.numerator) if scaled else None)
             row_scaled += check_row_scaled(b)
+            if getattr(b, "_urows", None) is not None:  # U's rows, kept in step, are U's rows
+                assert b._urows == basis_module._rows_of_upper(m, b.ucols)
+                kept_rows += bool(b.updates)
     # the integer copy of U is built by the first scaled ftran of a factorisation
     # whose nucleus went to integer rows (here only the forced ones)
-    assert updated > 300
+    assert updated > 300 and between > 150 and kept_rows > 100
     if scale_bits == 0:
         assert row_scaled > 50
 

@@ -296,6 +296,9 @@ class LUBasis(EtaBasis):
         self.fcols = None
         self.rowden = None
         self._fsrc = fsrc
+        # the factors by rows, for the transposed solves (made by the first one)
+        self._urows: list[dict[int, mpq]] | None = None
+        self._lrows = None
         self.pivots = pivots
         #: nonzeros of L and U (the diagonal included): the cost of one solve with the factors
         self.lu_nonzeros = sum(len(ls) for _, ls in lsteps) + sum(len(above) + 1 for _, _, above in ucols)
@@ -352,27 +355,57 @@ class LUBasis(EtaBasis):
             w[r] = a if dr == 1 else a * dr
         return _back_substitute(fc, w)
 
+    # The transposed solves go by the rows of the factors, so that a zero of the
+    # vector costs nothing.  A btran starts from a unit vector (a row of B^-1) or
+    # from the costs of the basic columns, and its vector stays sparse far into
+    # the solve: on D6CUBE's first 2,500 pivots, 3.6% of the products the column
+    # form looked at in U and 27% in L had a nonzero factor.  The rows are made
+    # at the first transposed solve of a factorisation (an update keeps U's rows
+    # in step, see FTBasis.replace).
     def _upper_t(self, u: list[mpq]) -> list[mpq]:
-        """``w`` with ``w^T U = u^T``, forward by the columns of U."""
+        """``w`` with ``w^T U = u^T`` (``u`` is used up).
+
+        Column by column of U in elimination order, ``w_r = (u_r - sum_j w_rj
+        u_rj,r) / u_rr`` over the rows ``r_j`` pivoted before; here each ``w_r``,
+        once known and nonzero, is taken at once out of ``u`` at the later
+        columns of its row (``u_c -= w_r u_r,c``), so ``u_r`` holds the whole
+        sum when its own column comes.
+        """
+        rows = self._urows
+        if rows is None:
+            rows = self._urows = _rows_of_upper(self.m, self.ucols)
         w = [ZERO] * self.m
-        for r, ukk, above in self.ucols:
+        for r, ukk, _ in self.ucols:
             s = u[r]
-            for rj, uu in (above.items() if type(above) is dict else above):
-                wj = w[rj]
-                if wj:
-                    s -= wj * uu
-            w[r] = s / ukk if s else ZERO
+            if s:
+                t = w[r] = s / ukk
+                for c, uu in rows[r].items():
+                    u[c] -= t * uu
         return w
 
     def _lower_t(self, w: list[mpq]) -> list[mpq]:
-        """``w^T L^-1``: the row operations undone in reverse (in place)."""
-        for r, ls in reversed(self.lsteps):
-            s = w[r]
-            for i, l in ls:
-                wi = w[i]
-                if wi:
-                    s -= l * wi
-            w[r] = s
+        """``w^T L^-1``: the row operations undone in reverse (in place).
+
+        Step k took ``l_ik`` times its pivot row ``r_k`` from each row ``i``, so
+        undone in reverse it makes ``w_rk -= sum_i l_ik w_i``.  Each ``w_i`` is
+        final when the steps after the one that pivoted on row ``i`` are undone
+        (or from the start, for a row no step pivoted on with multipliers); from
+        then it is taken into every ``w_rk`` it meets, by the row of L.
+        """
+        lr = self._lrows
+        if lr is None:
+            lr = self._lrows = _rows_of_lower(self.m, self.lsteps)
+        rows, first = lr
+        for i in first:
+            wi = w[i]
+            if wi:
+                for r, l in rows[i]:
+                    w[r] -= l * wi
+        for r, _ in reversed(self.lsteps):
+            wr = w[r]
+            if wr:
+                for rk, l in rows[r]:
+                    w[rk] -= l * wr
         return w
 
     def ftran(self, col):
@@ -527,8 +560,18 @@ class FTBasis(LUBasis):
                 d -= zj * sj
         if not d:
             raise ArithmeticError("singular basis after an update")
+        urows = self._urows
+        if urows is not None:
+            # U's rows in step: row p has left every later column (above), the
+            # column it pivoted goes, and the spike comes in its place, named p again
+            urows[p] = {}
+            for ri in ucols[k][2]:
+                del urows[ri][p]
         del ucols[k]
         ucols.append((p, d, {i: v for i, v in sorted(spike.items()) if i != p and v}))
+        if urows is not None:
+            for i, v in ucols[-1][2].items():
+                urows[i][p] = v
         if fc is not None:
             # the spike's rows scaled as the rest of U's (row p keeps its d_p)
             den = self.rowden
@@ -539,6 +582,28 @@ class FTBasis(LUBasis):
             self.rsteps.append((p, list(z.items())))
         self.eta_nonzeros += len(z) + len(ucols[-1][2]) + 1
         self.updates += 1
+
+
+def _rows_of_upper(m: int, ucols) -> list[dict[int, mpq]]:
+    """U's entries above the diagonal by row: ``rows[r_j][r_k] = u_rj,ck``, each
+    column named by its pivot row (unique, and kept by a Forrest-Tomlin update)."""
+    rows: list[dict[int, mpq]] = [{} for _ in range(m)]
+    for r, _, above in ucols:
+        for rj, u in (above.items() if type(above) is dict else above):
+            rows[rj][r] = u
+    return rows
+
+
+def _rows_of_lower(m: int, lsteps):
+    """L's multipliers by row, ``rows[i] = [(r_k, l_ik), ...]``, and the rows no
+    step pivoted on (their values are final before any step is undone)."""
+    rows: list[list] = [[] for _ in range(m)]
+    pivoted = [False] * m
+    for r, ls in lsteps:
+        pivoted[r] = True
+        for i, l in ls:
+            rows[i].append((r, l))
+    return rows, [i for i in range(m) if not pivoted[i] and rows[i]]
 
 
 def factor_ft(m, head, cols, unit_row, integer_rows=None):
