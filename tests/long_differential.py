@@ -1,9 +1,11 @@
-"""The long differential run: python tests/long_differential.py N [--forced]
+"""The long differential run: python tests/long_differential.py N [--forced] [--partial]
 (N random models against scipy HiGHS).
 
 --forced: the nucleus of every factorisation on integer rows from its first
 step, every basis solve scaled, and every reduced-cost and dual update checked
 against a recomputation (the paths the Netlib problems take only on long numbers).
+--partial: partial pricing on every model (the wide models' rule; its scans on
+integers or, with nested denominators, on fractions).
 """
 import sys
 import time
@@ -21,6 +23,10 @@ if "--forced" in sys.argv[2:]:
     basis_module.SCALE_BITS = basis_module.SCALE_MIN_SEEN = basis_module.SCALE_SPREAD = 0
     basis_module.SCALE_RATIO = basis_module.SCALE_MAX_BITS = 10**9
     simplex_module.Simplex.check_updates = True
+if "--partial" in sys.argv[2:]:
+    import exactlp.solver.simplex as simplex_module
+
+    simplex_module.PARTIAL_FACTOR = 0
 count = {"n": 0}
 @settings(max_examples=N, deadline=None, database=None, suppress_health_check=list(HealthCheck))
 @given(lp_models(max_vars=7, max_rows=7))
