@@ -496,14 +496,21 @@ def test_partial_pricing_on_integers_equals_the_fractions():
     from exactlp.solver.form import build_form
 
     m, n = 6, 70  # wide: partial pricing looks at a part (2 (m + 1) = 14 columns) at a time
+    PRIMES = [1048583, 1048589, 1048601, 1048609, 1048613, 1048627]
     rng = random.Random(6)
-    tried = {"integers": 0, "fractions": 0, "none eligible": 0, "lowest": 0}
+    tried = {"integers": 0, "fractions": 0, "none eligible": 0, "lowest": 0, "fraction column": 0}
     for trial in range(400):
         integral = trial % 3 == 0  # small integers: many ties of |d_j|
         lines = []
         for i in range(m):
             terms = []
             for j in range(n):
+                if j == 0 and trial % 4 == 2:  # a column whose denominators are six different
+                    # 21-bit primes: their multiple (126 bits) is past 64 + 2 x 21, so
+                    # the column is kept in fractions within the integer scan
+                    a = F(rng.randint(1, 9), PRIMES[i])
+                    terms.append(f"{a} x{j}" if not terms else f"+ {a} x{j}")
+                    continue
                 if rng.random() < 0.4:
                     a = F(rng.randint(-4, 4)) if integral else F(rng.randint(-9, 9), rng.choice([1, 2, 3, 10, 7]))
                     if a:
@@ -562,9 +569,12 @@ def test_partial_pricing_on_integers_equals_the_fractions():
             assert all(type(v) is type(mpq(0)) for v in d.values())
         assert results[0] == results[1]
         tried["fractions" if sm._dual_ints(y) is None else "integers"] += 1
+        if sm._dual_ints(y) is not None and sx._int_cols()[0][0] is None:
+            tried["fraction column"] += 1
         tried["none eligible"] += results[0][0] < 0
         tried["lowest"] += lowest
     assert tried["integers"] > 250 and tried["fractions"] > 60 and tried["none eligible"] > 20 and tried["lowest"] > 30, tried
+    assert tried["fraction column"] > 50, tried
 
 
 def test_dual_ints_are_the_duals_over_their_common_denominator():

@@ -597,16 +597,25 @@ class Simplex:
             if lo is not None and hi is not None and lo == hi:
                 continue
             e, pick, coefs = icols[j]
-            # y^T a_j (times D_y e_j) in C loops: the column's entries of Y, times its integers
-            t = sum(map(_mul, pick(yy), coefs)) if pick is not None else (yy[coefs[0][0]] * coefs[0][1] if coefs else 0)
             c = cost[j]
-            if c:
-                cd = c.denominator
-                fj = cd * e
-                nj = c.numerator * dy * e - cd * t
+            if e is None:  # a column kept in fractions (see _int_cols): N_j, f_j from d_j itself
+                dj = c
+                for i, a in coefs:
+                    yi = y[i]
+                    if yi:
+                        dj -= yi * a
+                fj = dj.denominator
+                nj = dj.numerator * dy
             else:
-                fj = e
-                nj = -t
+                # y^T a_j (times D_y e_j) in C loops: the column's entries of Y, times its integers
+                t = sum(map(_mul, pick(yy), coefs)) if pick is not None else (yy[coefs[0][0]] * coefs[0][1] if coefs else 0)
+                if c:
+                    cd = c.denominator
+                    fj = cd * e
+                    nj = c.numerator * dy * e - cd * t
+                else:
+                    fj = e
+                    nj = -t
             if nj < 0:
                 if s == AT_UPPER:
                     continue
@@ -653,15 +662,26 @@ class Simplex:
         """Each column ``j`` as integers ``e_j a_ij``, with ``e_j`` the least common
         multiple of its denominators: ``(e_j, pick, those integers)``, where
         ``pick(Y)`` takes the column's rows of a vector, for two nonzeros or more;
-        else ``(e_j, None, [(i, e_j a_ij)])``.  Kept until the set of columns changes."""
+        else ``(e_j, None, [(i, e_j a_ij)])``; or ``(None, None, [(i, a_ij)])``
+        when ``e_j`` is long (the rule of :func:`_dual_ints`).  Kept until the
+        set of columns changes."""
         ncol = len(self.cols)
         if self._int_cols_cache is None or self._int_cols_cache[0] != ncol:
             out = []
             for col in self.cols:
                 e = ONE_Z
+                top = 0
                 for _, a in col:
-                    if a.denominator != 1:
-                        e = _lcm(e, a.denominator)
+                    den = a.denominator
+                    if den != 1:
+                        e = _lcm(e, den)
+                        top = max(top, den.bit_length())
+                if e.bit_length() > DUAL_INTS_SLACK + 2 * top:
+                    # many different primes among the denominators: their multiple
+                    # would make every entry long (and, over many such columns, a
+                    # hostile model's copy huge), so the column stays in fractions
+                    out.append((None, None, [(i, a) for i, a in col if a]))
+                    continue
                 ints = [(i, a.numerator * (e // a.denominator)) for i, a in col if a]
                 if len(ints) >= 2:
                     out.append((e, _itemgetter(*(i for i, _ in ints)), tuple(v for _, v in ints)))
