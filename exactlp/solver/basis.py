@@ -188,14 +188,21 @@ def _back_substitute(ucols, v: dict[int, mpq]) -> dict[int, mpq]:
     ``[(r_k, u_kk, entries above the diagonal by row)]`` (``v`` is used up).
     The kernel of :meth:`LUBasis._upper` (U itself) and of
     :meth:`LUBasis._upper_scaled` (U with its rows made integers)."""
+    # the vector dense, by row: U has a column for every row, so the loop below
+    # visits every row anyway, and a list entry costs less than a dictionary's
+    # (no lookup with a default, no removal of the entries that become zero)
+    w = [ZERO] * len(ucols)
+    for i, a in v.items():
+        w[i] = a
     x: dict[int, mpq] = {}
     for r, ukk, above in reversed(ucols):
-        t = v.get(r)
+        t = w[r]
         if not t:
             continue
         t = t / ukk
         x[r] = t
-        _subtract(v, above.items() if type(above) is dict else above, t)
+        for i, e in (above.items() if type(above) is dict else above):
+            w[i] -= e * t
     return x
 
 
