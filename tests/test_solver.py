@@ -479,15 +479,55 @@ def test_ratio_test_skips_only_candidates_that_cannot_be_smallest():
     assert checked > 2000
 
 
-def test_partial_pricing_on_integers_equals_the_fractions():
+def _partial_scan_reference(sx, cost, y, lowest, start, part):
+    """The partial-pricing rule written out plainly in Fractions (independent of
+    the solver's arithmetic): from ``start``, wrapping around, skip basic and
+    fixed columns; an eligible column improves at its bound (d < 0 at its lower,
+    d > 0 at its upper, either way free); stop once ``part`` columns have been
+    looked at and one is eligible; the best has the largest |d_j|, ties to the
+    lower column; with ``lowest``, the first eligible one.  Returns (first,
+    best, their reduced costs, where the next scan starts, columns looked at,
+    every movable reduced cost when none is eligible)."""
+    from exactlp.solver import simplex as sm
+
+    q = lambda v: F(int(v.numerator), int(v.denominator))  # noqa: E731
+    ncol = len(sx.cols)
+    yf = [q(v) for v in y]
+    every, eligible = {}, []
+    for k in range(ncol):
+        if k >= part and eligible and not lowest:
+            break
+        j = (start + k) % ncol
+        lo, hi = sx.lower[j], sx.upper[j]
+        if sx.state[j] == sm.BASIC or (lo is not None and hi is not None and lo == hi):
+            continue
+        dj = q(cost[j]) - sum((yf[i] * q(a) for i, a in sx.cols[j]), F(0))
+        every[j] = dj
+        s = sx.state[j]
+        if (dj < 0 and s != sm.AT_UPPER) or (dj > 0 and s != sm.AT_LOWER):
+            eligible.append(j)
+            if lowest:  # Bland's rule: where the next scan starts is left as it was
+                return j, j, {j: dj}, None, None, None
+    else:
+        k = ncol
+    if not eligible:
+        return -1, -1, {}, start + k, k, every
+    first = min(eligible)
+    best = max(eligible, key=lambda j: (abs(every[j]), -j))
+    return first, best, {first: every[first], best: every[best]}, start + k, k, None
+
+
+def test_partial_pricing_follows_the_rule_exactly():
     # Simplex._price_partial works on integers (the duals over their common
-    # denominator, each column over its own) when that denominator is short, and
-    # must choose exactly as _price_partial_fractions: the same lowest eligible
-    # and best column, their reduced costs, where the next scan starts, and, when
+    # denominator, each column over its own) when those are short, and in
+    # fractions otherwise; either way it must choose exactly as the rule written
+    # out in Fractions (_partial_scan_reference): the same lowest eligible and
+    # best column, their reduced costs, where the next scan starts, and, when
     # none is eligible, every reduced cost it reports.  Random states over
     # columns with fractional entries and costs, fixed and free columns, columns
     # at either bound, ties of |d_j| (integer data), duals that are zero or share
-    # denominators, and nested long denominators (there the fractions are used).
+    # denominators, nested long denominators (every column in fractions), and
+    # columns whose own denominators are many primes (that column in fractions).
     import random
 
     from gmpy2 import mpq
@@ -560,14 +600,19 @@ def test_partial_pricing_on_integers_equals_the_fractions():
                         sx.lower[j] = sx.lower[j] if sx.lower[j] is not None else mpq(-5)
                         sx.upper[j] = sx.upper[j] if sx.upper[j] is not None else mpq(5)
         lowest = rng.random() < 0.15
-        results = []
-        for way in (sx._price_partial, sx._price_partial_fractions):
-            sx._partial_start, sx.partial_seen = start, {}
-            d, first, best = way(cost, y, lowest)
-            results.append((first, best, {j: d[j] for j in {first, best} if j >= 0},
-                            sx._partial_start, sx.partial_looked, dict(sx.partial_seen) if first < 0 else None))
-            assert all(type(v) is type(mpq(0)) for v in d.values())
-        assert results[0] == results[1]
+        sx._partial_start, sx.partial_seen = start, {}
+        d, first, best = sx._price_partial(cost, y, lowest)
+        assert all(type(v) is type(mpq(0)) for v in d.values())
+        got = (first, best, {j: F(int(d[j].numerator), int(d[j].denominator)) for j in {first, best} if j >= 0},
+               sx._partial_start, sx.partial_looked,
+               {j: F(int(v.numerator), int(v.denominator)) for j, v in sx.partial_seen.items()} if first < 0 else None)
+        part = max(-(-ncol // sm.PARTIAL_PARTS), 2 * (m + 1))
+        want = _partial_scan_reference(sx, cost, y, lowest, 0 if lowest else start, part)
+        if lowest and want[0] >= 0:
+            assert got[:3] == want[:3] and got[3] == start
+        else:
+            assert got == want
+        results = [got]
         tried["fractions" if sm._dual_ints(y) is None else "integers"] += 1
         if sm._dual_ints(y) is not None and sx._int_cols()[0][0] is None:
             tried["fraction column"] += 1

@@ -274,6 +274,7 @@ class Simplex:
         self._after_step = None
         self._rows_cache = None
         self._int_cols_cache = None
+        self._frac_cols_cache = None
         self.weights: list[int] = []
         self.scores: list[int] | None = None
         self._partial_start = 0
@@ -559,21 +560,33 @@ class Simplex:
     def _price_partial(self, cost: list[mpq], y: list[mpq], lowest: bool):
         """Partial pricing: reduced costs of a part of the columns, from the duals.
 
-        As :meth:`_price_partial_fractions`, with the same result, on integers
-        when the duals share a short common denominator (see :func:`_dual_ints`):
-        on D6CUBE's first 3,000 pivots the scan in fractions was a quarter of
-        the solve, most of it the gcd of each ``mpq`` product and difference.
-        The returned reduced costs are those of the lowest eligible column and
-        of the chosen one (all that the pivot loop reads of them); the last
-        scan's ``partial_seen`` is made into fractions only when it found none
-        eligible (the optimum), where the result reports them.
+        Returns (the reduced costs of the lowest eligible column and of the
+        chosen one, by column -- all that the pivot loop reads of them; the
+        lowest eligible column or -1; the best by ``|d_j|`` among those looked
+        at).  With ``lowest`` (Bland's rule) the columns are scanned from the
+        first until an eligible one is found.  Otherwise the scan starts where
+        the last one stopped and goes on, wrapping around, until at least one
+        part (``1 / PARTIAL_PARTS`` of the columns, and at least ``2 (m + 1)``)
+        has been looked at and an eligible column found, or every column has
+        been looked at; only then can "none eligible" be concluded, so
+        optimality is always decided on all of them.  Then ``partial_seen``
+        holds every movable column's reduced cost, which the result reports.
+
+        The scan works on integers when the duals share a short common
+        denominator (see :func:`_dual_ints`), and each column is summed in
+        fractions only when its own denominators, or the duals', are not short
+        (see :meth:`_int_cols`): on D6CUBE's first 3,000 pivots the scan in
+        fractions was a quarter of the solve, most of it the gcd of each
+        ``mpq`` product and difference.
         """
         ints = _dual_ints(y)
-        if ints is None:
-            return self._price_partial_fractions(cost, y, lowest)
-        yy, dy = ints
+        if ints is None:  # nested denominators: every column in fractions (D_y = 1 below)
+            yy, dy = None, ONE_Z
+            icols = self._frac_cols()
+        else:
+            yy, dy = ints
+            icols = self._int_cols()
         cols, state, lower, upper = self.cols, self.state, self.lower, self.upper
-        icols = self._int_cols()
         ncol = len(cols)
         part = max(-(-ncol // PARTIAL_PARTS), 2 * (self.m + 1))
         start = 0 if lowest else self._partial_start % ncol
@@ -598,7 +611,7 @@ class Simplex:
                 continue
             e, pick, coefs = icols[j]
             c = cost[j]
-            if e is None:  # a column kept in fractions (see _int_cols): N_j, f_j from d_j itself
+            if e is None:  # a column in fractions: N_j and f_j from d_j itself
                 dj = c
                 for i, a in coefs:
                     yi = y[i]
@@ -658,6 +671,13 @@ class Simplex:
                 out[j] = dj
         return out
 
+    def _frac_cols(self) -> list[tuple]:
+        """Every column as :meth:`_int_cols` gives one kept in fractions."""
+        ncol = len(self.cols)
+        if self._frac_cols_cache is None or self._frac_cols_cache[0] != ncol:
+            self._frac_cols_cache = (ncol, [(None, None, [(i, a) for i, a in col if a]) for col in self.cols])
+        return self._frac_cols_cache[1]
+
     def _int_cols(self) -> list[tuple]:
         """Each column ``j`` as integers ``e_j a_ij``, with ``e_j`` the least common
         multiple of its denominators: ``(e_j, pick, those integers)``, where
@@ -689,63 +709,6 @@ class Simplex:
                     out.append((e, None, ints))
             self._int_cols_cache = (ncol, out)
         return self._int_cols_cache[1]
-
-    def _price_partial_fractions(self, cost: list[mpq], y: list[mpq], lowest: bool):
-        """Partial pricing: reduced costs of a part of the columns, from the duals.
-
-        Returns (the reduced costs computed, by column; the lowest eligible
-        column or -1; the best by ``|d_j|`` among those looked at).  With
-        ``lowest`` (Bland's rule) the columns are scanned from the first until
-        an eligible one is found.  Otherwise the scan starts where the last one
-        stopped and goes on, wrapping around, until at least one part
-        (``1 / PARTIAL_PARTS`` of the columns, and at least ``2 (m + 1)``) has
-        been looked at and an eligible column found, or every column has been
-        looked at; only then can "none eligible" be concluded, so optimality is
-        always decided on all of them.
-        """
-        cols, state, lower, upper = self.cols, self.state, self.lower, self.upper
-        ncol = len(cols)
-        d: dict[int, mpq] = {}
-        part = max(-(-ncol // PARTIAL_PARTS), 2 * (self.m + 1))
-        start = 0 if lowest else self._partial_start % ncol
-        best = -1
-        best_abs = ZERO
-        first = -1
-        seen: dict[int, mpq] = {}  # every reduced cost computed; all of them when none is eligible
-        for k in range(ncol):
-            if k >= part and best >= 0:
-                break
-            j = start + k
-            if j >= ncol:
-                j -= ncol
-            s = state[j]
-            if s == BASIC:
-                continue
-            lo, hi = lower[j], upper[j]
-            if lo is not None and hi is not None and lo == hi:
-                continue
-            dj = cost[j]
-            for i, a in cols[j]:
-                yi = y[i]
-                if yi:
-                    dj -= yi * a
-            seen[j] = dj
-            a = _gain(dj, s)
-            if a is None:
-                continue
-            d[j] = dj
-            if lowest:
-                return d, j, j
-            if a > best_abs or (a == best_abs and j < best):
-                best, best_abs = j, a
-        else:
-            k = ncol
-        self._partial_start = start + k
-        self.partial_looked = k  # how many columns this scan looked at
-        if best < 0:
-            self.partial_seen = seen  # every column looked at: the result reuses these
-            return d, -1, -1
-        return d, min(d), best
 
     def _update_reduced_costs(self, d: list[mpq | None], q: int, b: int, p: int, alpha_pq: mpq) -> None:
         """Bring ``d`` from the current basis to the one where ``q`` replaces ``b`` at position p.
