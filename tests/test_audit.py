@@ -164,7 +164,12 @@ def replay(model, recs) -> list[tuple[F, F]]:
         for k, v in zip(basis, xb):
             value[k] = v
         if rec["phase"] == 1:
-            obj = sum((value[k] for k in cols if k[1] == "artificial"), F(0))
+            # the artificials' sum (primal phase 1), or the bound violations of
+            # the other columns (the dual simplex's phase 1; none in the primal's)
+            obj = sum((value[k] for k in cols if k[1] == "artificial"), F(0)) + sum(
+                (lo[k] - value[k] if lo[k] is not None and value[k] < lo[k] else
+                 value[k] - hi[k] if hi[k] is not None and value[k] > hi[k] else F(0)
+                 for k in cols if k[1] != "artificial"), F(0))
         else:
             obj = model.objective_constant + sum((a * value[(n, "variable")] for n, a in cost.items()), F(0))
         out.append((F(rec["objective"]), obj))
@@ -218,7 +223,7 @@ def test_read_log_refuses_floats(tmp_path):
 
 DOCUMENTED_RULES = {  # the README's audit-log section names these, and only these
     base + suffix
-    for base in ("devex", "partial dantzig", "dantzig", "bland")
+    for base in ("devex", "partial dantzig", "dantzig", "bland", "dual", "dual bland")
     for suffix in ("", " (lexicographic ties)", " (last resort)", " (degenerate run)")
 }
 

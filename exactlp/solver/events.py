@@ -1,7 +1,10 @@
 """Events the pivot loop emits.  The loop does no I/O: listeners do.
 
 Numbers are Fractions in the model's sense (phase 2) or the sum of
-infeasibilities (phase 1).  Column references are (label, kind) with kind
+infeasibilities (phase 1: the artificials' sum, or in a phase 1 by the
+dual simplex the basic values' distances outside their bounds; there a pivot's
+``ratio`` is the dual step ``|d_q / alpha_pq|`` and ``reduced_cost`` is in the
+model's sense).  Column references are (label, kind) with kind
 one of ``variable``, ``slack`` (the logical of a constraint) and
 ``artificial`` (phase 1 only).
 """

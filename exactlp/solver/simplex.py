@@ -16,6 +16,14 @@ artificials are fixed at ``[0, 0]``: a basic one left on a redundant
 (linearly dependent) equality row is harmless, it stays at zero, and the
 ratio test lets it leave at step zero whenever a pivot would move it.
 
+Phase 1 by the dual simplex.  Under the guarded rule, without a suggested
+basis, when every structural column can rest on the bound its cost prefers
+(so the all-logical basis is dual feasible), phase 1 is the dual simplex of
+:mod:`exactlp.solver.dual` instead: no artificial columns, and the basis it
+ends at is primal feasible and still dual feasible, i.e. optimal; phase 2
+then only proves it.  (On D6CUBE, 6,184 columns and highly degenerate, the
+primal method took 44,527 pivots and the dual 433.)
+
 Phase 2 minimises ``c^T x`` (a maximised objective is negated in
 :mod:`exactlp.solver.form`) from the feasible basis phase 1 left.
 
@@ -89,6 +97,8 @@ from gmpy2 import lcm as _lcm
 from gmpy2 import mpq, mpz
 
 from .basis import EtaBasis, factor_ft
+from .dual import DualPhase
+from .pricing import _log16, _log16_of
 
 #: the exact factorisation used to (re)build the basis: sparse LU (Markowitz),
 #: with Forrest-Tomlin updates between refactorisations
@@ -117,6 +127,9 @@ PARTIAL_FACTOR = 8
 #: (0: never)
 PARTIAL_SWITCH = 2
 PARTIAL_PARTS = 8
+#: under the guarded rule, a start without a suggested basis takes phase 1 by the
+#: dual simplex (:mod:`exactlp.solver.dual`) instead of artificial columns
+DUAL_START = True
 
 
 def _lex_less(a: list[tuple[int, mpq]], b: list[tuple[int, mpq]]) -> bool:
@@ -168,46 +181,6 @@ def _dual_ints(y: list[mpq]):
     return [v.numerator * (dy // v.denominator) if v else 0 for v in y], dy
 
 
-def _mantissa_table() -> tuple[int, ...]:
-    """``floor(16 log2 (M / 128))`` for ``M = 128 .. 255``, in integers: the
-    largest ``t`` with ``2^t 128^16 <= M^16``."""
-    out = []
-    for m in range(128, 256):
-        t = 0
-        while t < 15 and (1 << (t + 1)) * 128**16 <= m**16:
-            t += 1
-        out.append(t)
-    return tuple(out)
-
-
-_MANTISSA16 = _mantissa_table()
-
-
-def _log16_of(n, d) -> int:
-    """:func:`_log16` of ``n / d`` (positive integers, in lowest terms or not)."""
-    # |v| = n / d lies in [2^(e-1), 2^(e+1)); q = floor(|v| 2^(8-e)) in [128, 512):
-    # at 256 or more E = e and M = floor(q / 2) (= floor(|v| 2^(7-e))), else E = e - 1, M = q
-    e = n.bit_length() - d.bit_length()
-    k = 8 - e
-    q = (n << k) // d if k >= 0 else n // (d << -k)
-    if q >= 256:
-        return 16 * e + _MANTISSA16[(q >> 1) - 128]
-    return 16 * e - 16 + _MANTISSA16[q - 128]
-
-
-def _log16(v: mpq) -> int:
-    """About 16 log2 |v| as an integer (v nonzero), at most 0.08 bit under it.
-
-    ``16 E + floor(16 log2 (M / 128))`` with ``2^E <= |v| < 2^(E+1)`` and
-    ``M = floor(|v| 2^(7-E))``, the leading eight bits of the value.  Both are
-    functions of the value alone, found by one integer division of short
-    quotient, so any fraction equal to ``v`` gives the same result
-    (:func:`_log16_of` takes ``v`` unreduced: the devex update reads
-    ``alpha_pj`` as ``(D alpha_pj) / D`` without dividing, and the pivot path
-    does not depend on whether the solves were scaled).  Integer arithmetic only.
-    """
-    n = v.numerator
-    return _log16_of(-n if n < 0 else n, v.denominator)
 
 
 #: rebuild the eta file after this many updates
@@ -231,7 +204,7 @@ class Outcome:
     d: list[mpq | None] | None = None
 
 
-class Simplex:
+class Simplex(DualPhase):
     #: tests set this to recompute the reduced costs after every update and compare
     check_updates = False
 
@@ -275,11 +248,13 @@ class Simplex:
         self._rows_cache = None
         self._int_cols_cache = None
         self._frac_cols_cache = None
+        self._int_rows_cache = None
         self.weights: list[int] = []
         self.scores: list[int] | None = None
         self._partial_start = 0
         self.partial_seen: dict[int, mpq] = {}  # reduced costs of the last full partial-pricing scan
         self.partial_looked = 0  # columns looked at by the last partial-pricing scan
+        self.dual_cost: list[mpq] | None = None  # set when phase 1 is the dual simplex's
         if hint is not None:
             reason = self._setup_warm(hint)
             if reason is None and self.repair:
@@ -290,7 +265,10 @@ class Simplex:
             self.warm = WarmStart(hint.source, hint.float_status, reason is None, reason_text)
             if reason is None:
                 return
-        self._setup()
+        if hint is None and pricing == "guarded" and DUAL_START and self._dual_start_possible():
+            self._setup_dual()
+        else:
+            self._setup()
 
     def _setup_warm(self, hint) -> str | None:
         """Start from a suggested basis; return why it was rejected, or None.
@@ -482,6 +460,25 @@ class Simplex:
                 self._setup()
             elif self.listener:
                 self.listener(PhaseEnd(1, ZERO, self.pivots[1]))
+        if self.dual_cost is not None:
+            if not self._primal_infeasible():
+                self.dual_cost = None  # the slack basis is feasible already: phase 2 as usual
+            else:
+                if self.listener:
+                    if self.warm is not None:  # asked for, but no suggestion came
+                        self.listener(self.warm)
+                        self._announced = True
+                    self.listener(self._start_event(1))
+                out = self._dual_phase()
+                if out.status == "restart":  # the dual phase's pivot budget ran out
+                    self.dual_cost = None
+                    self._setup()
+                elif out.status != "optimal":
+                    return self._finish(out)
+                else:
+                    if self.listener:
+                        self.listener(PhaseEnd(1, ZERO, self.pivots[1]))
+                    return self._phase_two()
         ncol = len(self.cols)
         phase = 1 if self.artificials else 2
         if self.listener and self.warm is not None and not getattr(self, "_announced", False):
@@ -512,6 +509,9 @@ class Simplex:
                 self.x[a] = ZERO
                 if self.state[a] != BASIC:
                     self.state[a] = AT_LOWER
+        return self._phase_two()
+
+    def _phase_two(self) -> Outcome:
         cost2 = list(self.f.cost) + [ZERO] * (len(self.cols) - self.f.ncols)
         out = self._phase(2, cost2)
         if out.status == "optimal" and self.listener:
@@ -710,7 +710,8 @@ class Simplex:
             self._int_cols_cache = (ncol, out)
         return self._int_cols_cache[1]
 
-    def _update_reduced_costs(self, d: list[mpq | None], q: int, b: int, p: int, alpha_pq: mpq) -> None:
+    def _update_reduced_costs(self, d: list[mpq | None], q: int, b: int, p: int, alpha_pq: mpq,
+                              row=None) -> None:
         """Bring ``d`` from the current basis to the one where ``q`` replaces ``b`` at position p.
 
         With ``rho = e_p^T B^-1`` (row p of the inverse of the *old* basis) and
@@ -721,13 +722,14 @@ class Simplex:
         ``d_b' = -theta``.  The arithmetic is exact, so the updated values are the
         recomputed ones (``check_updates`` asserts so in tests), at the cost of
         one btran of a unit vector and the rows of A where ``rho`` is nonzero,
-        instead of ``c_B^T B^-1`` and every column of A.
+        instead of ``c_B^T B^-1`` and every column of A.  ``row``: that tableau
+        row when the caller has it already, as :meth:`_tableau_row` gives it.
         """
         theta = d[q] / alpha_pq  # type: ignore[operator]
         d[q] = None
         # the row comes as D alpha_pj when the solves are scaled: then
         # d_j -= (theta / D) (D alpha_pj), one division in all instead of one a column
-        acc, scale = self._tableau_row(p)
+        acc, scale = self._tableau_row(p) if row is None else row
         step = theta if scale is None else theta / scale
         score = self.scores  # None unless the guarded rule has priced by weights
         if score is None:
@@ -774,15 +776,74 @@ class Simplex:
         # sums below meet only the short denominators of A; they are left scaled
         # (see basis.EtaBasis._set_scale and _update_reduced_costs)
         rho, d = self.basis.btran_scaled({p: ONE})
-        rows, state = self._rows(), self.state
-        acc: dict[int, mpq] = {}
-        get = acc.get
-        for i, r in enumerate(rho):
+        self.last_rho = (rho, d)  # D rho and D (None: unscaled), for the dual's weights
+        state = self.state
+        ints = _dual_ints(rho)
+        if ints is None:  # nested denominators: in fractions
+            rows = self._rows()
+            acc: dict[int, mpq] = {}
+            get = acc.get
+            for i, r in enumerate(rho):
+                if r:
+                    for j, a in rows[i]:
+                        if state[j] != BASIC:
+                            acc[j] = get(j, ZERO) + r * a
+            return acc, d
+        # On integers: rho = R / E (E the common denominator of the btran's
+        # result), and column j of A is its integers over e_j, so
+        # (R . (e_j a_j)) = E e_j (rho . a_j): summed by rows as Python integers
+        # (a product of two machine-size integers costs a fraction of one of two
+        # mpq's), then each sum over e_j once.  The row comes back scaled by E
+        # (times D when the solves are scaled).
+        big, e = ints
+        irows, escale, fcols = self._int_rows()
+        acc_i = [0] * len(self.cols)
+        for i, r in enumerate(big):
             if r:
-                for j, a in rows[i]:
-                    if state[j] != BASIC:
-                        acc[j] = get(j, ZERO) + r * a
-        return acc, d
+                r = int(r)
+                for j, a in irows[i]:
+                    acc_i[j] += r * a
+        # (a whole entry stays a Python integer: mpq arithmetic takes it as it is,
+        # and it has the numerator and denominator that the devex update reads)
+        out: dict = {}
+        for j, v in enumerate(acc_i):
+            if v and state[j] != BASIC:
+                ej = escale[j]
+                out[j] = v if ej == 1 else mpq(v, ej)
+        for j, col in fcols:  # columns kept in fractions (see _int_cols)
+            if state[j] != BASIC:
+                v = ZERO
+                for i, a in col:
+                    if big[i]:
+                        v += big[i] * a
+                if v:
+                    out[j] = v
+        scale = e if d is None else e * d
+        return out, (None if scale == 1 else scale)
+
+    def _int_rows(self):
+        """The columns of :meth:`_int_cols` read by rows: ``(rows, e, fraction
+        columns)``, with ``rows[i]`` the pairs ``(j, e_j a_ij)`` as Python integers,
+        ``e[j]`` the scale of column j, and the columns kept in fractions as
+        ``(j, [(i, a_ij)])``.  Kept until the set of columns changes."""
+        ncol = len(self.cols)
+        if self._int_rows_cache is None or self._int_rows_cache[0] != ncol:
+            rows: list[list[tuple[int, int]]] = [[] for _ in range(self.m)]
+            escale: list[int] = [1] * ncol
+            fcols = []
+            for j, (e, pick, ints) in enumerate(self._int_cols()):
+                if e is None:
+                    fcols.append((j, ints))
+                    continue
+                escale[j] = int(e)
+                if pick is None:
+                    pairs = ints
+                else:
+                    pairs = zip((i for i, a in self.cols[j] if a), ints)
+                for i, v in pairs:
+                    rows[i].append((j, int(v)))
+            self._int_rows_cache = (ncol, (rows, escale, fcols))
+        return self._int_rows_cache[1]
 
     def _rows(self) -> list[list[tuple[int, mpq]]]:
         """The columns read by rows (kept until the set of columns changes)."""

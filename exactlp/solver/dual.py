@@ -1,0 +1,383 @@
+"""Phase 1 by the dual simplex, from a dual-feasible slack basis.  No I/O.
+
+A mix-in of :class:`exactlp.solver.simplex.Simplex` (it works on the same
+basis, values and reduced costs); the pivot loop there calls it when the
+guarded rule starts without a suggested basis.
+
+The start.  Every logical is basic and every structural column rests on the
+bound its cost prefers: its lower bound when ``c_j > 0``, its upper bound when
+``c_j < 0``.  With the logicals basic the duals are ``y = 0``, so ``d_j = c_j``
+and this basis is dual feasible (``d_j >= 0`` at a lower bound, ``<= 0`` at an
+upper one, ``= 0`` for a free column).  The start is taken only when every
+column can rest so (a column with ``c_j > 0`` and no lower bound cannot): the
+primal method's phase 1 runs otherwise.  (Shifting such costs to zero for
+phase 1, and pivoting on with the primal method afterwards, was measured on
+the 29 Netlib problems up to 500 rows that would need it: slower by a fifth or
+more on 9 of them (BANDM, DEGEN2 and SCAGR25 among them), faster on about as
+many; no better overall.)  The basis is
+usually primal infeasible: some logical ``a_i x`` lies outside ``[L_i, U_i]``.
+
+A dual pivot.  Pick a basic column ``b`` (position ``p``) outside its bounds,
+``delta = x_b - l_b < 0`` or ``delta = x_b - u_b > 0``; it will leave at the
+bound it violates.  With ``rho = e_p^T B^-1`` and ``alpha_pj = rho . a_j``, a
+nonbasic ``q`` moving by ``theta`` moves ``x_b`` by ``-theta alpha_pq``, so
+``theta = delta / alpha_pq`` puts ``x_b`` on its bound.  After the pivot the
+reduced costs are ``d_j' = d_j - (d_q / alpha_pq) alpha_pj`` and the leaving
+column's is ``-d_q / alpha_pq``, which must be ``>= 0`` when it leaves at its
+lower bound and ``<= 0`` at its upper one.  Write ``s = -1`` when ``delta < 0``
+and ``s = +1`` when ``delta > 0``, and ``a_j = s alpha_pj``: then
+``d_j' = d_j - t a_j`` with the dual step ``t = d_q / a_q >= 0``.  A column at
+its lower bound with ``a_j > 0`` (``d_j >= 0``) stays dual feasible exactly
+when ``t <= d_j / a_j``, one at its upper bound with ``a_j < 0`` (``d_j <= 0``)
+likewise, a free one (``d_j = 0``) only when ``t = 0``, and every other column
+moves its ``d_j`` the right way.  So ``q`` is the candidate with the smallest
+ratio ``d_j / a_j`` (the dual ratio test), which keeps the basis dual feasible
+at every pivot.  The leaving column's ``x_b`` lands exactly on its bound.
+
+Infeasibility.  When no candidate exists, no column that can move brings
+``x_b`` closer to its bound.  Take ``g = rho^T [A, -I]``: ``g x = 0`` for every
+solution, ``g_b = 1``, and ``g_j = 0`` at the other basic columns.  For
+``delta < 0`` no candidate means ``g_j >= 0`` at every column on its lower
+bound and ``g_j <= 0`` on its upper bound (fixed columns cannot move), so the
+least value of ``g x`` over the bounds is ``l_b + sum_j g_j x_j = l_b - x_b =
+-delta > 0``, against ``g x = 0``; for ``delta > 0`` the same holds for
+``-g``.  The row multipliers ``s rho`` are then a Farkas certificate
+(:meth:`Simplex.farkas` with ``y = s rho``), independent of the costs.
+
+When the phase ends every basic value is within its bounds: the basis is
+primal feasible, and phase 2 (primal, with the true costs) goes on from it;
+as every reduced cost kept its sign, it is optimal, and phase 2 only proves it.
+
+Choice and termination.  The leaving row is the one with the largest
+``delta^2 / beta`` (dual steepest edge, :meth:`DualPhase._dual_leaving`), the
+entering column the smallest ratio with ties to the largest ``|a_j|``, then the
+lowest index.  A positive dual step strictly raises the
+dual objective, so a basis can only come back within a run of dual-degenerate
+pivots (``t = 0``).  After ``GUARD_RUN_FACTOR (m + 1)`` of those in one run,
+Bland's choice takes over until a positive step: the lowest-index column
+outside its bounds leaves, and ratio ties go to the lowest index.  Bland's
+rule applied to the dual is finite for the dual of a standard-form problem
+(R. G. Bland, 1977); for bounded columns that is not proven here, so the phase
+also stops after ``DUAL_LIMIT_FACTOR (m + n)`` pivots in all, and the solve then
+starts again from the slack basis with the primal two-phase method, whose
+termination is proven (see :mod:`exactlp.solver.simplex`).  No test or Netlib
+problem has come near that limit.
+"""
+
+from __future__ import annotations
+
+from gmpy2 import mpq
+
+from .basis import EtaBasis
+from .events import Pivot, Start
+from .form import frac
+
+ZERO = mpq(0)
+ONE = mpq(1)
+BASIC, AT_LOWER, AT_UPPER, AT_ZERO = 0, 1, 2, 3
+
+#: the dual phase gives up (and the primal two-phase method starts from the slack
+#: basis) after this many pivots per row and column
+DUAL_LIMIT_FACTOR = 10
+#: dual steepest-edge weights are kept rounded to this many significant bits
+WEIGHT_BITS = 64
+
+
+def _round(n, d) -> mpq:
+    """``n / d`` (``d > 0``) truncated towards zero to ``WEIGHT_BITS`` significant bits,
+    as an exact rational with a power of two for denominator; 0 stays 0.  Integer
+    arithmetic only: one division with a short quotient."""
+    if not n:
+        return ZERO
+    neg = n < 0
+    if neg:
+        n = -n
+    k = WEIGHT_BITS - (n.bit_length() - d.bit_length())
+    m = (n << k) // d if k >= 0 else n // (d << -k)
+    if neg:
+        m = -m
+    return mpq(m, 1 << k) if k >= 0 else mpq(m << -k)
+
+
+class DualPhase:
+    """The dual simplex's phase 1 (a mix-in: ``self`` is a ``Simplex``)."""
+
+    def _dual_start_possible(self) -> bool:
+        """Can every structural column rest on the bound its cost prefers?"""
+        f, lower, upper = self.f, self.lower, self.upper
+        for j in range(f.n):
+            c = f.cost[j]
+            if (c > 0 and lower[j] is None) or (c < 0 and upper[j] is None):
+                return False
+        return True
+
+    def _setup_dual(self) -> None:
+        """The slack basis, with every structural on the bound its cost prefers
+        (:meth:`_dual_start_possible` must hold): dual feasible, since ``y = 0``."""
+        f, m = self.f, self.m
+        ncol = f.ncols
+        x = [ZERO] * ncol
+        state = [AT_LOWER] * ncol
+        lower, upper = self.lower, self.upper
+        for j in range(f.n):
+            c = f.cost[j]
+            if c > 0:
+                x[j], state[j] = lower[j], AT_LOWER
+            elif c < 0:
+                x[j], state[j] = upper[j], AT_UPPER
+            else:
+                x[j], state[j] = self._rest(j)
+        r = [ZERO] * m
+        for j in range(f.n):
+            if x[j]:
+                for i, a in self.cols[j]:
+                    r[i] += a * x[j]
+        head = [f.n + i for i in range(m)]
+        self.unit_row = {f.n + i: (i, -1) for i in range(m)}
+        for i in range(m):
+            x[f.n + i], state[f.n + i] = r[i], BASIC
+        self.x, self.state, self.head = x, state, head
+        self.pos_of = [-1] * ncol
+        for p, c in enumerate(head):
+            self.pos_of[c] = p
+        self.basis = EtaBasis(m, [-1] * m)
+        self.dual_cost = list(f.cost)
+
+    def _violation(self, c: int) -> mpq:
+        """``x_c - l_c`` below the lower bound, ``x_c - u_c`` above the upper, else 0."""
+        v, lo, hi = self.x[c], self.lower[c], self.upper[c]
+        if lo is not None and v < lo:
+            return v - lo
+        if hi is not None and v > hi:
+            return v - hi
+        return ZERO
+
+    def _primal_infeasible(self) -> bool:
+        return any(self._violation(c) for c in self.head)
+
+    def _infeasibility_sum(self) -> mpq:
+        return sum((abs(self._violation(c)) for c in self.head), ZERO)
+
+    def _dual_leaving(self, bland: bool) -> tuple[int, mpq]:
+        """(position, delta) of the basic column to leave, or (-1, 0) if none is infeasible.
+
+        Dual steepest edge: the largest ``delta_c^2 / beta_c``, with ``beta_c``
+        the squared length of the row of ``B^-1`` where ``c`` is basic (kept by
+        column, see :meth:`_dual_weights_update`), and ``delta_c`` rounded the
+        same way; ties to the larger ``|delta|``, then the lower column.  Under
+        Bland's choice, the lowest column outside its bounds.
+        """
+        best, best_delta, best_key = -1, ZERO, None
+        beta = self.dual_weights
+        for p, c in enumerate(self.head):
+            delta = self._violation(c)
+            if not delta:
+                continue
+            if bland:
+                if best_key is None or c < best_key:
+                    best, best_delta, best_key = p, delta, c
+                continue
+            r = _round(delta.numerator, delta.denominator)
+            mag = -delta if delta < 0 else delta
+            key = (r * r / beta[c], mag, -c)
+            if best_key is None or key > best_key:
+                best, best_delta, best_key = p, delta, key
+        return best, best_delta
+
+    def _dual_weights_update(self, alpha: dict[int, mpq], alpha_pq: mpq, p: int, q: int, b: int) -> None:
+        """Dual steepest-edge weights after ``q`` replaces ``b`` at position ``p``.
+
+        With ``rho_i`` the rows of ``B^-1``, ``beta_i = ||rho_i||^2``, ``alpha = B^-1 a_q``
+        and ``tau = B^-1 rho_p``: the new rows are ``rho_p / alpha_p`` and
+        ``rho_i - (alpha_i / alpha_p) rho_p``, so (D. Goldfarb and J. K. Reid,
+        Math. Programming 12, 1977; J. J. Forrest and D. Goldfarb, Math.
+        Programming 57, 1992; both cited from memory)
+        ``beta_p' = beta_p / alpha_p^2`` and
+        ``beta_i' = beta_i - 2 (alpha_i / alpha_p) tau_i + (alpha_i / alpha_p)^2 beta_p``.
+        ``beta_p`` is recomputed exactly from ``rho_p`` at every pivot (the
+        btran of the tableau row left it in ``self.last_rho``); the others are
+        kept rounded to ``WEIGHT_BITS`` significant bits (:func:`_round`): they
+        only choose among the infeasible rows, never decide anything, and the
+        rounding keeps them short while the exact values grow as long as ``B^-1``.
+        A rounded weight is kept at or above ``1 / ||a_c||^2``, a true lower
+        bound (``rho_i . a_c = 1`` for the column ``c`` basic in row ``i``, and
+        Cauchy-Schwarz).  The arithmetic is on integers only.
+        ``alpha`` may be any positive multiple of ``B^-1 a_q`` (a scaled ftran):
+        only the ratios ``alpha_i / alpha_p`` are read from it; ``alpha_pq`` is the
+        true pivot.
+        """
+        beta, head = self.dual_weights, self.head
+        rho, rd = self.last_rho
+        w = [(i, v) for i, v in enumerate(rho) if v]
+        # beta_p = ||rho_p||^2 exactly, with rho_p = rho / rd
+        sq = sum((v * v for _, v in w), ZERO)
+        if rd is not None:
+            sq = sq / (rd * rd)
+        bp = _round(sq.numerator, sq.denominator)
+        tau, td = self.basis.ftran_scaled(w)  # td B^-1 (rd rho_p)
+        tscale = (rd if rd is not None else 1) * (td if td is not None else 1)
+        ap = alpha[p]
+        apn, apd = ap.numerator, ap.denominator
+        if apn < 0:  # (the ratio's denominator must be positive for _round)
+            apn, apd = -apn, -apd
+        floor = self._beta_floor
+        for i, a in alpha.items():
+            if i == p or not a:
+                continue
+            c = head[i]
+            r = _round(a.numerator * apd, a.denominator * apn)
+            t = tau.get(i)
+            new = beta[c] + r * r * bp
+            if t:
+                new -= 2 * r * _round(t.numerator, t.denominator * tscale)
+            lo = floor(c)
+            beta[c] = lo if new < lo else _round(new.numerator, new.denominator)
+        sq = sq / (alpha_pq * alpha_pq)
+        new = _round(sq.numerator, sq.denominator)
+        lo = floor(q)
+        beta[q] = lo if new < lo else new
+
+    def _beta_floor(self, c: int) -> mpq:
+        """``1 / ||a_c||^2``: no row of an inverse where column c is basic is shorter."""
+        got = self._beta_floors.get(c)
+        if got is None:
+            sq = sum((a * a for _, a in self.cols[c]), ZERO)
+            got = self._beta_floors[c] = _round(sq.denominator, sq.numerator)
+        return got
+
+    def _dual_entering(self, row: dict[int, mpq], d: list, s: int, bland: bool) -> int:
+        """The dual ratio test over the tableau row ``row`` (``D alpha_pj`` by column).
+
+        Every ratio ``d_j / (s D alpha_pj)`` is ``1 / D`` of the true one (``D > 0``),
+        so the smallest and the ties among them are the same.  Returns -1 when no
+        column qualifies (the model is infeasible).
+        """
+        state = self.state
+        best, best_t, best_a = -1, None, None
+        for j, v in row.items():
+            dj = d[j]
+            if dj is None or not v:
+                continue  # fixed (cannot move)
+            a = v if s > 0 else -v
+            st = state[j]
+            if st == AT_LOWER:
+                if a <= 0:
+                    continue
+            elif st == AT_UPPER:
+                if a >= 0:
+                    continue
+            # (a free column rests at zero with d_j = 0: any a != 0 qualifies, at ratio 0)
+            t = dj / a
+            if best_t is None or t < best_t:
+                best, best_t, best_a = j, t, abs(a)
+            elif t == best_t:
+                if bland:
+                    if j < best:
+                        best, best_a = j, abs(a)
+                else:
+                    aa = abs(a)
+                    if aa > best_a or (aa == best_a and j < best):
+                        best, best_a = j, aa
+        return best
+
+    def _dual_phase(self):
+        """Run dual pivots until the basis is primal feasible.
+
+        Returns an ``Outcome``: ``optimal`` (the basis is now primal feasible),
+        ``infeasible`` (with Farkas row multipliers), a limit, or ``restart``
+        (the pivot budget ran out: start again with the primal method).
+        """
+        from .simplex import GUARD_RUN_FACTOR, Outcome
+
+        cost, m = self.dual_cost, self.m
+        d = self._reduced_costs(cost, [ZERO] * m)  # y = 0 at the slack basis
+        budget = DUAL_LIMIT_FACTOR * (m + len(self.cols))
+        guard_limit = GUARD_RUN_FACTOR * (m + 1)
+        run_degenerate = 0
+        bland = False
+        pivots = 0
+        self.dual_weights = [ONE] * len(self.cols)  # every row of B^-1 = -I has length 1
+        self._beta_floors: dict[int, mpq] = {}
+        while True:
+            if self.check_updates:
+                y = self._duals(cost)
+                assert d == self._reduced_costs(cost, y), "dual phase: reduced-cost update drifted"
+            if self.should_stop is not None and self.should_stop():
+                return Outcome("interrupted", self._infeasibility_sum(), self._duals(cost))
+            if self.iteration_limit is not None and self.iterations >= self.iteration_limit:
+                return Outcome("iteration_limit", self._infeasibility_sum(), self._duals(cost))
+            if self.time_limit is not None and self.elapsed() > self.time_limit:
+                return Outcome("time_limit", self._infeasibility_sum(), self._duals(cost))
+            p, delta = self._dual_leaving(bland)
+            if p < 0:
+                return Outcome("optimal", ZERO, None)
+            if pivots >= budget:
+                return Outcome("restart")
+            s = -1 if delta < 0 else 1
+            row, scale = self._tableau_row(p)
+            q = self._dual_entering(row, d, s, bland)
+            if q < 0:
+                # no column can bring x_b back: s rho is a Farkas certificate
+                rho = self.basis.btran({p: ONE})
+                y = [-r for r in rho] if s < 0 else list(rho)
+                return Outcome("infeasible", self._infeasibility_sum(), y)
+            b = self.head[p]
+            alpha, ad = self.basis.ftran_scaled(self.cols[q])
+            alpha_pq = alpha[p] if ad is None else alpha[p] / ad
+            if self.check_updates:
+                assert alpha_pq == (mpq(row[q]) if scale is None else mpq(row[q]) / scale), "dual phase: pivot mismatch"
+            dq = d[q]
+            t_dual = dq / alpha_pq * s  # = d_q / a_q >= 0 (see the module's notes)
+            theta = delta / alpha_pq  # the entering column's move: puts x_b on its bound
+            tab = None
+            if self.tableau:
+                tab = self._tableau(d, self._duals(cost), ZERO, 1)
+            # --- apply the step (x_b lands on its bound exactly) -------------------
+            self.iterations += 1
+            self.pivots[1] += 1
+            pivots += 1
+            self.x[q] += theta
+            per = theta if ad is None else theta / ad
+            head, x = self.head, self.x
+            for r, a in alpha.items():
+                x[head[r]] -= per * a
+            bound = "lower" if s < 0 else "upper"
+            x[b] = self.lower[b] if s < 0 else self.upper[b]
+            self._update_reduced_costs(d, q, b, p, alpha_pq, row=(row, scale))
+            self._dual_weights_update(alpha, alpha_pq, p, q, b)
+            self.state[b] = AT_LOWER if s < 0 else AT_UPPER
+            self.state[q] = BASIC
+            self.pos_of[b] = -1
+            self.pos_of[q] = p
+            head[p] = q
+            self.basis.replace(p, alpha, self.cols[q], ad)
+            if self._refactor_due():
+                self._reinvert()
+            rule = "dual bland (last resort)" if bland else "dual"
+            if t_dual:
+                run_degenerate = 0
+                bland = False
+            else:
+                run_degenerate += 1
+                if run_degenerate > guard_limit:
+                    bland = True
+            if self.listener:
+                self.listener(Pivot(
+                    iteration=self.iterations,
+                    phase=1,
+                    entering=self.ref(q),
+                    reduced_cost=frac(self.f.sign * dq),
+                    direction=1 if theta > 0 else -1,
+                    leaving=self.ref(b),
+                    leaving_bound=bound,
+                    ratio=frac(t_dual),
+                    step=frac(abs(theta)),
+                    objective=frac(self._infeasibility_sum()),
+                    degenerate=not t_dual,
+                    rule=rule,
+                    tableau=tab,
+                ))
+
+    def _start_event(self, phase: int):
+        at_up = tuple(self.ref(j) for j in range(len(self.cols)) if self.state[j] == AT_UPPER)
+        return Start((), tuple(self.ref(c) for c in self.head), at_up, phase, frac(self._infeasibility_sum()))

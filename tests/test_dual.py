@@ -1,0 +1,206 @@
+"""Phase 1 by the dual simplex (exactlp.solver.dual).
+
+Checked against outside references where there are any: the primal two-phase
+method of this package (same status and objective), and every certificate by
+the independent verifier; the Farkas multipliers of a small model and the
+rounding of the weights are derived by hand below.
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction as F
+
+import pytest
+from gmpy2 import mpq
+from hypothesis import HealthCheck, given, settings
+
+import exactlp
+from exactlp.io import model_from_text
+from exactlp.solver import dual as dual_module
+from exactlp.solver import simplex as simplex_module
+from exactlp.solver.events import Pivot, Start
+
+from .helpers import always_scaled, solve_verified, sympy_solve
+from .models import KNOWN
+from .strategies import lp_models
+
+
+def _events(model, **kw):
+    events: list = []
+    r = exactlp.solve(model, listener=events.append, warm_start=False, **kw)
+    return r, events
+
+
+def _rules(events) -> set[str]:
+    return {e.rule for e in events if isinstance(e, Pivot)}
+
+
+@pytest.fixture
+def recheck(monkeypatch):
+    """Recompute reduced costs after every pivot, and keep the steepest-edge
+    weights exact (no rounding) so that they can be compared with the true
+    squared lengths of the rows of B^-1 before every choice of a leaving row."""
+    monkeypatch.setattr(simplex_module.Simplex, "check_updates", True)
+    monkeypatch.setattr(dual_module, "_round", lambda n, d: mpq(n, d))
+    checked = {"rows": 0}
+    plain = dual_module.DualPhase._dual_leaving
+
+    def leaving(self, bland):
+        for p, c in enumerate(self.head):
+            rho = self.basis.btran({p: mpq(1)})
+            assert self.dual_weights[c] == sum((v * v for v in rho), mpq(0)), "weight drifted"
+            checked["rows"] += 1
+        return plain(self, bland)
+
+    monkeypatch.setattr(dual_module.DualPhase, "_dual_leaving", leaving)
+    return checked
+
+
+DUAL_FEASIBLE = """
+minimize: 3 a + 2 b + 4 c
+variables:
+  a: {lower: 0}
+  b: {lower: 0, upper: 30}
+  c: {lower: 0}
+constraints:
+  r1: a + b + c >= 10
+  r2: 2 a - b >= 4
+  r3: b + 3 c >= 9
+  r4: a + c <= 40
+"""
+
+
+def test_a_dual_feasible_start_goes_by_the_dual_simplex(recheck):
+    m = model_from_text(DUAL_FEASIBLE)
+    r, events = _events(m)
+    # the reference: the primal two-phase method of this package, same model
+    r2 = exactlp.solve(m, warm_start=False, pricing="bland")
+    assert r.status is r2.status is exactlp.Status.OPTIMAL
+    assert r.objective == r2.objective == F(191, 7)
+    assert type(r.objective) is F
+    # by hand: a = 29/7, b = 30/7, c = 11/7 make r1, r2 and r3 tight (70/7 = 10,
+    # 58/7 - 30/7 = 4, 30/7 + 33/7 = 9); the duals 13/7, 4/7, 5/7, 0 satisfy the dual
+    # rows exactly (a: 13/7 + 8/7 = 3, b: 13/7 - 4/7 + 5/7 = 2, c: 13/7 + 15/7 = 4)
+    # and give 10 (13/7) + 4 (4/7) + 9 (5/7) = 191/7: no gap.  SymPy's lpmin agrees.
+    assert dict(r.primal) == {"a": F(29, 7), "b": F(30, 7), "c": F(11, 7)}
+    assert dict(r.duals) == {"r1": F(13, 7), "r2": F(4, 7), "r3": F(5, 7), "r4": F(0)}
+    assert sympy_solve(m) == ("optimal", F(191, 7))
+    start = next(e for e in events if isinstance(e, Start))
+    assert start.phase == 1 and start.artificial_rows == ()
+    assert start.objective == 10 + 4 + 9  # the rows' shortfalls at x = 0
+    # The first pivot by hand: every weight is 1 at the slack basis, so the largest
+    # shortfall leaves, r1 (delta = -10, s = -1).  rho = -e_1, so alpha_1j = -1 for
+    # a, b and c, and s alpha = 1 > 0 for each: the ratios d_j / 1 are the costs
+    # 3, 2 and 4, and b enters with dual step 2.  It rises by theta = -10 / -1 = 10,
+    # leaving 2a - b = -10, 14 short of 4; r3 = 10 and r4 = 0 are within their bounds.
+    first = next(e for e in events if isinstance(e, Pivot))
+    assert (first.entering, first.leaving, first.leaving_bound) == (("b", "variable"), ("r1", "slack"), "lower")
+    assert (first.reduced_cost, first.ratio, first.step, first.direction) == (2, 2, 10, 1)
+    assert first.objective == 14 and not first.degenerate and first.phase == 1
+    assert all(e.ratio >= 0 and e.step > 0 for e in events if isinstance(e, Pivot))
+    assert _rules(events) == {"dual"}
+    assert r.pivots_phase1 > 0 and r.pivots_phase2 == 0
+    assert recheck["rows"] > 0
+    solve_verified(m, warm_start=False)
+
+
+INFEASIBLE = """
+minimize: x + y
+variables:
+  x: {lower: 0}
+  y: {lower: 0}
+constraints:
+  r: x + y <= -1
+"""
+
+
+def test_infeasibility_found_by_the_dual_ratio_test_has_the_hand_derived_farkas_multipliers():
+    # Slack basis B = [-1], s = x + y = 0 > U = -1: delta = 1, rho = -1, and both
+    # columns have alpha = rho . a_j = -1, so neither can lower s: no entering
+    # column.  y = rho = -1 on the row, and mu = -A^T y = (1, 1) on the bounds:
+    # -1 * U + 1 * 0 + 1 * 0 = 1 > 0, the Farkas contradiction.
+    m = model_from_text(INFEASIBLE)
+    r, events = _events(m)
+    assert r.status is exactlp.Status.INFEASIBLE
+    assert dict(r.farkas_rows) == {"r": F(-1)}
+    assert dict(r.farkas_bounds) == {"x": F(1), "y": F(1)}
+    assert all(type(v) is F for v in (*r.farkas_rows.values(), *r.farkas_bounds.values()))
+    assert r.pivots_phase1 == 0
+    solve_verified(m, warm_start=False)
+
+
+def test_a_cost_that_cannot_start_dual_feasible_keeps_the_primal_method():
+    # pasture-like column: maximised (cost -17 when minimising) with no upper bound
+    m = model_from_text("""
+maximize: 17 p + q
+variables:
+  p: {lower: 0}
+  q: {lower: 0, upper: 5}
+constraints:
+  cap: p + q <= 12
+  least: p >= 2
+""")
+    r, events = _events(m)
+    assert r.status is exactlp.Status.OPTIMAL and r.objective == 17 * 12
+    assert not any(rule.startswith("dual") for rule in _rules(events))
+    start = next(e for e in events if isinstance(e, Start))
+    assert start.artificial_rows == ("least",)
+
+
+@settings(max_examples=150, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
+@given(model=lp_models(max_vars=6, max_rows=6))
+def test_dual_and_primal_agree_on_random_models(recheck, model):
+    r = solve_verified(model, warm_start=False)
+    again = exactlp.solve(model, warm_start=False, pricing="bland")
+    assert r.status is again.status
+    assert r.objective == again.objective
+
+
+@settings(max_examples=60, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
+@given(model=lp_models(max_vars=6, max_rows=6))
+def test_dual_phase_with_every_solve_scaled(recheck, monkeypatch, model):
+    always_scaled(monkeypatch)
+    r = solve_verified(model, warm_start=False)
+    again = exactlp.solve(model, warm_start=False, pricing="bland")
+    assert r.status is again.status and r.objective == again.objective
+
+
+def test_bland_as_the_last_resort_of_the_dual(monkeypatch):
+    # every degenerate dual pivot past the first hands over to Bland's choice
+    monkeypatch.setattr(simplex_module, "GUARD_RUN_FACTOR", 0)
+    seen: set[str] = set()
+    for text in [DUAL_FEASIBLE, INFEASIBLE] + [k[1] for k in KNOWN if "crossed" not in k[0]]:
+        m = model_from_text(text)
+        r, events = _events(m)
+        seen |= _rules(events)
+        again = exactlp.solve(m, warm_start=False, pricing="bland")
+        assert r.status is again.status and r.objective == again.objective
+        solve_verified(m, warm_start=False)
+    assert "dual bland (last resort)" in seen
+
+
+def test_the_dual_phase_gives_way_to_the_primal_method_when_its_budget_runs_out(monkeypatch):
+    monkeypatch.setattr(dual_module, "DUAL_LIMIT_FACTOR", 0)
+    m = model_from_text(DUAL_FEASIBLE)
+    r, events = _events(m)
+    starts = [e for e in events if isinstance(e, Start)]
+    # the dual phase's start, then the primal method's own from the slack basis
+    assert len(starts) == 2 and starts[0].artificial_rows == () and starts[1].artificial_rows
+    assert not any(rule.startswith("dual") for rule in _rules(events))
+    assert r.objective == exactlp.solve(m, warm_start=False, pricing="bland").objective
+    solve_verified(m, warm_start=False)
+
+
+def test_weights_are_rounded_towards_zero_to_64_bits():
+    r = dual_module._round
+    # 1/3 = 0.0101...b: the first 64 significant bits are 0x5555...5 (64 bits) over 2^64
+    assert r(1, 3) == mpq(0x5555555555555555, 2**64)
+    assert r(-1, 3) == -r(1, 3)
+    assert r(0, 7) == 0 and type(r(0, 7)) is type(mpq(0))
+    assert r(2**100, 1) == 2**100  # exact: fewer bits than kept
+    for n, d in ((10**40 + 1, 3), (7, 10**30), (2**64 + 1, 1), (123456789, 987654321)):
+        v, exact = r(n, d), mpq(n, d)
+        ulp = mpq(2) ** (n.bit_length() - d.bit_length() - 64)
+        assert 0 <= exact - v < ulp, (n, d)
