@@ -75,6 +75,8 @@ def event_record(ev) -> dict:
         }
         if ev.tableau is not None:
             rec["tableau"] = plain(ev.tableau)
+        if ev.flipped:
+            rec["flipped"] = [{**col(ref), "to": bound} for ref, bound in ev.flipped]
         return rec
     if isinstance(ev, PhaseEnd):
         return {"record": "phase_end", "phase": ev.phase, "objective": plain(ev.objective), "pivots": ev.pivots}

@@ -303,6 +303,8 @@ def trace_report(console: Console, records: list[dict], pivot: int | None) -> No
         for r in steps:
             leaving = r.get("leaving")
             lv = "bound flip" if not isinstance(leaving, dict) else f"{leaving['name']} -> {r.get('leaving_bound')}"
+            if r.get("flipped"):  # a dual pivot's bound flips, made before it
+                lv += f" (+{len(r['flipped'])} flipped)"
             ent = r["entering"]["name"] + (" ↑" if r.get("direction") == "increase" else " ↓")
             cells = [str(r["iteration"]), str(r["phase"]), ent, lv, r.get("ratio") or "", r["step"],
                      r["objective"], r["rule"] + (" (degenerate)" if r.get("degenerate") else "")]
@@ -315,8 +317,12 @@ def trace_report(console: Console, records: list[dict], pivot: int | None) -> No
 
             raise InputError(f"the log has no pivot {pivot} (it has {len(steps)})", field="--pivot")
         r = match[0]
-        pairs = [(k, str(r[k]) if not isinstance(r[k], dict) else f"{r[k]['name']} ({r[k]['kind']})")
-                 for k in sorted(r) if k not in ("tableau", "record")]
+        def shown(k, v) -> str:
+            if k == "flipped":
+                return ", ".join(f"{f['name']} -> {f['to']}" for f in v)
+            return str(v) if not isinstance(v, dict) else f"{v['name']} ({v['kind']})"
+
+        pairs = [(k, shown(k, r[k])) for k in sorted(r) if k not in ("tableau", "record")]
         console.print(Text(f"Pivot {pivot}", style="bold"))
         kv(console, pairs)
         tab = r.get("tableau")

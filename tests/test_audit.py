@@ -152,6 +152,9 @@ def replay(model, recs) -> list[tuple[F, F]]:
         if rec["record"] not in ("pivot", "flip"):
             continue
         e = (rec["entering"]["name"], rec["entering"]["kind"])
+        for f in rec.get("flipped", ()):  # a dual pivot's bound flips, made before it
+            k = (f["name"], f["kind"])
+            value[k] = hi[k] if f["to"] == "upper" else lo[k]
         if rec["record"] == "flip":
             value[e] = hi[e] if rec["direction"] == "increase" else lo[e]
         else:

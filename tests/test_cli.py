@@ -177,6 +177,28 @@ def test_trace_table_and_one_pivot(cli, tmp_path):
     assert (code, err) == (2, "exactlp: --pivot: the log has no pivot 9 (it has 3)\n")
 
 
+def test_trace_shows_a_dual_pivots_bound_flips(cli, write, tmp_path):
+    # the model of tests/test_dual.py's hand-derived bound flips
+    model = write("flips.yaml", """
+minimize: x1 + 2 x2 + 3 x3
+variables:
+  x1: {lower: 0, upper: 1}
+  x2: {lower: 0, upper: 1}
+  x3: {lower: 0, upper: 10}
+constraints:
+  r: x1 + x2 + x3 >= 5
+""")
+    log = tmp_path / "f.jsonl"
+    assert cli("solve", model, "-l", log, "--no-warm-start")[0] == 0
+    code, out, _ = cli("trace", log)
+    assert code == 0
+    assert any(line.split()[:7] == ["1", "1", "x3", "↑", "r", "->", "lower"] and "(+2 flipped)" in line
+               for line in lines(out))
+    code, out, _ = cli("trace", log, "--pivot", "1")
+    assert code == 0
+    assert any(line.split() == ["flipped", "x1", "->", "upper,", "x2", "->", "upper"] for line in lines(out))
+
+
 def test_trace_bad_log(cli, write):
     p = write("l.jsonl", "not json\n")
     code, _, err = cli("trace", p)

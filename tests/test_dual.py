@@ -39,7 +39,8 @@ def _rules(events) -> set[str]:
 def recheck(monkeypatch):
     """Recompute reduced costs after every pivot, and keep the steepest-edge
     weights exact (no rounding) so that they can be compared with the true
-    squared lengths of the rows of B^-1 before every choice of a leaving row."""
+    weighted squared lengths of the rows of B^-1 before every choice of a
+    leaving row."""
     monkeypatch.setattr(simplex_module.Simplex, "check_updates", True)
     monkeypatch.setattr(dual_module, "_round", lambda n, d: mpq(n, d))
     checked = {"rows": 0}
@@ -48,7 +49,8 @@ def recheck(monkeypatch):
     def leaving(self, bland):
         for p, c in enumerate(self.head):
             rho = self.basis.btran({p: mpq(1)})
-            assert self.dual_weights[c] == sum((v * v for v in rho), mpq(0)), "weight drifted"
+            g = self._row_g  # the rows' weights (powers of 4, from the row scaling)
+            assert self.dual_weights[c] == sum((g[k] * v * v for k, v in enumerate(rho)), mpq(0)), "weight drifted"
             checked["rows"] += 1
         return plain(self, bland)
 
@@ -204,3 +206,73 @@ def test_weights_are_rounded_towards_zero_to_64_bits():
         v, exact = r(n, d), mpq(n, d)
         ulp = mpq(2) ** (n.bit_length() - d.bit_length() - 64)
         assert 0 <= exact - v < ulp, (n, d)
+
+
+FLIPS = """
+minimize: x1 + 2 x2 + 3 x3
+variables:
+  x1: {lower: 0, upper: 1}
+  x2: {lower: 0, upper: 1}
+  x3: {lower: 0, upper: 10}
+constraints:
+  r: x1 + x2 + x3 >= 5
+"""
+
+
+def test_bound_flips_by_hand():
+    # Slack start: r = 0, delta = -5.  alpha = -1 for every column, so s alpha = 1
+    # and the ratios are the costs 1, 2, 3.  The dual objective rises at rate 5;
+    # passing x1's ratio (flipping it to 1) lowers the rate by 1 (to 4), passing
+    # x2's by 1 more (to 3), and x3's would take 10: x3 enters.  After the flips
+    # r = 2, delta = -3, so x3 rises by 3: x = (1, 1, 3), objective 1 + 2 + 9 = 12.
+    m = model_from_text(FLIPS)
+    r, events = _events(m)
+    assert r.status is exactlp.Status.OPTIMAL and r.objective == 12
+    assert dict(r.primal) == {"x1": 1, "x2": 1, "x3": 3}
+    assert (r.pivots_phase1, r.pivots_phase2, r.bound_flips) == (1, 0, 2)
+    (piv,) = [e for e in events if isinstance(e, Pivot)]
+    assert piv.flipped == ((("x1", "variable"), "upper"), (("x2", "variable"), "upper"))
+    assert (piv.entering, piv.ratio, piv.step, piv.objective) == (("x3", "variable"), 3, 3, 0)
+    solve_verified(m, warm_start=False)
+
+
+def test_without_bound_flips_the_same_optimum_takes_more_pivots(monkeypatch):
+    monkeypatch.setattr(dual_module, "BOUND_FLIPS", False)
+    r, events = _events(model_from_text(FLIPS))
+    assert r.objective == 12 and r.bound_flips == 0 and r.pivots_phase1 + r.pivots_phase2 == 3
+    assert all(e.flipped == () for e in events if isinstance(e, Pivot))
+
+
+def test_infeasibility_after_every_candidate_is_flipped():
+    # as above without x3: passing x1 and x2 leaves the rate at 3 > 0 and no column
+    # to enter; after the flips r = 2 < 5.  y = 1 on r, mu = -A^T y = (-1, -1):
+    # 1 * 5 + (-1) * 1 + (-1) * 1 = 3 > 0.
+    m = model_from_text("""
+minimize: x1 + 2 x2
+variables:
+  x1: {lower: 0, upper: 1}
+  x2: {lower: 0, upper: 1}
+constraints:
+  r: x1 + x2 >= 5
+""")
+    r, _ = _events(m)
+    assert r.status is exactlp.Status.INFEASIBLE
+    assert dict(r.farkas_rows) == {"r": F(1)}
+    assert dict(r.farkas_bounds) == {"x1": F(-1), "x2": F(-1)}
+    assert r.bound_flips == 2
+    solve_verified(m, warm_start=False)
+
+
+def test_the_log_records_the_flips(tmp_path):
+    import json
+
+    from exactlp.audit import AuditLog
+
+    m = model_from_text(FLIPS)
+    path = tmp_path / "flips.log.jsonl"
+    with open(path, "w") as fh:
+        exactlp.solve(m, warm_start=False, listener=AuditLog(fh, m, {}))
+    (rec,) = [json.loads(x) for x in path.read_text().splitlines() if '"pivot"' in x]
+    assert rec["flipped"] == [{"name": "x1", "kind": "variable", "to": "upper"},
+                              {"name": "x2", "kind": "variable", "to": "upper"}]
+    assert rec["rule"] == "dual" and rec["ratio"] == "3"

@@ -66,6 +66,8 @@ problem has come near that limit.
 
 from __future__ import annotations
 
+import heapq
+
 from gmpy2 import mpq
 
 from .basis import EtaBasis
@@ -81,6 +83,10 @@ BASIC, AT_LOWER, AT_UPPER, AT_ZERO = 0, 1, 2, 3
 DUAL_LIMIT_FACTOR = 10
 #: dual steepest-edge weights are kept rounded to this many significant bits
 WEIGHT_BITS = 64
+#: steepest-edge lengths measured on the rows scaled by powers of two (see _row_weights)
+ROW_SCALED = True
+#: the dual ratio test passes breakpoints of columns with two finite bounds by flipping them
+BOUND_FLIPS = True
 
 
 def _round(n, d) -> mpq:
@@ -187,8 +193,9 @@ class DualPhase:
     def _dual_weights_update(self, alpha: dict[int, mpq], alpha_pq: mpq, p: int, q: int, b: int) -> None:
         """Dual steepest-edge weights after ``q`` replaces ``b`` at position ``p``.
 
-        With ``rho_i`` the rows of ``B^-1``, ``beta_i = ||rho_i||^2``, ``alpha = B^-1 a_q``
-        and ``tau = B^-1 rho_p``: the new rows are ``rho_p / alpha_p`` and
+        With ``rho_i`` the rows of ``B^-1``, ``G`` the diagonal of the row weights
+        ``g_k`` (:meth:`_row_weights`), ``beta_i = rho_i G rho_i^T``, ``alpha = B^-1 a_q``
+        and ``tau = B^-1 G rho_p^T``: the new rows are ``rho_p / alpha_p`` and
         ``rho_i - (alpha_i / alpha_p) rho_p``, so (D. Goldfarb and J. K. Reid,
         Math. Programming 12, 1977; J. J. Forrest and D. Goldfarb, Math.
         Programming 57, 1992; both cited from memory)
@@ -199,18 +206,19 @@ class DualPhase:
         kept rounded to ``WEIGHT_BITS`` significant bits (:func:`_round`): they
         only choose among the infeasible rows, never decide anything, and the
         rounding keeps them short while the exact values grow as long as ``B^-1``.
-        A rounded weight is kept at or above ``1 / ||a_c||^2``, a true lower
-        bound (``rho_i . a_c = 1`` for the column ``c`` basic in row ``i``, and
-        Cauchy-Schwarz).  The arithmetic is on integers only.
+        A rounded weight is kept at or above ``1 / (a_c^T G^-1 a_c)``, a true
+        lower bound (``rho_i . a_c = 1`` for the column ``c`` basic in row ``i``,
+        and Cauchy-Schwarz).  The arithmetic is on integers only.
         ``alpha`` may be any positive multiple of ``B^-1 a_q`` (a scaled ftran):
         only the ratios ``alpha_i / alpha_p`` are read from it; ``alpha_pq`` is the
         true pivot.
         """
         beta, head = self.dual_weights, self.head
         rho, rd = self.last_rho
-        w = [(i, v) for i, v in enumerate(rho) if v]
+        g = self._row_g
+        w = [(i, v * g[i]) for i, v in enumerate(rho) if v]
         # beta_p = ||rho_p||^2 exactly, with rho_p = rho / rd
-        sq = sum((v * v for _, v in w), ZERO)
+        sq = sum((v * v * g[i] for i, v in enumerate(rho) if v), ZERO)
         if rd is not None:
             sq = sq / (rd * rd)
         bp = _round(sq.numerator, sq.denominator)
@@ -237,23 +245,76 @@ class DualPhase:
         lo = floor(q)
         beta[q] = lo if new < lo else new
 
+    def _row_weights(self) -> list:
+        """``g_k = 4^e_k``: the steepest-edge lengths are those of the model with
+        row k divided by ``2^e_k``, ``e_k`` the middle of the binary exponents of
+        the row's largest and smallest entries (so its entries straddle 1).
+
+        A row's scale changes only which row leaves, never a value: the dual
+        simplex on the scaled model takes the same pivots (up to the weights' rounding)
+        (the rows of ``(R B)^-1 = B^-1 R^-1`` have lengths ``rho_i G rho_i^T``
+        with ``G = R^-2``; column scales cancel between ``delta^2`` and ``beta``).
+        Measured with the weights of the unscaled rows: SCSD8 996 dual pivots
+        against 765, GROW7 402 against 319 (TUFF 265 against 364).  All 1 when
+        ``ROW_SCALED`` is off.
+        """
+        m = self.m
+        if not ROW_SCALED:
+            return [ONE] * m
+        hi = [None] * m
+        lo = [None] * m
+        for j in range(self.f.n):
+            for i, a in self.cols[j]:
+                if not a:
+                    continue
+                e = abs(a.numerator).bit_length() - a.denominator.bit_length()
+                if hi[i] is None or e > hi[i]:
+                    hi[i] = e
+                if lo[i] is None or e < lo[i]:
+                    lo[i] = e
+        out = []
+        for i in range(m):
+            if hi[i] is None:
+                out.append(ONE)
+                continue
+            k = (hi[i] + lo[i]) // 2  # row i scaled by 2^-k
+            out.append(mpq(1 << (2 * k)) if k >= 0 else mpq(1, 1 << (-2 * k)))
+        return out
+
     def _beta_floor(self, c: int) -> mpq:
-        """``1 / ||a_c||^2``: no row of an inverse where column c is basic is shorter."""
+        """``1 / (a_c^T G^-1 a_c)``: no row of an inverse where column c is basic is shorter."""
         got = self._beta_floors.get(c)
         if got is None:
-            sq = sum((a * a for _, a in self.cols[c]), ZERO)
+            sq = sum((a * a / self._row_g[i] for i, a in self.cols[c]), ZERO)
             got = self._beta_floors[c] = _round(sq.denominator, sq.numerator)
         return got
 
-    def _dual_entering(self, row: dict[int, mpq], d: list, s: int, bland: bool) -> int:
-        """The dual ratio test over the tableau row ``row`` (``D alpha_pj`` by column).
+    def _dual_entering(self, row: dict, d: list, s: int, bland: bool, slope=None) -> tuple[int, list[int]]:
+        """The dual ratio test over the tableau row ``row`` (``S alpha_pj`` by column,
+        ``S > 0`` the row's scale): ``(entering column, columns to flip)``, or
+        ``(-1, flips)`` when no column can enter (the model is infeasible once the
+        flips are made).
 
-        Every ratio ``d_j / (s D alpha_pj)`` is ``1 / D`` of the true one (``D > 0``),
-        so the smallest and the ties among them are the same.  Returns -1 when no
-        column qualifies (the model is infeasible).
+        Every ratio ``d_j / (s S alpha_pj)`` is ``1 / S`` of the true one, so the
+        order of the ratios and their ties are the same.  Bound flipping (long
+        steps; R. Fourer, 1994, and I. Maros, "Computational techniques of the
+        simplex method", 2003, cited from memory), given ``slope = S |delta|``:
+        the dual objective rises at the rate ``|delta|`` per unit of the dual step
+        ``t``; passing the ratio of a candidate with two finite bounds, instead of
+        letting it enter, flips it to its other bound, which keeps its reduced
+        cost's sign right (the sign changes with the bound) and lowers the rate by
+        ``|alpha_pj| (u_j - l_j)``.  So the candidates are taken in the order of
+        their ratios, a whole group of equal ratios at a time, and a group is
+        passed while the rate stays positive after it and every member has two
+        bounds; the entering column is the best of the first group not passed
+        (ties to the largest ``|alpha_pj|``, then the lowest index).  The rate
+        left is ``|delta'|`` after the flips, so ``x_b`` is still outside the same
+        bound and the pivot that follows is the ordinary one.  Without
+        ``slope`` (Bland's choice) nothing is flipped.
         """
-        state = self.state
-        best, best_t, best_a = -1, None, None
+        state, lower, upper = self.state, self.lower, self.upper
+        cands = []
+        boxed = False  # any candidate with two finite bounds (that could be flipped)
         for j, v in row.items():
             dj = d[j]
             if dj is None or not v:
@@ -267,18 +328,36 @@ class DualPhase:
                 if a >= 0:
                     continue
             # (a free column rests at zero with d_j = 0: any a != 0 qualifies, at ratio 0)
-            t = dj / a
-            if best_t is None or t < best_t:
-                best, best_t, best_a = j, t, abs(a)
-            elif t == best_t:
-                if bland:
-                    if j < best:
-                        best, best_a = j, abs(a)
-                else:
-                    aa = abs(a)
-                    if aa > best_a or (aa == best_a and j < best):
-                        best, best_a = j, aa
-        return best
+            if a < 0:
+                a = -a
+            cands.append((dj / (v if s > 0 else -v), -a, j))  # (ratio, -|a_j|, j): the order of choice
+            if slope is not None and boxed is False and lower[j] is not None and upper[j] is not None:
+                boxed = True
+        if not cands:
+            return -1, []
+        if bland:
+            t0 = min(c[0] for c in cands)
+            return min(j for t, _, j in cands if t == t0), []
+        if slope is None or not boxed:  # nothing to flip: the smallest ratio enters
+            return min(cands)[2], []
+        heapq.heapify(cands)  # groups of equal ratios are taken off in order
+        flips: list[int] = []
+        while cands:
+            first = heapq.heappop(cands)
+            group = [first]
+            while cands and cands[0][0] == first[0]:
+                group.append(heapq.heappop(cands))
+            drop = ZERO
+            for _, na, j in group:
+                lo, hi = lower[j], upper[j]
+                if lo is None or hi is None:
+                    return first[2], flips  # cannot be passed: the best of the group enters
+                drop += -na * (hi - lo)
+            if slope - drop <= 0:
+                return first[2], flips
+            slope -= drop
+            flips.extend(j for _, _, j in group)
+        return -1, flips  # every candidate passed: the rate never falls to zero
 
     def _dual_phase(self):
         """Run dual pivots until the basis is primal feasible.
@@ -296,7 +375,10 @@ class DualPhase:
         run_degenerate = 0
         bland = False
         pivots = 0
+        self._row_g = self._row_weights()
         self.dual_weights = [ONE] * len(self.cols)  # every row of B^-1 = -I has length 1
+        for i in range(m):
+            self.dual_weights[self.f.n + i] = self._row_g[i]
         self._beta_floors: dict[int, mpq] = {}
         while True:
             if self.check_updates:
@@ -315,7 +397,15 @@ class DualPhase:
                 return Outcome("restart")
             s = -1 if delta < 0 else 1
             row, scale = self._tableau_row(p)
-            q = self._dual_entering(row, d, s, bland)
+            slope = None
+            if not bland and BOUND_FLIPS:
+                slope = -delta if s < 0 else delta
+                if scale is not None:
+                    slope = slope * scale
+            q, flips = self._dual_entering(row, d, s, bland, slope)
+            if flips:
+                self._flip(flips)
+                delta = self._violation(self.head[p])  # same sign, closer to its bound
             if q < 0:
                 # no column can bring x_b back: s rho is a Farkas certificate
                 rho = self.basis.btran({p: ONE})
@@ -376,7 +466,31 @@ class DualPhase:
                     degenerate=not t_dual,
                     rule=rule,
                     tableau=tab,
+                    flipped=tuple((self.ref(j), "upper" if self.state[j] == AT_UPPER else "lower") for j in flips),
                 ))
+
+    def _flip(self, cols: list[int]) -> None:
+        """Move each of ``cols`` (nonbasic, two finite bounds) to its other bound,
+        and the basic values with them: ``x_B -= B^-1 (sum_j a_j dx_j)``, one ftran."""
+        x, state, lower, upper = self.x, self.state, self.lower, self.upper
+        moved: dict[int, mpq] = {}
+        for j in cols:
+            if state[j] == AT_LOWER:
+                dx = upper[j] - lower[j]
+                x[j], state[j] = upper[j], AT_UPPER
+            else:
+                dx = lower[j] - upper[j]
+                x[j], state[j] = lower[j], AT_LOWER
+            for i, a in self.cols[j]:
+                moved[i] = moved.get(i, ZERO) + a * dx
+        self.flips += len(cols)
+        col = [(i, v) for i, v in sorted(moved.items()) if v]
+        if not col:
+            return
+        w, wd = self.basis.ftran_scaled(col)
+        head = self.head
+        for r, v in w.items():
+            x[head[r]] -= v if wd is None else v / wd
 
     def _start_event(self, phase: int):
         at_up = tuple(self.ref(j) for j in range(len(self.cols)) if self.state[j] == AT_UPPER)

@@ -49,6 +49,8 @@ class Pivot:
     degenerate: bool
     rule: str
     tableau: dict | None = None
+    #: a dual pivot's bound flips, made before it: (column, the bound it moved to)
+    flipped: tuple = ()
 
 
 @dataclass(frozen=True)
