@@ -276,3 +276,51 @@ def test_the_log_records_the_flips(tmp_path):
     assert rec["flipped"] == [{"name": "x1", "kind": "variable", "to": "upper"},
                               {"name": "x2", "kind": "variable", "to": "upper"}]
     assert rec["rule"] == "dual" and rec["ratio"] == "3"
+
+
+def test_limits_stop_the_dual_phase_without_a_certificate():
+    m = model_from_text(DUAL_FEASIBLE)
+    r = exactlp.solve(m, warm_start=False, iteration_limit=1)
+    assert r.status is exactlp.Status.ITERATION_LIMIT and not r.status.is_proven
+    assert r.pivots_phase1 == 1 and r.objective is None
+    calls = iter(range(100))
+    r = exactlp.solve(m, warm_start=False, should_stop=lambda: next(calls) >= 1)
+    assert r.status is exactlp.Status.INTERRUPTED and r.pivots_phase1 == 1
+
+
+def test_the_tableau_of_a_dual_pivot_is_the_basis_inverse_times_the_columns():
+    m = model_from_text(DUAL_FEASIBLE)
+    _, events = _events(m, tableau=True)
+    pivots = [e for e in events if isinstance(e, Pivot)]
+    assert pivots and all(e.rule == "dual" for e in pivots)
+    checked = 0
+    for e in pivots:
+        tab = e.tableau
+        cols = [tuple(c) for c in tab["columns"]]
+        for p, b in enumerate(tab["basis"]):  # each basic column is a unit column of the tableau
+            j = cols.index(tuple(b))
+            assert [row[j] for row in tab["rows"]] == [F(int(i == p)) for i in range(len(tab["rows"]))]
+        # the leaving row's entry in the entering column is the pivot, and moving the
+        # entering column by the logged step puts the leaving value on its bound
+        q = cols.index(e.entering)
+        p = [tuple(b) for b in tab["basis"]].index(e.leaving)
+        name, kind = e.leaving
+        item = next(c for c in (m.constraints if kind == "slack" else m.variables) if c.name == name)
+        bound = item.lower if e.leaving_bound == "lower" else item.upper
+        if not e.flipped:
+            assert e.step == abs((tab["values"][p] - bound) / tab["rows"][p][q])
+            checked += 1
+    assert checked
+
+
+def test_same_model_same_log_byte_for_byte(tmp_path):
+    from exactlp.audit import AuditLog
+
+    m = model_from_text(FLIPS)
+    texts = []
+    for k in range(2):
+        path = tmp_path / f"{k}.jsonl"
+        with open(path, "w") as fh:
+            exactlp.solve(m, warm_start=False, listener=AuditLog(fh, m, {}))
+        texts.append(path.read_bytes())
+    assert texts[0] == texts[1] and b'"flipped"' in texts[0]
