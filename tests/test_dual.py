@@ -324,3 +324,8 @@ def test_same_model_same_log_byte_for_byte(tmp_path):
             exactlp.solve(m, warm_start=False, listener=AuditLog(fh, m, {}))
         texts.append(path.read_bytes())
     assert texts[0] == texts[1] and b'"flipped"' in texts[0]
+
+
+def test_the_column_states_are_the_pivot_loops_own():
+    codes = ("BASIC", "AT_LOWER", "AT_UPPER", "AT_ZERO")
+    assert [getattr(dual_module, c) for c in codes] == [getattr(simplex_module, c) for c in codes]

@@ -76,7 +76,7 @@ from .form import frac
 
 ZERO = mpq(0)
 ONE = mpq(1)
-BASIC, AT_LOWER, AT_UPPER, AT_ZERO = 0, 1, 2, 3
+BASIC, AT_LOWER, AT_UPPER, AT_ZERO = 0, 1, 2, 3  # the column states of simplex.py (a test checks)
 
 #: the dual phase gives up (and the primal two-phase method starts from the slack
 #: basis) after this many pivots per row and column
