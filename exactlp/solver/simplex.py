@@ -801,7 +801,13 @@ class Simplex(DualPhase):
         for i, r in enumerate(big):
             if r:
                 r = int(r)
-                for j, a in irows[i]:
+                plus, minus, other = irows[i]
+                # (entries +-1, most of A in many models, need no product)
+                for j in plus:
+                    acc_i[j] += r
+                for j in minus:
+                    acc_i[j] -= r
+                for j, a in other:
                     acc_i[j] += r * a
         # (a whole entry stays a Python integer: mpq arithmetic takes it as it is,
         # and it has the numerator and denominator that the devex update reads)
@@ -823,12 +829,13 @@ class Simplex(DualPhase):
 
     def _int_rows(self):
         """The columns of :meth:`_int_cols` read by rows: ``(rows, e, fraction
-        columns)``, with ``rows[i]`` the pairs ``(j, e_j a_ij)`` as Python integers,
+        columns)``, with ``rows[i]`` the columns where ``e_j a_ij`` is 1, those where
+        it is -1, and the pairs ``(j, e_j a_ij)`` of the rest, as Python integers,
         ``e[j]`` the scale of column j, and the columns kept in fractions as
         ``(j, [(i, a_ij)])``.  Kept until the set of columns changes."""
         ncol = len(self.cols)
         if self._int_rows_cache is None or self._int_rows_cache[0] != ncol:
-            rows: list[list[tuple[int, int]]] = [[] for _ in range(self.m)]
+            rows: list[tuple[list[int], list[int], list[tuple[int, int]]]] = [([], [], []) for _ in range(self.m)]
             escale: list[int] = [1] * ncol
             fcols = []
             for j, (e, pick, ints) in enumerate(self._int_cols()):
@@ -841,7 +848,13 @@ class Simplex(DualPhase):
                 else:
                     pairs = zip((i for i, a in self.cols[j] if a), ints)
                 for i, v in pairs:
-                    rows[i].append((j, int(v)))
+                    v = int(v)
+                    if v == 1:
+                        rows[i][0].append(j)
+                    elif v == -1:
+                        rows[i][1].append(j)
+                    else:
+                        rows[i][2].append((j, v))
             self._int_rows_cache = (ncol, (rows, escale, fcols))
         return self._int_rows_cache[1]
 
