@@ -329,3 +329,55 @@ def test_same_model_same_log_byte_for_byte(tmp_path):
 def test_the_column_states_are_the_pivot_loops_own():
     codes = ("BASIC", "AT_LOWER", "AT_UPPER", "AT_ZERO")
     assert [getattr(dual_module, c) for c in codes] == [getattr(simplex_module, c) for c in codes]
+
+
+def test_the_plain_dual_ratio_test_skips_only_what_cannot_win():
+    # reference: every ratio computed, the smallest taken, ties to the largest |a_j|
+    # then the lowest column (Bland: the lowest column); values straddle powers of
+    # two, where a skip at 2^1 or 2^2 instead of 2^4 would pick wrongly
+    import random
+    from types import SimpleNamespace
+
+    rng = random.Random(20261203)
+    # (3/2 has bit lengths 2 - 2 = 0 and 16/15 has 5 - 4 = 1, yet 16/15 is the smaller)
+    picks = [mpq(1), mpq(2), mpq(3), mpq(4), mpq(7, 2), mpq(15, 4), mpq(17, 4), mpq(31, 8), mpq(33, 8),
+             mpq(1, 3), mpq(5, 7), mpq(0), mpq(16), mpq(63, 4), mpq(3, 2), mpq(16, 15), mpq(32, 31)]
+    seen_ties = 0
+    for _ in range(400):
+        n = rng.randint(1, 9)
+        state = [rng.choice([1, 2, 3]) for _ in range(n)]  # lower, upper, free
+        d, row = [], {}
+        for j in range(n):
+            mag = rng.choice(picks)
+            d.append(mag if state[j] == 1 else -mag if state[j] == 2 else mpq(0))
+            if rng.random() < 0.8:
+                row[j] = rng.choice([1, -1, 2, -3, mpq(1, 2), mpq(-5, 4), mpq(7, 8), 4])
+        order = list(row)
+        rng.shuffle(order)  # (the loop's rows come in any order)
+        row = {j: row[j] for j in order}
+        s = rng.choice([1, -1])
+        fake = SimpleNamespace(state=state)
+        for bland in (False, True):
+            cands = []
+            for j, v in row.items():
+                a = v if s > 0 else -v
+                if (state[j] == 1 and a <= 0) or (state[j] == 2 and a >= 0):
+                    continue
+                cands.append((d[j] / a, -abs(a), j))
+            if not cands:
+                want = -1
+            elif bland:
+                t0 = min(c[0] for c in cands)
+                want = min(j for t, _, j in cands if t == t0)
+            else:
+                want = min(cands)[2]
+                seen_ties += sum(1 for c in cands if c[0] == min(cands)[0]) > 1
+            got = dual_module.DualPhase._dual_entering_plain(fake, row, d, s, bland)
+            assert got == want, (state, d, row, s, bland)
+    assert seen_ties > 20
+    # the edges of the rule, by hand: 16/15 < 3/2 with bit lengths 1 against 0, and
+    # (16/15) / (15/32) = 2.28 < (15/8) / (8/15) = 3.52 with bit lengths 3 against 0
+    fake = SimpleNamespace(state=[1, 1])
+    assert dual_module.DualPhase._dual_entering_plain(fake, {0: 1, 1: 1}, [mpq(3, 2), mpq(16, 15)], 1, False) == 1
+    assert dual_module.DualPhase._dual_entering_plain(
+        fake, {0: mpq(8, 15), 1: mpq(15, 32)}, [mpq(15, 8), mpq(16, 15)], 1, False) == 1

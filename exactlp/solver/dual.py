@@ -313,6 +313,8 @@ class DualPhase:
         ``slope`` (Bland's choice) nothing is flipped.
         """
         state, lower, upper = self.state, self.lower, self.upper
+        if slope is None or not self._boxed:
+            return self._dual_entering_plain(row, d, s, bland), []
         cands = []
         boxed = False  # any candidate with two finite bounds (that could be flipped)
         for j, v in row.items():
@@ -359,6 +361,54 @@ class DualPhase:
             flips.extend(j for _, _, j in group)
         return -1, flips  # every candidate passed: the rate never falls to zero
 
+    def _dual_entering_plain(self, row: dict, d: list, s: int, bland: bool) -> int:
+        """The smallest ratio ``d_j / a_j`` (ties as in :meth:`_dual_entering`; under
+        Bland's choice to the lowest index), with nothing to flip; -1 if none.
+
+        A positive ``n / d`` lies strictly between ``2^(bits n - bits d - 1)`` and
+        ``2^(bits n - bits d + 1)``, so with ``e`` the difference of those bit
+        lengths for ``d_j`` less that for ``|a_j|``, ``|t_j|`` lies strictly between
+        ``2^(e - 2)`` and ``2^(e + 2)``: a candidate whose ``e`` is 4 or more above
+        the best's can neither be smaller nor tie, and is passed over without its
+        division (the same rule as the primal ratio test, ``Simplex._ratio``).
+        """
+        state = self.state
+        best, best_t, best_e, best_a = -1, None, 0, None
+        for j, v in row.items():
+            dj = d[j]
+            if dj is None or not v:
+                continue  # fixed (cannot move)
+            a = v if s > 0 else -v
+            st = state[j]
+            if st == AT_LOWER:
+                if a <= 0:
+                    continue
+            elif st == AT_UPPER:
+                if a >= 0:
+                    continue
+            if a < 0:
+                a = -a
+            if dj:
+                n = dj.numerator
+                e = ((-n if n < 0 else n).bit_length() - dj.denominator.bit_length()
+                     - a.numerator.bit_length() + a.denominator.bit_length())
+                if best_t is not None and (not best_t or e >= best_e + 4):
+                    continue
+            else:
+                e = 0
+            t = dj / a  # (a = |a_j|, and d_j has the sign of a_j or is 0)
+            if t < 0:
+                t = -t
+            if best_t is None or t < best_t:
+                best, best_t, best_e, best_a = j, t, e, a
+            elif t == best_t:
+                if bland:
+                    if j < best:
+                        best, best_e, best_a = j, e, a
+                elif a > best_a or (a == best_a and j < best):
+                    best, best_e, best_a = j, e, a
+        return best
+
     def _dual_phase(self):
         """Run dual pivots until the basis is primal feasible.
 
@@ -380,6 +430,9 @@ class DualPhase:
         for i in range(m):
             self.dual_weights[self.f.n + i] = self._row_g[i]
         self._beta_floors: dict[int, mpq] = {}
+        # any column with two finite bounds that differ (only those can be flipped)
+        self._boxed = any(lo is not None and hi is not None and lo != hi
+                          for lo, hi in zip(self.lower, self.upper))
         while True:
             if self.check_updates:
                 y = self._duals(cost)
