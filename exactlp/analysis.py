@@ -12,7 +12,7 @@ from dataclasses import dataclass, replace
 from fractions import Fraction
 
 from .errors import InputError
-from .model import Constraint, Model, Sense, Variable
+from .model import Constraint, Model, Sense
 
 
 # ----------------------------------------------------------------------

@@ -157,7 +157,7 @@ def import_(
 
 
 def _result_json(model, result, cert, cert_path, log_path, digits):
-    from .numbers import format_decimal, format_number
+    from .numbers import format_decimal
 
     doc = {
         "tool": f"exactlp {__version__}",

@@ -10,7 +10,7 @@ integers or, with nested denominators, on fractions).
 import sys
 import time
 from pathlib import Path
-from hypothesis import given, settings, HealthCheck, seed
+from hypothesis import given, settings, HealthCheck
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 from tests.helpers import exact_violation, float_ray_holds, scipy_solve, solve_verified
 from tests.strategies import lp_models

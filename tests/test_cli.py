@@ -1,7 +1,6 @@
 """The command line (issue 5): every command and exit code, pinned width, no colour."""
 
 import json
-import os
 
 import pytest
 

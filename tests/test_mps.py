@@ -2,7 +2,6 @@
 
 from fractions import Fraction as F
 import gzip
-import time
 
 import pytest
 

@@ -181,8 +181,6 @@ def _dual_ints(y: list[mpq]):
     return [v.numerator * (dy // v.denominator) if v else 0 for v in y], dy
 
 
-
-
 #: rebuild the eta file after this many updates
 REINVERT_EVERY = 16
 #: ... and after this many when the solves are scaled (long numbers: each update
