@@ -390,8 +390,9 @@ class DualPhase:
                 a = -a
             if dj:
                 n = dj.numerator
-                e = ((-n if n < 0 else n).bit_length() - dj.denominator.bit_length()
-                     - a.numerator.bit_length() + a.denominator.bit_length())
+                e = (n.bit_length() - dj.denominator.bit_length()  # (bit_length ignores the sign)
+                     - (a.bit_length() - 1 if type(a) is int else
+                        a.numerator.bit_length() - a.denominator.bit_length()))
                 if best_t is not None and (not best_t or e >= best_e + 4):
                     continue
             else:
