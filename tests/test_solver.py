@@ -212,7 +212,7 @@ def test_updated_reduced_costs_on_netlib(recheck_updates, monkeypatch, partial, 
 def test_log16_is_monotone_and_close():
     from gmpy2 import mpq
 
-    from exactlp.solver.simplex import _log16
+    from exactlp.solver.pricing import _log16
 
     ints = [_log16(mpq(n)) for n in range(1, 5000)]
     assert ints == sorted(ints)  # monotone on each side (numerator, denominator)
@@ -235,7 +235,7 @@ def test_log16_depends_on_the_value_only():
 
     from gmpy2 import mpq, mpz
 
-    from exactlp.solver.simplex import _log16, _log16_of
+    from exactlp.solver.pricing import _log16, _log16_of
 
     rng = random.Random(8)
     for _ in range(3000):
