@@ -125,3 +125,16 @@ def klee_minty(n: int) -> str:
         rows.append(f"  r{i}: {' + '.join(terms)} <= {5 ** i}")
     return (f"maximize: {obj}\nvariables: {{{', '.join(n + ': {}' for n in names)}}}\nconstraints:\n"
             + "\n".join(rows) + "\n")
+
+
+#: three columns with two bounds each, where the dual phase's first ratio test
+#: flips two of them (worked by hand in tests/test_dual.py)
+FLIPS = """
+minimize: x1 + 2 x2 + 3 x3
+variables:
+  x1: {lower: 0, upper: 1}
+  x2: {lower: 0, upper: 1}
+  x3: {lower: 0, upper: 10}
+constraints:
+  r: x1 + x2 + x3 >= 5
+"""

@@ -177,16 +177,9 @@ def test_trace_table_and_one_pivot(cli, tmp_path):
 
 
 def test_trace_shows_a_dual_pivots_bound_flips(cli, write, tmp_path):
-    # the model of tests/test_dual.py's hand-derived bound flips
-    model = write("flips.yaml", """
-minimize: x1 + 2 x2 + 3 x3
-variables:
-  x1: {lower: 0, upper: 1}
-  x2: {lower: 0, upper: 1}
-  x3: {lower: 0, upper: 10}
-constraints:
-  r: x1 + x2 + x3 >= 5
-""")
+    from .models import FLIPS
+
+    model = write("flips.yaml", FLIPS)  # the model of tests/test_dual.py's hand-derived flips
     log = tmp_path / "f.jsonl"
     assert cli("solve", model, "-l", log, "--no-warm-start")[0] == 0
     code, out, _ = cli("trace", log)

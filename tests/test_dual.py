@@ -21,7 +21,7 @@ from exactlp.solver import simplex as simplex_module
 from exactlp.solver.events import Pivot, Start
 
 from .helpers import always_scaled, solve_verified, sympy_solve
-from .models import KNOWN
+from .models import FLIPS, KNOWN
 from .strategies import lp_models
 
 
@@ -208,15 +208,6 @@ def test_weights_are_rounded_towards_zero_to_64_bits():
         assert 0 <= exact - v < ulp, (n, d)
 
 
-FLIPS = """
-minimize: x1 + 2 x2 + 3 x3
-variables:
-  x1: {lower: 0, upper: 1}
-  x2: {lower: 0, upper: 1}
-  x3: {lower: 0, upper: 10}
-constraints:
-  r: x1 + x2 + x3 >= 5
-"""
 
 
 def test_bound_flips_by_hand():
@@ -336,7 +327,10 @@ def test_the_plain_dual_ratio_test_skips_only_what_cannot_win():
     # then the lowest column (Bland: the lowest column); values straddle powers of
     # two, where a skip at 2^1 or 2^2 instead of 2^4 would pick wrongly
     import random
-    from types import SimpleNamespace
+
+    class Fake(dual_module.DualPhase):  # only the column states are read
+        def __init__(self, state):
+            self.state = state
 
     rng = random.Random(20261203)
     # (3/2 has bit lengths 2 - 2 = 0 and 16/15 has 5 - 4 = 1, yet 16/15 is the smaller)
@@ -356,7 +350,7 @@ def test_the_plain_dual_ratio_test_skips_only_what_cannot_win():
         rng.shuffle(order)  # (the loop's rows come in any order)
         row = {j: row[j] for j in order}
         s = rng.choice([1, -1])
-        fake = SimpleNamespace(state=state)
+        fake = Fake(state)
         for bland in (False, True):
             cands = []
             for j, v in row.items():
@@ -377,7 +371,7 @@ def test_the_plain_dual_ratio_test_skips_only_what_cannot_win():
     assert seen_ties > 20
     # the edges of the rule, by hand: 16/15 < 3/2 with bit lengths 1 against 0, and
     # (16/15) / (15/32) = 2.28 < (15/8) / (8/15) = 3.52 with bit lengths 3 against 0
-    fake = SimpleNamespace(state=[1, 1])
+    fake = Fake([1, 1])
     assert dual_module.DualPhase._dual_entering_plain(fake, {0: 1, 1: 1}, [mpq(3, 2), mpq(16, 15)], 1, False) == 1
     assert dual_module.DualPhase._dual_entering_plain(
         fake, {0: mpq(8, 15), 1: mpq(15, 32)}, [mpq(15, 8), mpq(16, 15)], 1, False) == 1

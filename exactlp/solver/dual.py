@@ -133,11 +133,7 @@ class DualPhase:
                 x[j], state[j] = upper[j], AT_UPPER
             else:
                 x[j], state[j] = self._rest(j)
-        r = [ZERO] * m
-        for j in range(f.n):
-            if x[j]:
-                for i, a in self.cols[j]:
-                    r[i] += a * x[j]
+        r = self._activities(x)
         head = [f.n + i for i in range(m)]
         self.unit_row = {f.n + i: (i, -1) for i in range(m)}
         for i in range(m):
@@ -312,28 +308,15 @@ class DualPhase:
         bound and the pivot that follows is the ordinary one.  Without
         ``slope`` (Bland's choice) nothing is flipped.
         """
-        state, lower, upper = self.state, self.lower, self.upper
+        lower, upper = self.lower, self.upper
         if slope is None or not self._boxed:
             return self._dual_entering_plain(row, d, s, bland), []
         cands = []
         boxed = False  # any candidate with two finite bounds (that could be flipped)
-        for j, v in row.items():
-            dj = d[j]
-            if dj is None or not v:
-                continue  # fixed (cannot move)
-            a = v if s > 0 else -v
-            st = state[j]
-            if st == AT_LOWER:
-                if a <= 0:
-                    continue
-            elif st == AT_UPPER:
-                if a >= 0:
-                    continue
-            # (a free column rests at zero with d_j = 0: any a != 0 qualifies, at ratio 0)
-            if a < 0:
-                a = -a
-            cands.append((dj / (v if s > 0 else -v), -a, j))  # (ratio, -|a_j|, j): the order of choice
-            if slope is not None and boxed is False and lower[j] is not None and upper[j] is not None:
+        for j, dj, a in self._dual_candidates(row, d, s):
+            t = dj / a
+            cands.append((-t if t < 0 else t, -a, j))  # (ratio, -|a_j|, j): the order of choice
+            if boxed is False and lower[j] is not None and upper[j] is not None:
                 boxed = True
         if not cands:
             return -1, []
@@ -361,19 +344,13 @@ class DualPhase:
             flips.extend(j for _, _, j in group)
         return -1, flips  # every candidate passed: the rate never falls to zero
 
-    def _dual_entering_plain(self, row: dict, d: list, s: int, bland: bool) -> int:
-        """The smallest ratio ``d_j / a_j`` (ties as in :meth:`_dual_entering`; under
-        Bland's choice to the lowest index), with nothing to flip; -1 if none.
-
-        A positive ``n / d`` lies strictly between ``2^(bits n - bits d - 1)`` and
-        ``2^(bits n - bits d + 1)``, so with ``e`` the difference of those bit
-        lengths for ``d_j`` less that for ``|a_j|``, ``|t_j|`` lies strictly between
-        ``2^(e - 2)`` and ``2^(e + 2)``: a candidate whose ``e`` is 4 or more above
-        the best's can neither be smaller nor tie, and is passed over without its
-        division (the same rule as the primal ratio test, ``Simplex._ratio``).
-        """
+    def _dual_candidates(self, row: dict, d: list, s: int):
+        """The columns the dual ratio test may choose, as ``(j, d_j, |a_j|)``
+        (``a_j = s S alpha_pj``): at a lower bound with ``a_j > 0``, at an upper
+        bound with ``a_j < 0``, or free (resting at zero with ``d_j = 0``) with
+        ``a_j != 0``; fixed columns (``d_j`` None) never.  ``d_j`` has the sign
+        of ``a_j`` or is 0, so the ratio is ``|d_j| / |a_j|``."""
         state = self.state
-        best, best_t, best_e, best_a = -1, None, 0, None
         for j, v in row.items():
             dj = d[j]
             if dj is None or not v:
@@ -386,8 +363,21 @@ class DualPhase:
             elif st == AT_UPPER:
                 if a >= 0:
                     continue
-            if a < 0:
-                a = -a
+            yield j, dj, (-a if a < 0 else a)
+
+    def _dual_entering_plain(self, row: dict, d: list, s: int, bland: bool) -> int:
+        """The smallest ratio ``d_j / a_j`` (ties as in :meth:`_dual_entering`; under
+        Bland's choice to the lowest index), with nothing to flip; -1 if none.
+
+        A positive ``n / d`` lies strictly between ``2^(bits n - bits d - 1)`` and
+        ``2^(bits n - bits d + 1)``, so with ``e`` the difference of those bit
+        lengths for ``d_j`` less that for ``|a_j|``, ``|t_j|`` lies strictly between
+        ``2^(e - 2)`` and ``2^(e + 2)``: a candidate whose ``e`` is 4 or more above
+        the best's can neither be smaller nor tie, and is passed over without its
+        division (the same rule as the primal ratio test, ``Simplex._ratio``).
+        """
+        best, best_t, best_e, best_a = -1, None, 0, None
+        for j, dj, a in self._dual_candidates(row, d, s):
             if dj:
                 n = dj.numerator
                 e = (n.bit_length() - dj.denominator.bit_length()  # (bit_length ignores the sign)

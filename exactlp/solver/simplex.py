@@ -327,11 +327,7 @@ class Simplex(DualPhase):
         state = [AT_LOWER] * ncol
         for j in range(f.n):
             x[j], state[j] = self._rest(j)
-        r = [ZERO] * m
-        for j in range(f.n):
-            if x[j]:
-                for i, a in self.cols[j]:
-                    r[i] += a * x[j]
+        r = self._activities(x)
         head = [-1] * m
         signs = [-1] * m
         self.unit_row: dict[int, tuple[int, int]] = {}
@@ -363,6 +359,16 @@ class Simplex(DualPhase):
         for p, c in enumerate(head):
             self.pos_of[c] = p
         self.basis = EtaBasis(m, signs)
+
+    def _activities(self, x: list[mpq]) -> list[mpq]:
+        """``a_i x`` for every row, from the structural columns' values."""
+        r = [ZERO] * self.m
+        for j in range(self.f.n):
+            v = x[j]
+            if v:
+                for i, a in self.cols[j]:
+                    r[i] += a * v
+        return r
 
     def _rest(self, j: int, prefer_upper: bool = False) -> tuple[mpq, int]:
         """Where a nonbasic column rests: its lower bound, else its upper, else zero (free)."""
