@@ -119,6 +119,8 @@ def solve(
         tableau=tableau,
         should_stop=should_stop,
         hint=hint,
+        # a float solver's basis is checked by refinement first (see refine.py)
+        refine=pending is not None,
     )
     if pending is not None and hint is None and pending.reason:
         # asked for, but no suggestion came: said in the log and the result, not silently "off"

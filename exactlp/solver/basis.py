@@ -613,9 +613,13 @@ def _rows_of_lower(m: int, lsteps):
     return rows, [i for i in range(m) if not pivoted[i] and rows[i]]
 
 
-def factor_ft(m, head, cols, unit_row, integer_rows=None):
+class LongNumbers(Exception):
+    """Raised by :func:`factor_lu` when asked to give up on long numbers."""
+
+
+def factor_ft(m, head, cols, unit_row, integer_rows=None, give_up=None):
     """:func:`factor_lu`, as an :class:`FTBasis` (Forrest-Tomlin updates on top)."""
-    lu, new_head = factor_lu(m, head, cols, unit_row, integer_rows)
+    lu, new_head = factor_lu(m, head, cols, unit_row, integer_rows, give_up)
     return FTBasis(m, lu.lsteps, lu.ucols, lu.pivots, lu._fsrc), new_head
 
 
@@ -625,12 +629,18 @@ def factor_lu(
     cols: list[list[tuple[int, mpq]]],
     unit_row: dict[int, tuple[int, int]],
     integer_rows: bool | None = None,
+    give_up: int | None = None,
 ) -> tuple[LUBasis, list[int]]:
     """Factor the basis of columns ``head``; return it and the position -> column list.
 
     ``integer_rows``: eliminate the nucleus on integer rows (True), on fractions
     (False), or as :func:`_integer_rows` decides (None).  The factors are exact
     either way; only the pivot order and the cost can differ.
+
+    ``give_up``: raise :class:`LongNumbers` before eliminating the nucleus (what
+    the singletons leave) if its entries, written as fractions, hold this many
+    bits or more in all (the caller has another way for such bases, see
+    :meth:`Simplex._setup_warm`).
 
     Raises ArithmeticError when the columns are linearly dependent.
     """
@@ -738,6 +748,14 @@ def factor_lu(
     # denominator is longer than INT_ROWS_BITS, if each row's denominators share
     # a short multiple (see _integer_rows); integer_rows=True: integer rows
     # throughout.
+    if give_up is not None:
+        size = 0
+        for i, ri in enumerate(rows):
+            if ri and row_alive[i]:
+                for v in ri.values():
+                    size += v.numerator.bit_length() + v.denominator.bit_length()
+        if size >= give_up:
+            raise LongNumbers(f"a nucleus of {len(remaining)} columns and {size} bits")
     scale = _integer_rows(rows, row_alive, force=True) if integer_rows else None
     ints = scale is not None
     may_switch = integer_rows is None

@@ -1,0 +1,411 @@
+"""Exact solutions of a basis's linear systems by floating-point refinement.
+
+Used to check a suggested basis (the warm start) without factoring it
+exactly: the basic values ``x_B`` (``B x_B = r``) and the duals ``y``
+(``B^T y = c_B``) are found as below, and each is then checked exactly.  A
+check that fails, or a refinement that stalls, gives None, and the caller
+factors the basis exactly as before; so nothing here can change a result:
+floating point only proposes, and exact arithmetic decides.
+
+The method is numeric refinement with exact residuals, then rational
+reconstruction (from memory, after Z. Wan, "An algorithm to solve integer
+linear systems exactly using numerical methods", J. Symbolic Computation 41,
+2006):
+
+* Scale each row of ``A x = b`` by the least common multiple of its
+  denominators: an integer system with the same solution.
+* Keep an integer residual ``r`` (first ``b``) and integers ``X`` and ``K``
+  with ``A X = 2^K b - r``.  Each step solves ``A xh = r`` in double
+  precision, rounds ``2^k xh`` to integers ``xt``, and sets
+  ``r <- 2^k r - A xt`` (exactly), ``X <- 2^k X + xt``, ``K <- K + k``.
+  Since ``xh`` solves the system to about ``eps cond(A)`` relative, ``r``
+  stays as short as ``b`` and ``A`` while ``2^K`` grows ``k`` bits a step,
+  and the error ``x - X / 2^K = A^-1 r / 2^K`` shrinks by as much.
+* The exact ``x = adj(A) b / det(A)`` has denominators dividing ``det A``.
+  Once ``2^K`` is past about twice their length, the continued fraction of
+  ``X_i / 2^K`` finds them: a common denominator ``q`` is grown component by
+  component (after the first, most components need no factor of their own).
+* The candidate ``n / q`` is checked exactly: ``A n = q b`` in integers.  A
+  nonsingular ``A`` has one solution, so a candidate that passes is it.
+
+The residual is computed in 64-bit words that wrap around (numpy's unsigned
+arithmetic is modular): ``2^k r`` and ``A xt`` may each overflow, but their
+difference is short, and a short number is exact modulo ``2^64``.  A step
+whose new residual is not short (the float solve was too poor for ``k``
+bits, or a value wrapped) is taken again with a smaller ``k``.
+
+Floating point here never reaches a number of a result unchecked: it only
+proposes ``xt``; every residual is exact, and the answer is checked exactly.
+"""
+
+from __future__ import annotations
+
+from gmpy2 import f_mod_2exp as _f_mod_2exp
+from gmpy2 import isqrt as _isqrt
+from gmpy2 import lcm as _lcm
+from gmpy2 import mpq, mpz
+
+ONE = mpz(1)
+
+#: the float inverse is dense: bases with more rows than this are factored exactly
+MAX_ROWS = 1500
+#: entries of the integer matrix must be shorter than this many bits, and
+#: those of a scaled right-hand side shorter than RHS_BITS, so that the
+#: residuals fit 64-bit words
+ENTRY_BITS = 40
+RHS_BITS = 62
+#: a residual entry this long or longer means the step went too far
+RESIDUAL_BITS = 56
+#: the most bits taken per step (a double carries 53, less the condition
+#: number's); each step's bits are a multiple of 8, so that the steps'
+#: integers pack into bytes (see :func:`_combine`)
+STEP_MOST = 48
+#: the refinement gives up past this many bits in all (the Netlib bases up to
+#: 1,000 rows have denominators of at most about 8,500 bits: see basis.py)
+MAX_BITS = 40_000
+#: a few components are tried for their denominators at K = this many bits,
+#: then each time K has grown by a quarter
+FIRST_TRY = 64
+#: how many components are followed to learn when K suffices
+PROBES = 4
+#: the prime of the nonsingularity check: under 2^30, so that every residue is
+#: one digit of a Python integer (a prime near 2^61 took half as long again)
+NONSINGULAR_PRIME = (1 << 30) - 35
+
+
+def _reconstruct(value: int, den: int, tol: int, bound: int) -> int:
+    """The least ``s <= bound`` with ``|s value - h den| <= s tol`` for an integer
+    ``h``, among the convergents ``h / s`` of ``value / den`` (``0 < value < den``);
+    0 if there is none.
+
+    A convergent is the best approximation of its size: if ``value / den`` lies
+    within ``tol / den`` of a fraction ``a / s`` with ``2 s^2 tol < den``, that
+    fraction is one of the convergents.  Along the Euclidean algorithm on
+    ``(value, den)``, ``|s value - h den|`` for the convergent just formed is
+    the remainder just computed, so no product is needed to test it.
+    """
+    q0, q1 = 1, 0  # the convergents' denominators (their numerators are not needed)
+    a, b = value, den
+    while b:
+        t, r = divmod(a, b)
+        q0, q1 = q1, t * q1 + q0
+        if q1 > bound:
+            return 0
+        if r <= q1 * tol:
+            return q1
+        a, b = b, r
+    return 0
+
+
+class FloatInverse:
+    """A basis ``B`` (its columns, ``[(row, value), ...]`` each) as an integer
+    matrix ``A = B E`` (``E`` the diagonal of each column's least common
+    denominator), with ``A``'s inverse in double precision, for :meth:`primal`
+    and :meth:`dual`.  Raises ArithmeticError when this cannot be set up: numpy
+    missing, too many rows, an integer too long, or ``A`` singular in floats."""
+
+    def __init__(self, m: int, columns) -> None:
+        if not 0 < m <= MAX_ROWS:
+            raise ArithmeticError("no rows, or too many rows for a dense float inverse")
+        try:
+            import numpy as np
+        except ImportError:  # the float extra's library
+            raise ArithmeticError("numpy is not installed") from None
+        self.np, self.m = np, m
+        limit = 1 << ENTRY_BITS
+        rows, cols, vals, scales = [], [], [], []
+        for k, col in enumerate(columns):
+            e = ONE
+            for _, v in col:
+                d = v.denominator
+                if d != 1:
+                    e = _lcm(e, d)
+            scales.append(e)
+            for i, v in col:
+                if v:
+                    a = int(v.numerator * (e // v.denominator))
+                    if not -limit < a < limit:
+                        raise ArithmeticError("an entry is too long for 64-bit residuals")
+                    rows.append(i)
+                    cols.append(k)
+                    vals.append(a)
+        self.scales = scales
+        self.rows, self.cols, self.vals = rows, cols, vals
+        dense = np.zeros((m, m))
+        dense[rows, cols] = vals  # exact: every integer is below 2^53
+        # equilibrated by powers of two (exact), rows then columns, so that the
+        # float inverse is as accurate as the matrix allows: A = S_r^-1 H S_c^-1
+        # with H = S_r A S_c, so A^-1 = S_c H^-1 S_r
+        big = np.abs(dense)
+        s_r = np.ldexp(1.0, -np.frexp(big.max(axis=1))[1])
+        big *= s_r[:, None]
+        s_c = np.ldexp(1.0, -np.frexp(big.max(axis=0))[1])
+        try:
+            inv = np.linalg.inv(dense * s_r[:, None] * s_c[None, :])
+        except np.linalg.LinAlgError:
+            raise ArithmeticError("singular in floating point") from None
+        self.inv = inv * s_c[:, None] * s_r[None, :]
+        if not np.all(np.isfinite(self.inv)):
+            raise ArithmeticError("singular in floating point")
+
+    def primal(self, rhs: list[mpq]) -> list[mpq] | None:
+        """The exact ``x`` with ``B x = rhs``, or None.  (``B x = A E^-1 x``: solve
+        ``A z = rhs``, then ``x = E z``.)"""
+        got = self._solve(self.rows, self.cols, self.inv, rhs, ONE)
+        if got is None:
+            return None
+        nums, den = got
+        self.den_hint = den
+        return [mpq(v * e, den) if v else mpq(0) for v, e in zip(nums, self.scales)]
+
+    def dual(self, rhs: list[mpq]):
+        """``(y, (Y, D))`` with ``B^T y = rhs`` exactly and ``y = Y / D`` (``Y``
+        integers), or None.  (``B^T = E^-1 A^T``: solve ``A^T y = E rhs``.)  The
+        denominators of both solutions divide ``det A``, so the primal's common
+        denominator, if known, is tried first."""
+        got = self._solve(self.cols, self.rows, self.inv.T,
+                          [v * e if v and e != 1 else v for v, e in zip(rhs, self.scales)],
+                          getattr(self, "den_hint", ONE))
+        if got is None:
+            return None
+        nums, den = got
+        return [mpq(v, den) if v else mpq(0) for v in nums], (nums, den)
+
+    def nonsingular(self, p: int = NONSINGULAR_PRIME) -> bool:
+        """Whether ``det A != 0``, proven by ``det A mod p != 0`` (False can also
+        mean that ``p`` divides a nonzero determinant: then the caller factors
+        exactly, and learns the truth there).  Gaussian elimination modulo the
+        prime ``p`` on sparse rows, each step on the column with the fewest
+        entries left and its shortest row."""
+        return _nonsingular_mod(self.m, self.rows, self.cols, self.vals, p)
+
+    # ------------------------------------------------------------------
+    def _solve(self, rows, cols, inv, rhs: list[mpq], q0):
+        """``(Z, D)``, integers ``Z`` and ``D`` with ``M (Z / D) = rhs`` exactly, for
+        the integer matrix ``M`` given by ``rows, cols, self.vals`` and ``inv``
+        its float inverse; or None.  ``q0``: a likely multiple of the
+        denominators, tried first."""
+        np, m, vals = self.np, self.m, self.vals
+        d = ONE  # the right-hand side's common denominator: solve M z' = d rhs, z = z' / d
+        for v in rhs:
+            if v.denominator != 1:
+                d = _lcm(d, v.denominator)
+        limit = 1 << RHS_BITS
+        b = []
+        for v in rhs:
+            a = int(v.numerator * (d // v.denominator))
+            if not -limit < a < limit:
+                return None
+            b.append(a)
+        if not any(b):
+            return [mpz(0)] * m, ONE
+        order = np.lexsort((cols, rows))  # by row, for the exact product below
+        rows_a = np.array(rows, dtype=np.int64)[order]
+        cols_a = np.array(cols, dtype=np.int64)[order]
+        vals_u = np.array(vals, dtype=np.int64)[order].view(np.uint64)
+        starts = np.flatnonzero(np.r_[True, rows_a[1:] != rows_a[:-1]])
+        if len(starts) != m:
+            return None  # an empty row: singular
+
+        def product(xt):  # M xt, modulo 2^64
+            return np.add.reduceat(vals_u * xt.view(np.uint64)[cols_a], starts)
+
+        r = np.array(b, dtype=np.int64)
+        rbits = int(np.max(np.abs(r))).bit_length()
+        limit = 1 << RESIDUAL_BITS
+        chunks: list = []  # (k, xt) per step
+        total = 0
+        # log2 of the float solve's relative error, |new r| / (2^k |r|), as last seen
+        rho = None
+        # a few components, the largest at the start, are followed as the steps
+        # go (their X_i kept up to date); when their denominators come out, all
+        # the components are tried, and one that fails is followed from then on
+        probes = np.argsort(-np.abs(inv @ r.astype(np.float64)), kind="stable")[:PROBES].tolist()
+        x_probes = [0] * len(probes)
+        next_try = FIRST_TRY
+        if q0 != 1:  # try q0 as soon as K is past its length and a margin
+            next_try = q0.bit_length() + 64
+        xh = None
+        while total < MAX_BITS:
+            if xh is None:
+                xh = inv @ r.astype(np.float64)
+                big = float(np.max(np.abs(xh)))
+                if not np.isfinite(big):
+                    return None
+                done = big == 0.0
+                if done and r.any():
+                    return None
+                if done or total >= next_try:
+                    next_try = total + total // 4
+                    q, _ = _denominator([mpz(v) for v in x_probes], [int(abs(xh[i]) * 4) + 1 for i in probes],
+                                        total, q0)
+                    if q is not None:
+                        z, failed = _candidate(m, chunks, total, xh, rows, cols, vals, b, q, d)
+                        if z is not None:
+                            return z
+                        if failed is not None and failed not in probes:
+                            probes.append(failed)
+                            x_probes.append(_combine(m, chunks, failed))
+                    if done:
+                        return None
+                # xt = round(2^k xh) must fit a word: |xt| < 2^62
+                fit = 61 - int(np.ceil(np.log2(big))) if big >= 1 else 61
+            # the longest step that keeps the new residual short: |r'| is about
+            # 2^(k + rho) |r|, and must stay under 2^RESIDUAL_BITS (a margin of 4)
+            want = STEP_MOST if rho is None else RESIDUAL_BITS - 4 - rbits - rho
+            k = min(STEP_MOST, fit, want) // 8 * 8
+            # A long right-hand side can leave no room at first: then one step
+            # with k = 0 (xt = round(xh)) shortens the residual
+            if k < 8 and (chunks or k < 0):
+                return None
+            xt = np.rint(np.ldexp(xh, k)).astype(np.int64)
+            rn = ((r.view(np.uint64) << np.uint64(k)) - product(xt)).view(np.int64)
+            top = int(np.max(np.abs(rn)))
+            if top >= limit:
+                # too far for the float solve's accuracy (or a value wrapped): this
+                # says rho >= RESIDUAL_BITS - k - rbits; the same xh, a shorter step
+                rho = max(rho if rho is not None else -STEP_MOST, RESIDUAL_BITS - k - rbits)
+                continue
+            rho = top.bit_length() - k - rbits
+            chunks.append((k, xt))
+            x_probes = [(v << k) + int(xt[i]) for v, i in zip(x_probes, probes)]
+            total += k
+            r, rbits, xh = rn, top.bit_length(), None
+        return None
+
+
+def _denominator(xs: list, errs: list[int], bits: int, q=ONE):
+    """A common denominator ``q`` with each ``q xs_i / 2^bits`` within ``q errs_i /
+    2^bits`` of an integer, grown from ``q`` component by component (see
+    :func:`_reconstruct`), and None; or None and the first component for which
+    ``2^bits`` is too short to tell."""
+    den = ONE << bits
+    for n, (x, e) in enumerate(zip(xs, errs)):
+        rem = _f_mod_2exp(q * x, bits)
+        if 2 * rem > den:
+            rem -= den
+        tol = q * e
+        if abs(rem) <= tol:
+            continue  # q x_i is (near) an integer already
+        # a new factor s of the common denominator: s q x_i near an integer,
+        # unique while 2 s^2 tol < 2^bits
+        s = _reconstruct(rem % den, den, tol, _isqrt(den // (2 * tol)))
+        if not s:
+            return None, n
+        q *= s
+    return q, None
+
+
+def _combine(m: int, chunks, only: int | None = None):
+    """``X = sum_t xt_t 2^(k_(t+1) + ... + k_T)`` (as mpz), or its component ``only``.
+
+    The steps' integers are first brought to digits ``0 <= xt_t < 2^k_t`` by
+    carrying from the last step up (in 64-bit words: every ``|xt| < 2^62``, so
+    no sum overflows); each ``k_t`` is a whole number of bytes, so the digits of
+    a component are then its bytes, read as one integer, plus the last carry.
+    """
+    import numpy as np
+
+    if only is not None:
+        x = 0
+        for k, xt in chunks:
+            x = (x << k) + int(xt[only])
+        return mpz(x)
+    carry = np.zeros(m, dtype=np.int64)
+    pieces = []
+    total = 0
+    for k, xt in reversed(chunks):
+        v = xt + carry
+        carry = v >> k  # floor division by 2^k
+        digits = (v - (carry << k)).astype(np.uint64)
+        pieces.append(digits.astype("<u8").view(np.uint8).reshape(m, 8)[:, : k // 8])
+        total += k
+    body = np.concatenate(pieces, axis=1) if pieces else np.zeros((m, 0), dtype=np.uint8)
+    out = []
+    for i, c in enumerate(carry.tolist()):
+        x = mpz(int.from_bytes(body[i].tobytes(), "little"))
+        out.append(x + (mpz(c) << total) if c else x)
+    return out
+
+
+def _candidate(m, chunks, total, next_xh, rows, cols, vals, b, q, d):
+    """``(Z, D)`` with ``M (Z / D) = b / d`` from ``X / 2^total``, the common
+    denominator grown from ``q`` and checked exactly, and None; or None and the
+    component that failed (None if the check did)."""
+    x_int = _combine(m, chunks) if chunks else [mpz(0)] * m
+    # X_i / 2^K is off by about next_xh_i / 2^K (the next step's correction):
+    # allow four times that, and one unit
+    errs = [int(e) + 1 for e in (abs(next_xh) * 4).tolist()]
+    q, failed = _denominator(x_int, errs, total, q)
+    if q is None:
+        return None, failed
+    half = ONE << max(total - 1, 0)
+    nums = []
+    for v in x_int:
+        t = q * v
+        n = t >> total
+        if _f_mod_2exp(t, total) > half:
+            n += 1
+        nums.append(n)
+    # the exact check: M nums = q b, in integers
+    acc = [0] * m
+    for i, j, a in zip(rows, cols, vals):
+        acc[i] += a * nums[j]
+    if any(s != q * bi for s, bi in zip(acc, b)):
+        return None, None
+    return (nums, q * d), None
+
+
+def _nonsingular_mod(m: int, rows, cols, vals, p: int) -> bool:
+    """See :meth:`FloatInverse.nonsingular`."""
+    import heapq
+
+    rw: list[dict[int, int]] = [{} for _ in range(m)]
+    cl: list[set[int]] = [set() for _ in range(m)]
+    for i, j, a in zip(rows, cols, vals):
+        a %= p
+        if a:
+            rw[i][j] = a
+            cl[j].add(i)
+    alive = [True] * m
+    heap = [(len(cl[j]), j) for j in range(m)]
+    heapq.heapify(heap)
+    for _ in range(m):
+        while True:  # the column with the fewest entries (stale heap entries skipped)
+            cnt, c = heapq.heappop(heap)
+            if alive[c] and cnt == len(cl[c]):
+                break
+        if not cnt:
+            return False  # a column with no entry left: det A = 0 mod p
+        alive[c] = False
+        r = min(cl[c], key=lambda i: (len(rw[i]), i))
+        prow = rw[r]
+        inv = pow(prow[c], -1, p)
+        pitems = [(cj, v) for cj, v in prow.items() if cj != c]
+        touched = set()
+        for i in cl[c]:
+            if i == r:
+                continue
+            ri = rw[i]
+            f = ri.pop(c) * inv % p
+            get = ri.get
+            for cj, v in pitems:
+                nv = (get(cj, 0) - f * v) % p
+                if nv:
+                    if cj not in ri:
+                        cl[cj].add(i)
+                        touched.add(cj)
+                    ri[cj] = nv
+                elif cj in ri:
+                    del ri[cj]
+                    cl[cj].discard(i)
+                    touched.add(cj)
+        for cj, _ in pitems:
+            cl[cj].discard(r)
+            touched.add(cj)
+        rw[r] = {}
+        cl[c] = set()
+        for cj in touched:
+            if alive[cj]:
+                heapq.heappush(heap, (len(cl[cj]), cj))
+    return True

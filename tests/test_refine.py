@@ -1,0 +1,265 @@
+"""Exact solves by floating-point refinement (exactlp/solver/refine.py).
+
+Every answer the module gives must be the exact solution: compared here with
+SymPy's exact linear algebra, with closed forms, and with the exact factorised
+path of the solver on whole models.  None (the caller then factors exactly) is
+the only other answer allowed, and the tests say where it must not be given.
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+from math import comb
+
+import pytest
+from gmpy2 import mpq, mpz
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+import exactlp
+import exactlp.solver.simplex as simplex
+from exactlp.floatlp import BasisHint, highs_available
+from exactlp.io import model_from_text, read_mps
+from exactlp.solver import refine
+from exactlp.solver.form import build_form
+from exactlp.solver.simplex import Simplex
+
+from .conftest import NETLIB, needs_netlib, netlib_table
+from .helpers import solve_verified
+from .models import KNOWN
+
+np = pytest.importorskip("numpy", reason="refinement needs numpy (the exactlp[fast] extra)")
+
+
+def columns(rows: list[list]) -> list[list[tuple[int, mpq]]]:
+    """A dense matrix, given by rows, as the solver's sparse columns of mpq."""
+    n = len(rows)
+    return [[(i, mpq(rows[i][k])) for i in range(n) if rows[i][k]] for k in range(len(rows[0]))]
+
+
+def sympy_solve(rows: list[list], rhs: list, transpose: bool = False) -> list[Fraction] | None:
+    """SymPy's exact solve (the reference library), or None when singular."""
+    import sympy
+
+    a = sympy.Matrix([[sympy.Rational(v.numerator, v.denominator) for v in r] for r in rows])
+    if transpose:
+        a = a.T
+    if a.det() == 0:
+        return None
+    b = sympy.Matrix([sympy.Rational(v.numerator, v.denominator) for v in rhs])
+    return [Fraction(int(v.p), int(v.q)) for v in a.LUsolve(b)]
+
+
+small = st.fractions(min_value=-9, max_value=9, max_denominator=12)
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.integers(1, 6).flatmap(lambda n: st.tuples(
+    st.lists(st.lists(small, min_size=n, max_size=n), min_size=n, max_size=n),
+    st.lists(small, min_size=n, max_size=n))))
+def test_primal_and_dual_solves_equal_sympys_exact_ones(case):
+    rows, rhs = case
+    ref_x, ref_y = sympy_solve(rows, rhs), sympy_solve(rows, rhs, transpose=True)
+    try:
+        fi = refine.FloatInverse(len(rows), columns(rows))
+    except ArithmeticError:
+        assert ref_x is None  # singular in floats: only a singular matrix gets here at this size
+        return
+    x = fi.primal([mpq(v) for v in rhs])
+    got = fi.dual([mpq(v) for v in rhs])
+    if ref_x is None:  # singular: a consistent system may be solved, never a wrong answer
+        assert not fi.nonsingular()
+        if x is not None:
+            assert [sum(mpq(rows[i][k]) * x[k] for k in range(len(x))) for i in range(len(x))] == rhs
+        return
+    assert fi.nonsingular()
+    assert x is not None and got is not None
+    assert all(type(v) is type(mpq(0)) for v in x)
+    assert [Fraction(int(v.numerator), int(v.denominator)) for v in x] == ref_x
+    y, (ynum, yden) = got
+    assert [Fraction(int(v.numerator), int(v.denominator)) for v in y] == ref_y
+    assert [mpq(v, yden) for v in ynum] == y  # the scaled form is the same vector
+
+
+def hilbert_inverse_column(n: int, j: int) -> list[int]:
+    """Column j (1-based) of the inverse of the n x n Hilbert matrix, by the closed
+    form (M.-D. Choi, "Tricks or treats with the Hilbert matrix", American
+    Mathematical Monthly 90, 1983; the formula from memory, checked for n = 3
+    against the well-known inverse [[9, -36, 30], [-36, 192, -180], [30, -180, 180]])."""
+    return [(-1) ** (i + j) * (i + j - 1) * comb(n + i - 1, n - j) * comb(n + j - 1, n - i) * comb(i + j - 2, i - 1) ** 2
+            for i in range(1, n + 1)]
+
+
+def test_hilbert_closed_form_is_the_known_three_by_three_inverse():
+    assert [hilbert_inverse_column(3, j) for j in (1, 2, 3)] == [[9, -36, 30], [-36, 192, -180], [30, -180, 180]]
+
+
+@pytest.mark.parametrize("n", [3, 6, 8])
+def test_ill_conditioned_hilbert_systems_come_out_exact(n):
+    # Hilbert matrices are the usual ill-conditioned test (condition about 1e10 at
+    # n = 8): each float solve then carries fewer good bits, and the steps shorten
+    h = [[Fraction(1, i + j + 1) for j in range(n)] for i in range(n)]
+    fi = refine.FloatInverse(n, columns(h))
+    for j in (1, n):
+        e = [mpq(1 if i == j - 1 else 0) for i in range(n)]
+        x = fi.primal(e)
+        assert x == [mpq(v) for v in hilbert_inverse_column(n, j)]
+        y, _ = fi.dual(e)  # H is symmetric: the same column
+        assert y == x
+    assert fi.nonsingular()
+
+
+def bidiagonal(n: int, diag: Fraction, sub: Fraction):
+    """Lower bidiagonal columns, ``b``, and the solution by forward substitution in
+    Fractions (the reference): ``x_i = (b_i - sub x_(i-1)) / diag``."""
+    cols = [[(k, mpq(diag))] + ([(k + 1, mpq(sub))] if k + 1 < n else []) for k in range(n)]
+    b = [mpq(1, 1 + i % 4) for i in range(n)]
+    x, prev = [], Fraction(0)
+    for i in range(n):
+        prev = (Fraction(int(b[i].numerator), int(b[i].denominator)) - sub * prev) / diag
+        x.append(prev)
+    return cols, b, x
+
+
+def test_long_denominators_are_recovered_exactly():
+    # diagonal 7/3, subdiagonal -2/5: x_i = (3/7)(b_i + 2/5 x_(i-1)) stays below 1,
+    # while its denominator grows like 35^i: about 770 bits at n = 150
+    cols, b, x = bidiagonal(150, Fraction(7, 3), Fraction(-2, 5))
+    got = refine.FloatInverse(150, cols).primal(b)
+    assert got is not None
+    assert [Fraction(int(v.numerator), int(v.denominator)) for v in got] == x
+    assert x[-1].denominator.bit_length() > 700
+
+
+def test_values_past_a_word_are_left_to_exact_factorisation():
+    # diagonal 5/11, subdiagonal -7/3: x_i grows like (77/15)^i, past 2^300 at n =
+    # 150; a step's integers must fit 64-bit words, so this method declines
+    cols, b, x = bidiagonal(150, Fraction(5, 11), Fraction(-7, 3))
+    assert abs(x[-1]) > 2**300
+    assert refine.FloatInverse(150, cols).primal(b) is None
+
+
+def test_a_long_right_hand_side_takes_a_first_step_of_zero_bits():
+    # b near 2^60: round(xh) itself must fit a word before the steps of k bits begin
+    rows = [[Fraction(2), Fraction(1)], [Fraction(1), Fraction(3)]]
+    rhs = [mpq(2**60 + 1), mpq(-(2**59) + 7, 3)]
+    x = refine.FloatInverse(2, columns(rows)).primal(rhs)
+    assert [Fraction(int(v.numerator), int(v.denominator)) for v in x] == sympy_solve(rows, [Fraction(int(v.numerator), int(v.denominator)) for v in rhs])
+
+
+def test_nonsingular_is_decided_modulo_a_prime():
+    three = [[Fraction(1), Fraction(2), Fraction(0)], [Fraction(0), Fraction(1), Fraction(1)],
+             [Fraction(1), Fraction(3), Fraction(1)]]  # row 3 = row 1 + row 2
+    fi = refine.FloatInverse.__new__(refine.FloatInverse)  # integer data only: no float inverse needed
+    fi.m, fi.rows, fi.cols, fi.vals = 3, [0, 0, 1, 1, 2, 2, 2], [0, 1, 1, 2, 0, 1, 2], [1, 2, 1, 1, 1, 3, 1]
+    assert not fi.nonsingular()
+    three[2][2] = Fraction(2)
+    fi.vals = [1, 2, 1, 1, 1, 3, 2]
+    assert fi.nonsingular()
+    # det = p itself is 0 modulo p: "not proven", and the caller factors exactly
+    p = refine.NONSINGULAR_PRIME
+    fi.m, fi.rows, fi.cols, fi.vals = 1, [0], [0], [p]
+    assert not fi.nonsingular() and fi.nonsingular(p=7)
+
+
+def test_the_prime_is_prime():
+    import sympy
+
+    assert sympy.isprime(refine.NONSINGULAR_PRIME) and refine.NONSINGULAR_PRIME < 2**30
+
+
+@pytest.mark.parametrize("a, s", [(355, 113), (-1, 3), (2**70 + 1, 3**40), (0, 1), (7, 1)])
+def test_common_denominator_from_a_binary_approximation(a, s):
+    bits = 4 * max(s.bit_length(), 8) + abs(a).bit_length()
+    x = mpz((mpz(a) << bits) // s)  # a / s to ``bits`` binary places, rounded down: error < 1 unit
+    q, failed = refine._denominator([x], [2], bits)
+    assert (q, failed) == (s, None)
+    # too few places to tell: None, and the component that could not be settled
+    if s > 1000:
+        assert refine._denominator([x >> (bits - 8)], [2], 8) == (None, 0)
+
+
+def test_too_many_rows_or_long_entries_are_left_to_exact_factorisation(monkeypatch):
+    monkeypatch.setattr(refine, "MAX_ROWS", 1)
+    with pytest.raises(ArithmeticError, match="too many rows"):
+        refine.FloatInverse(2, columns([[Fraction(1), Fraction(0)], [Fraction(0), Fraction(1)]]))
+    monkeypatch.undo()
+    with pytest.raises(ArithmeticError, match="too long"):
+        refine.FloatInverse(1, [[(0, mpq(2**41))]])
+    with pytest.raises(ArithmeticError, match="singular in floating point"):
+        refine.FloatInverse(2, columns([[Fraction(1), Fraction(2)], [Fraction(2), Fraction(4)]]))
+
+
+# -- the solver's refined start, against its factorised one --------------------
+
+def optimal_hint(model) -> BasisHint:
+    r = exactlp.solve(model, warm_start=False)
+    return BasisHint(tuple(r.basis_columns), frozenset(r.at_upper_columns), "test", "optimal")
+
+
+@pytest.mark.parametrize("case", [k for k in KNOWN if k[2] == "optimal" and "constraints" in k[1]], ids=lambda k: k[0])
+def test_refined_start_gives_the_factorised_starts_answer(monkeypatch, case):
+    model = model_from_text(case[1])
+    hint = optimal_hint(model)
+    form = build_form(model)
+    plain = Simplex(form, hint=hint)
+    out_plain = plain.run()
+    monkeypatch.setattr(simplex, "REFINE_WHEN", 0)  # every basis by refinement
+    sx = Simplex(form, hint=hint, refine=True)
+    assert sx.warm.accepted and sx.warm.reason.endswith("(solved by refinement, checked exactly)")
+    assert sx._basis is None  # not factored
+    out = sx.run()
+    assert out.status == out_plain.status == "optimal"
+    assert out.z == out_plain.z and out.y == out_plain.y
+    assert [sx.x[j] for j in range(form.n)] == [plain.x[j] for j in range(form.n)]
+    assert all(type(v) is type(mpq(0)) for v in out.y)
+    assert sx._basis is None  # an optimal suggestion never needed the factors
+    assert form.sign * out.z + form.constant == case[3]
+
+
+def test_refined_start_that_must_pivot_factors_then(monkeypatch):
+    # an optimal basis of a neighbour: feasible here, not optimal, so phase 2 pivots
+    # and the basis is factored on first use
+    text = KNOWN[0][1]
+    model = model_from_text(text)
+    hint = optimal_hint(model)
+    changed = model_from_text(text.replace("maximize: 5 x1 + 4 x2 + 3 x3", "maximize: 5 x1 + 4 x2 + 9 x3"))
+    monkeypatch.setattr(simplex, "REFINE_WHEN", 0)
+    sx = Simplex(build_form(changed), hint=hint, refine=True)
+    assert sx.warm.accepted and sx._basis is None
+    out = sx.run()
+    assert out.status == "optimal" and sx._basis is not None and sx.iterations >= 1
+    assert build_form(changed).sign * out.z == solve_verified(changed, warm_start=False).objective
+
+
+@needs_netlib
+@pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
+@pytest.mark.parametrize("name", ["GROW7", "STAIR"])
+def test_netlib_bases_with_long_numbers_are_solved_by_refinement(monkeypatch, name):
+    # Their nuclei hold over 50,000 bits (REFINE_WHEN): refined, and the answer is
+    # the factorised path's to the last digit, with a certificate the verifier accepts
+    row = netlib_table()[name]
+    m = read_mps(NETLIB / row["file"])
+    r = solve_verified(m, warm_start=True)
+    assert r.warm_start == "accepted: the suggested basis is exactly primal feasible (solved by refinement, checked exactly)"
+    monkeypatch.setattr(simplex, "REFINE_WHEN", 10**12)
+    f = solve_verified(m, warm_start=True)
+    assert f.warm_start == "accepted: the suggested basis is exactly primal feasible"
+    assert (r.objective, r.primal, r.duals, r.reduced_costs) == (f.objective, f.primal, f.duals, f.reduced_costs)
+    assert r.iterations == f.iterations == 0
+
+
+def test_refined_values_outside_their_bounds_go_to_the_repair_as_before(monkeypatch):
+    # the infeasible suggestion of test_netlib's repair test: refinement finds the
+    # basic values, one lies outside its bounds, so the basis is factored exactly
+    # and repaired from there, with those same values (no second solve)
+    m = model_from_text("maximize: x + y\nvariables: {x: {}, y: {}}\nconstraints:\n  a: x + 2 y <= 4\n  b: 3 x + y <= 6\n")
+    form = build_form(m)
+    hint = BasisHint(basic=(0, 3), at_upper=frozenset({2}), source="test", float_status="made up")
+    plain = Simplex(form, hint=hint)
+    monkeypatch.setattr(simplex, "REFINE_WHEN", 0)
+    sx = Simplex(form, hint=hint, refine=True)
+    assert sx._basis is not None and set(sx.repair) == set(plain.repair) == {3}
+    assert sx.x == plain.x and sx.warm == plain.warm
+    out = sx.run()
+    assert out.status == "optimal" and form.sign * out.z == solve_verified(m, warm_start=False).objective
