@@ -166,6 +166,10 @@ class PendingHint:
         if self._thread is not None:
             self._thread.join()
 
+    def running(self) -> bool:
+        """Whether HiGHS is still at work (on its own thread)."""
+        return self._thread is not None and self._thread.is_alive()
+
     def result(self) -> BasisHint | None:
         if self._thread is not None:
             self._thread.join()
@@ -209,6 +213,9 @@ class _NoHint:
 
     def discard(self) -> None:
         return None
+
+    def running(self) -> bool:
+        return False
 
 
 def start_highs(model: Model, time_limit: float | None = None, background: bool = True):

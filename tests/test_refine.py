@@ -31,10 +31,15 @@ from .models import KNOWN
 np = pytest.importorskip("numpy", reason="refinement needs numpy (the exactlp[fast] extra)")
 
 
-def columns(rows: list[list]) -> list[list[tuple[int, mpq]]]:
-    """A dense matrix, given by rows, as the solver's sparse columns of mpq."""
+def columns(rows: list[list]) -> list:
+    """A dense matrix, given by rows, as sparse columns of mpq made integer
+    (:func:`refine.integer_column`, as the solver hands them over)."""
     n = len(rows)
-    return [[(i, mpq(rows[i][k])) for i in range(n) if rows[i][k]] for k in range(len(rows[0]))]
+    return ints([[(i, mpq(rows[i][k])) for i in range(n) if rows[i][k]] for k in range(len(rows[0]))])
+
+
+def ints(cols) -> list:
+    return [refine.integer_column(c) for c in cols]
 
 
 def sympy_solve(rows: list[list], rhs: list, transpose: bool = False) -> list[Fraction] | None:
@@ -125,7 +130,7 @@ def test_long_denominators_are_recovered_exactly():
     # diagonal 7/3, subdiagonal -2/5: x_i = (3/7)(b_i + 2/5 x_(i-1)) stays below 1,
     # while its denominator grows like 35^i: about 770 bits at n = 150
     cols, b, x = bidiagonal(150, Fraction(7, 3), Fraction(-2, 5))
-    got = refine.FloatInverse(150, cols).primal(b)
+    got = refine.FloatInverse(150, ints(cols)).primal(b)
     assert got is not None
     assert [Fraction(int(v.numerator), int(v.denominator)) for v in got] == x
     assert x[-1].denominator.bit_length() > 700
@@ -136,7 +141,7 @@ def test_values_past_a_word_are_left_to_exact_factorisation():
     # 150; a step's integers must fit 64-bit words, so this method declines
     cols, b, x = bidiagonal(150, Fraction(5, 11), Fraction(-7, 3))
     assert abs(x[-1]) > 2**300
-    assert refine.FloatInverse(150, cols).primal(b) is None
+    assert refine.FloatInverse(150, ints(cols)).primal(b) is None
 
 
 def test_a_long_right_hand_side_takes_a_first_step_of_zero_bits():
@@ -185,7 +190,7 @@ def test_too_many_rows_or_long_entries_are_left_to_exact_factorisation(monkeypat
         refine.FloatInverse(2, columns([[Fraction(1), Fraction(0)], [Fraction(0), Fraction(1)]]))
     monkeypatch.undo()
     with pytest.raises(ArithmeticError, match="too long"):
-        refine.FloatInverse(1, [[(0, mpq(2**41))]])
+        refine.FloatInverse(1, ints([[(0, mpq(2**41))]]))
     with pytest.raises(ArithmeticError, match="singular in floating point"):
         refine.FloatInverse(2, columns([[Fraction(1), Fraction(2)], [Fraction(2), Fraction(4)]]))
 
@@ -263,3 +268,15 @@ def test_refined_values_outside_their_bounds_go_to_the_repair_as_before(monkeypa
     assert sx.x == plain.x and sx.warm == plain.warm
     out = sx.run()
     assert out.status == "optimal" and form.sign * out.z == solve_verified(m, warm_start=False).objective
+
+
+def test_integer_columns_made_ahead_are_the_ones_made_on_demand():
+    cols = [[(0, mpq(1, 6)), (2, mpq(-3, 4))], [(1, mpq(5))], [(0, mpq(2**45))], []]
+    ahead = refine.IntegerColumns(cols)
+    calls = []
+    ahead.fill_while(lambda: calls.append(1) or len(calls) < 2)  # asked at column 0 only: all four made
+    assert ahead.done == 4 and calls == [1]
+    assert ahead.made == [(mpz(12), [(0, 2), (2, -9)]), (mpz(1), [(1, 5)]), None, (mpz(1), [])]
+    lazy = refine.IntegerColumns(cols)
+    lazy.fill_while(lambda: False)
+    assert lazy.done == 0 and [lazy[j] for j in range(4)] == ahead.made

@@ -330,6 +330,9 @@ def test_no_partial_pricing_from_an_accepted_hint(monkeypatch):
         def discard(self):
             return None
 
+        def running(self):
+            return False
+
     monkeypatch.setattr(floatlp, "highs_available", lambda: True)
     monkeypatch.setattr(floatlp, "start_highs", lambda model, time_limit=None: Slack())
     events = []

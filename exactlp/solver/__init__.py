@@ -109,6 +109,14 @@ def solve(
             listener(Finish("infeasible", None, 0, 0, 0))
         return SolveResult(status=Status.INFEASIBLE, crossed=form.crossed,
                            seconds=time.monotonic() - started, pricing=pricing)
+    integer_columns = None
+    if pending is not None and pending.running():
+        # HiGHS is still at work: meanwhile, the columns as integers, which a
+        # check by refinement would need (see refine.py); only as long as it runs
+        from .refine import IntegerColumns
+
+        integer_columns = IntegerColumns(form.cols)
+        integer_columns.fill_while(pending.running)
     hint = pending.result() if pending is not None else start_basis
     sx = Simplex(
         form,
@@ -121,6 +129,7 @@ def solve(
         hint=hint,
         # a float solver's basis is checked by refinement first (see refine.py)
         refine=pending is not None,
+        integer_columns=integer_columns,
     )
     if pending is not None and hint is None and pending.reason:
         # asked for, but no suggestion came: said in the log and the result, not silently "off"

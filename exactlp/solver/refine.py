@@ -97,12 +97,58 @@ def _reconstruct(value: int, den: int, tol: int, bound: int) -> int:
     return 0
 
 
+def integer_column(col) -> tuple[mpz, list[tuple[int, int]]] | None:
+    """A column ``[(row, value), ...]`` as ``(e, [(row, e value), ...])`` with ``e``
+    the least common multiple of its denominators; None when an integer is
+    ENTRY_BITS long or longer."""
+    e = ONE
+    for _, v in col:
+        d = v.denominator
+        if d != 1:
+            e = _lcm(e, d)
+    limit = 1 << ENTRY_BITS
+    out = []
+    for i, v in col:
+        if v:
+            a = int(v.numerator * (e // v.denominator))
+            if not -limit < a < limit:
+                return None
+            out.append((i, a))
+    return e, out
+
+
+class IntegerColumns:
+    """:func:`integer_column` of each of ``cols``, made on demand or ahead of it
+    (:meth:`fill_while`: while the float solver runs, the interpreter is free)."""
+
+    def __init__(self, cols) -> None:
+        self.cols = cols
+        self.made: list = [False] * len(cols)
+        self.done = 0
+
+    def fill_while(self, going) -> None:
+        """Make columns in order while ``going()`` (asked every 32 columns) holds."""
+        cols, made = self.cols, self.made
+        for j in range(self.done, len(cols)):
+            if j % 32 == 0 and not going():
+                break
+            made[j] = integer_column(cols[j])
+            self.done = j + 1
+
+    def __getitem__(self, j: int):
+        got = self.made[j]
+        if got is False:
+            got = self.made[j] = integer_column(self.cols[j])
+        return got
+
+
 class FloatInverse:
-    """A basis ``B`` (its columns, ``[(row, value), ...]`` each) as an integer
-    matrix ``A = B E`` (``E`` the diagonal of each column's least common
-    denominator), with ``A``'s inverse in double precision, for :meth:`primal`
-    and :meth:`dual`.  Raises ArithmeticError when this cannot be set up: numpy
-    missing, too many rows, an integer too long, or ``A`` singular in floats."""
+    """A basis ``B`` (given by its columns as :func:`integer_column` makes them) as
+    an integer matrix ``A = B E`` (``E`` the diagonal of each column's least
+    common denominator), with ``A``'s inverse in double precision, for
+    :meth:`primal` and :meth:`dual`.  Raises ArithmeticError when this cannot be
+    set up: numpy missing, no rows or too many, an integer too long, or ``A``
+    singular in floats."""
 
     def __init__(self, m: int, columns) -> None:
         if not 0 < m <= MAX_ROWS:
@@ -112,23 +158,16 @@ class FloatInverse:
         except ImportError:  # the float extra's library
             raise ArithmeticError("numpy is not installed") from None
         self.np, self.m = np, m
-        limit = 1 << ENTRY_BITS
         rows, cols, vals, scales = [], [], [], []
-        for k, col in enumerate(columns):
-            e = ONE
-            for _, v in col:
-                d = v.denominator
-                if d != 1:
-                    e = _lcm(e, d)
+        for k, got in enumerate(columns):
+            if got is None:
+                raise ArithmeticError("an entry is too long for 64-bit residuals")
+            e, ints = got
             scales.append(e)
-            for i, v in col:
-                if v:
-                    a = int(v.numerator * (e // v.denominator))
-                    if not -limit < a < limit:
-                        raise ArithmeticError("an entry is too long for 64-bit residuals")
-                    rows.append(i)
-                    cols.append(k)
-                    vals.append(a)
+            for i, a in ints:
+                rows.append(i)
+                cols.append(k)
+                vals.append(a)
         self.scales = scales
         self.rows, self.cols, self.vals = rows, cols, vals
         dense = np.zeros((m, m))

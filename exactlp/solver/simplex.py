@@ -229,6 +229,7 @@ class Simplex(DualPhase):
         hint=None,
         allow_repair: bool = True,
         refine: bool = False,
+        integer_columns=None,
     ) -> None:
         if pricing not in PRICING_RULES:
             raise ValueError(pricing)
@@ -269,6 +270,9 @@ class Simplex(DualPhase):
         #: duals until phase 2 first prices (see _setup_refined)
         self._float_inverse = None
         self.refine = refine
+        #: the columns as integers, for refinement (refine.IntegerColumns), made
+        #: ahead by the caller if it had the time
+        self.integer_columns = integer_columns
         if hint is not None:
             reason = self._setup_warm(hint)
             if reason is None and self.repair:
@@ -361,11 +365,14 @@ class Simplex(DualPhase):
         Returns True when taken; else the basic values by column if they were
         found (to spare the exact path its solve), or None.
         """
-        from .refine import FloatInverse
+        from .refine import FloatInverse, IntegerColumns
 
         m = self.m
+        if self.integer_columns is None:
+            self.integer_columns = IntegerColumns(self.cols)
+        ints = self.integer_columns
         try:
-            fi = FloatInverse(m, [self.cols[c] for c in head])
+            fi = FloatInverse(m, [ints[c] for c in head])
         except ArithmeticError:
             return None
         xb = fi.primal([rhs.get(i, ZERO) for i in range(m)])
