@@ -64,7 +64,7 @@ STEP_MOST = 48
 #: 1,000 rows have denominators of at most about 8,500 bits: see basis.py)
 MAX_BITS = 40_000
 #: a few components are tried for their denominators at K = this many bits,
-#: then each time K has grown by a quarter
+#: then each time K has grown by half
 FIRST_TRY = 64
 #: how many components are followed to learn when K suffices
 PROBES = 4
@@ -275,7 +275,7 @@ class FloatInverse:
                 if done and r.any():
                     return None
                 if done or total >= next_try:
-                    next_try = total + total // 4
+                    next_try = total + total // 2
                     q, _ = _denominator([mpz(v) for v in x_probes], [int(abs(xh[i]) * 4) + 1 for i in probes],
                                         total, q0)
                     if q is not None:
