@@ -12,8 +12,10 @@ reconstruction (from memory, after Z. Wan, "An algorithm to solve integer
 linear systems exactly using numerical methods", J. Symbolic Computation 41,
 2006):
 
-* Scale each row of ``A x = b`` by the least common multiple of its
-  denominators: an integer system with the same solution.
+* Scale each column of the basis by the least common multiple of its
+  denominators (``A = B E``), and the right-hand side by the common multiple
+  of its own: integer systems ``A z = b`` for ``B x = r`` (``x = E z / d``)
+  and ``A^T z = b`` for ``B^T y = c`` (``E B^T y = E c``).
 * Keep an integer residual ``r`` (first ``b``) and integers ``X`` and ``K``
   with ``A X = 2^K b - r``.  Each step solves ``A xh = r`` in double
   precision, rounds ``2^k xh`` to integers ``xt``, and sets
@@ -26,13 +28,16 @@ linear systems exactly using numerical methods", J. Symbolic Computation 41,
   ``X_i / 2^K`` finds them: a common denominator ``q`` is grown component by
   component (after the first, most components need no factor of their own).
 * The candidate ``n / q`` is checked exactly: ``A n = q b`` in integers.  A
-  nonsingular ``A`` has one solution, so a candidate that passes is it.
+  nonsingular ``A`` has one solution, so a candidate that passes is it; and
+  ``A`` is proven nonsingular apart (:meth:`FloatInverse.nonsingular`).
 
 The residual is computed in 64-bit words that wrap around (numpy's unsigned
 arithmetic is modular): ``2^k r`` and ``A xt`` may each overflow, but their
 difference is short, and a short number is exact modulo ``2^64``.  A step
 whose new residual is not short (the float solve was too poor for ``k``
-bits, or a value wrapped) is taken again with a smaller ``k``.
+bits, or a value wrapped) is taken again with a smaller ``k``.  (A wrapped
+value that happens to look short would break ``A X = 2^K b - r``; the final
+check then fails, and the answer is None.)
 
 Floating point here never reaches a number of a result unchecked: it only
 proposes ``xt``; every residual is exact, and the answer is checked exactly.
