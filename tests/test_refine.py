@@ -280,3 +280,21 @@ def test_integer_columns_made_ahead_are_the_ones_made_on_demand():
     lazy = refine.IntegerColumns(cols)
     lazy.fill_while(lambda: False)
     assert lazy.done == 0 and [lazy[j] for j in range(4)] == ahead.made
+
+
+def test_refinement_and_its_check_are_bounded(monkeypatch):
+    # a time limit or an interruption ends the refinement (None: the exact path
+    # then runs under the same limit), and the nonsingularity check gives up
+    # (unproven) past its budget of row operations
+    cols, b, x = bidiagonal(150, Fraction(7, 3), Fraction(-2, 5))
+    fi = refine.FloatInverse(150, ints(cols))
+    asked = []
+    fi.expired = lambda: asked.append(1) or True
+    assert fi.primal(b) is None and asked == [1]
+    fi.expired = None
+    assert fi.primal(b) is not None
+    h = [[Fraction(1, i + j + 1) for j in range(6)] for i in range(6)]
+    dense = refine.FloatInverse(6, columns(h))
+    assert dense.nonsingular()
+    monkeypatch.setattr(refine, "NONSINGULAR_BUDGET", 10)
+    assert not dense.nonsingular()

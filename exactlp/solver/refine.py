@@ -76,6 +76,9 @@ PROBES = 4
 #: the prime of the nonsingularity check: under 2^30, so that every residue is
 #: one digit of a Python integer (a prime near 2^61 took half as long again)
 NONSINGULAR_PRIME = (1 << 30) - 35
+#: ... which gives up (unproven) past this many entry updates, about a second
+#: (STAIR's basis needs 32,000)
+NONSINGULAR_BUDGET = 2_000_000
 
 
 def _reconstruct(value: int, den: int, tol: int, bound: int) -> int:
@@ -192,6 +195,9 @@ class FloatInverse:
         if not np.all(np.isfinite(self.inv)):
             raise ArithmeticError("singular in floating point")
 
+    #: a callable telling when to give up (a time limit or an interruption), or None
+    expired = None
+
     def primal(self, rhs: list[mpq]) -> list[mpq] | None:
         """The exact ``x`` with ``B x = rhs``, or None.  (``B x = A E^-1 x``: solve
         ``A z = rhs``, then ``x = E z``.)"""
@@ -220,8 +226,9 @@ class FloatInverse:
         mean that ``p`` divides a nonzero determinant: then the caller factors
         exactly, and learns the truth there).  Gaussian elimination modulo the
         prime ``p`` on sparse rows, each step on the column with the fewest
-        entries left and its shortest row."""
-        return _nonsingular_mod(self.m, self.rows, self.cols, self.vals, p)
+        entries left and its shortest row.  False, too, past NONSINGULAR_BUDGET
+        row operations (a dense basis: the exact factorisation decides)."""
+        return _nonsingular_mod(self.m, self.rows, self.cols, self.vals, p, NONSINGULAR_BUDGET)
 
     # ------------------------------------------------------------------
     def _solve(self, rows, cols, inv, rhs: list[mpq], q0):
@@ -270,7 +277,10 @@ class FloatInverse:
         if q0 != 1:  # try q0 as soon as K is past its length and a margin
             next_try = q0.bit_length() + 64
         xh = None
+        expired = self.expired
         while total < MAX_BITS:
+            if expired is not None and len(chunks) % 16 == 15 and expired():
+                return None
             if xh is None:
                 xh = inv @ r.astype(np.float64)
                 big = float(np.max(np.abs(xh)))
@@ -400,7 +410,7 @@ def _candidate(m, chunks, total, next_xh, rows, cols, vals, b, q, d):
     return (nums, q * d), None
 
 
-def _nonsingular_mod(m: int, rows, cols, vals, p: int) -> bool:
+def _nonsingular_mod(m: int, rows, cols, vals, p: int, budget: int) -> bool:
     """See :meth:`FloatInverse.nonsingular`."""
     import heapq
 
@@ -432,6 +442,9 @@ def _nonsingular_mod(m: int, rows, cols, vals, p: int) -> bool:
                 continue
             ri = rw[i]
             f = ri.pop(c) * inv % p
+            budget -= len(pitems)
+            if budget < 0:
+                return False  # not proven: too much fill for this check
             get = ri.get
             for cj, v in pitems:
                 nv = (get(cj, 0) - f * v) % p

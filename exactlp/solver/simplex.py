@@ -375,6 +375,7 @@ class Simplex(DualPhase):
             fi = FloatInverse(m, [ints[c] for c in head])
         except ArithmeticError:
             return None
+        fi.expired = self._expired
         xb = fi.primal([rhs.get(i, ZERO) for i in range(m)])
         if xb is None:
             return None
@@ -478,6 +479,11 @@ class Simplex(DualPhase):
 
     def ref(self, j: int) -> tuple[str, str]:
         return (self.labels[j], self.kinds[j])
+
+    def _expired(self) -> bool:
+        """Whether the time limit has passed or a stop was asked for."""
+        return (self.time_limit is not None and self.elapsed() > self.time_limit) or \
+            (self.should_stop is not None and bool(self.should_stop()))
 
     def elapsed(self) -> float:
         return time.monotonic() - self.started
