@@ -190,6 +190,12 @@ def _dual_ints(y: list[mpq]):
 #: at most 31,000 (SCSD8), and factored in at most 17 ms, where refinement
 #: took 1.2 to 9 times as long (its float inverse alone is O(m^3))
 REFINE_WHEN = 50_000
+#: ... on bases of at most this many rows.  Refinement's float inverse is dense
+#: (O(m^3)) and each of its steps O(m^2), while the exact LU follows the
+#: sparsity: on the HiGHS bases of PILOT.JA, PILOT.WE, PILOTNOV, 25FV47 and TRUSS
+#: (625-1,000 rows, nuclei past REFINE_WHEN) refinement took 1.2-4 times as long
+#: as the factorisation with its two solves, PEROLD (625) the same
+REFINE_MAX_ROWS = 500
 
 #: rebuild the eta file after this many updates
 REINVERT_EVERY = 16
@@ -325,7 +331,7 @@ class Simplex(DualPhase):
                 # with refinement at hand, the exact factorisation gives up early on
                 # a basis whose numbers grow long, and refinement is tried instead
                 basis, head = FACTOR(m, sorted(basic), self.cols, unit_row,
-                                     give_up=REFINE_WHEN if self.refine else None)
+                                     give_up=REFINE_WHEN if self.refine and m <= REFINE_MAX_ROWS else None)
             except LongNumbers:
                 known = self._setup_refined(sorted(basic), rhs, x, state, unit_row)
                 if known is True:
