@@ -15,7 +15,7 @@ from ..model import Model
 from .events import Finish, PhaseEnd, Pivot, Start, WarmStart
 from .form import ZERO, build_form, frac
 from .result import SolveResult, Status, frozen_map
-from .simplex import PRICING_RULES, Simplex
+from .simplex import PRICING_RULES, REFINE_MAX_ROWS, Simplex
 
 __all__ = ["solve", "SolveResult", "Status", "PRICING_RULES", "Start", "Pivot", "PhaseEnd", "Finish"]
 
@@ -110,7 +110,7 @@ def solve(
         return SolveResult(status=Status.INFEASIBLE, crossed=form.crossed,
                            seconds=time.monotonic() - started, pricing=pricing)
     integer_columns = None
-    if pending is not None and pending.running():
+    if pending is not None and form.m <= REFINE_MAX_ROWS and pending.running():
         # HiGHS is still at work: meanwhile, the columns as integers, which a
         # check by refinement would need (see refine.py); only as long as it runs
         from .refine import IntegerColumns
