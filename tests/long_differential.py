@@ -1,4 +1,4 @@
-"""The long differential run: python tests/long_differential.py N [--forced] [--partial]
+"""The long differential run: python tests/long_differential.py N [--forced] [--partial] [--refine]
 (N random models against scipy HiGHS).
 
 --forced: the nucleus of every factorisation on integer rows from its first
@@ -6,6 +6,9 @@ step, every basis solve scaled, and every reduced-cost and dual update checked
 against a recomputation (the paths the Netlib problems take only on long numbers).
 --partial: partial pricing on every model (the wide models' rule; its scans on
 integers or, with nested denominators, on fractions).
+--refine: every model also solved from HiGHS's basis checked by refinement
+(solver/refine.py, forced on every basis), which must give the same exact
+result as the same start checked by factorisation.
 """
 import sys
 import time
@@ -27,12 +30,27 @@ if "--partial" in sys.argv[2:]:
     import exactlp.solver.simplex as simplex_module
 
     simplex_module.PARTIAL_FACTOR = 0
+REFINE = "--refine" in sys.argv[2:]
+if REFINE:
+    import exactlp.solver.simplex as simplex_module
+    from exactlp.floatlp import highs_available
+
+    assert highs_available(), "--refine needs highspy"
 count = {"n": 0}
 @settings(max_examples=N, deadline=None, database=None, suppress_health_check=list(HealthCheck))
 @given(lp_models(max_vars=7, max_rows=7))
 def run(model):
     count["n"] += 1
     ours = solve_verified(model)
+    if REFINE and model.constraints:
+        simplex_module.REFINE_WHEN = 0
+        refined = solve_verified(model, warm_start=True)
+        simplex_module.REFINE_WHEN = 10**12
+        plain = solve_verified(model, warm_start=True)
+        same = ("status", "objective", "primal", "duals", "reduced_costs", "farkas_rows", "ray", "iterations")
+        assert all(getattr(refined, k, None) == getattr(plain, k, None) for k in same), (refined, plain)
+        if "refinement" in refined.warm_start:
+            count["refined"] = count.get("refined", 0) + 1
     st, obj, ref_x = scipy_solve(model, with_point=True)
     if ours.status.value == "unbounded" and st == "optimal" and float_ray_holds(model, ours.ray):
         count["ref_missed_ray"] = count.get("ref_missed_ray", 0) + 1
