@@ -8,6 +8,7 @@ rounding of the weights are derived by hand below.
 
 from __future__ import annotations
 
+import contextlib
 from fractions import Fraction as F
 
 import pytest
@@ -375,3 +376,66 @@ def test_the_plain_dual_ratio_test_skips_only_what_cannot_win():
     assert dual_module.DualPhase._dual_entering_plain(fake, {0: 1, 1: 1}, [mpq(3, 2), mpq(16, 15)], 1, False) == 1
     assert dual_module.DualPhase._dual_entering_plain(
         fake, {0: mpq(8, 15), 1: mpq(15, 32)}, [mpq(15, 8), mpq(16, 15)], 1, False) == 1
+
+
+@contextlib.contextmanager
+def rows_both_ways():
+    """Make every tableau row by numpy's sums (NUMPY_ROW_NONZEROS = 0) and check
+    each against the Python loops' row for the same basis; yields the counts.
+    (Patched and restored here, per use: a hypothesis example runs many times
+    within one test function, so a fixture's patch would pile up.)"""
+    pytest.importorskip("numpy")
+    original = simplex_module.Simplex._tableau_row
+    threshold = simplex_module.NUMPY_ROW_NONZEROS
+    seen = {"rows": 0, "by_numpy": 0}
+
+    def both(self, p):
+        fast = original(self, p)
+        used = self._np_rows_cache is not None and self._np_rows_cache[1] is not None
+        saved = self._np_rows_cache
+        self._np_rows_cache = (len(self.cols), None)  # the loops, for the same basis
+        slow = original(self, p)
+        self._np_rows_cache = saved
+        assert fast == slow
+        assert all(type(v) in (int, type(mpq(0))) for v in fast[0].values())
+        seen["rows"] += 1
+        seen["by_numpy"] += used
+        return fast
+
+    simplex_module.NUMPY_ROW_NONZEROS = 0
+    simplex_module.Simplex._tableau_row = both
+    try:
+        yield seen
+    finally:
+        simplex_module.Simplex._tableau_row = original
+        simplex_module.NUMPY_ROW_NONZEROS = threshold
+
+
+@settings(max_examples=80, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@given(model=lp_models(max_vars=6, max_rows=6))
+def test_tableau_rows_by_numpy_are_the_loops_rows(model):
+    with rows_both_ways() as seen:
+        r = solve_verified(model, warm_start=False)
+        assert r.status is exactlp.solve(model, warm_start=False, pricing="bland").status
+    assert seen["by_numpy"] == seen["rows"]
+
+
+def test_tableau_rows_by_numpy_on_the_bound_flip_model():
+    with rows_both_ways() as seen:
+        r = solve_verified(model_from_text(FLIPS), warm_start=False)
+    assert r.status is exactlp.Status.OPTIMAL and seen["rows"] >= 1 and seen["by_numpy"] == seen["rows"]
+
+
+def test_tableau_row_sums_that_could_leave_64_bits_go_by_the_loops(monkeypatch):
+    # a multiplier of 2^70 in a row: max |R| times the column sums is past 2^63,
+    # so the numpy function declines (None) and the loops make the row
+    pytest.importorskip("numpy")
+    monkeypatch.setattr(simplex_module, "NUMPY_ROW_NONZEROS", 0)
+    from exactlp.solver.form import build_form
+
+    m = model_from_text(FLIPS)
+    sx = simplex_module.Simplex(build_form(m), pricing="guarded")
+    fast = sx._np_rows()
+    assert fast is not None
+    assert fast([mpq(2**70)] + [mpq(0)] * (sx.m - 1), 0) is None
+    assert fast([mpq(0)] * sx.m, 0) == {}

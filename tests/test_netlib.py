@@ -58,6 +58,21 @@ def test_netlib_by_the_dual_phase(name, flips):
 
 
 @needs_netlib
+@pytest.mark.parametrize("name", ["FIT1D", "SCSD1"])
+def test_netlib_tableau_rows_by_numpy_are_the_loops_rows(name):
+    # every tableau row of the dual phase made both ways (see test_dual.py), on
+    # models wide enough for the numpy sums to matter; the same path and optimum
+    from .test_dual import rows_both_ways
+
+    row = netlib_table()[name]
+    m = read_mps(NETLIB / row["file"])
+    with rows_both_ways() as seen:
+        r = exactlp.solve(m, warm_start=False)
+    assert seen["rows"] >= r.pivots_phase1 > 0 and seen["by_numpy"] == seen["rows"]
+    assert parse_number(format_decimal(r.objective, 11)) == parse_number(row["published_optimum"])
+
+
+@needs_netlib
 @pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
 def test_warm_and_cold_reach_the_same_exact_optimum():
     m = read_mps(NETLIB / "sc105.mps.gz")

@@ -203,6 +203,9 @@ REINVERT_EVERY = 16
 #: then costs more against a fresh factorisation; GROW7 cold 4.9 -> 4.0 s)
 REINVERT_EVERY_SCALED = 8
 ETA_BUDGET = 1
+#: the tableau row's integer sums are made by numpy (when installed) on models
+#: with this many nonzeros or more in integer columns (see Simplex._np_rows)
+NUMPY_ROW_NONZEROS = 20_000
 #: largest model (rows x columns) for which the full tableau can be recorded
 TABLEAU_LIMIT = 20_000
 
@@ -265,6 +268,7 @@ class Simplex(DualPhase):
         self._int_cols_cache = None
         self._frac_cols_cache = None
         self._int_rows_cache = None
+        self._np_rows_cache = None
         self.weights: list[int] = []
         self.scores: list[int] | None = None
         self._partial_start = 0
@@ -914,6 +918,20 @@ class Simplex(DualPhase):
         # (times D when the solves are scaled).
         big, e = ints
         irows, escale, fcols = self._int_rows()
+        scale = e if d is None else e * d
+        fast = self._np_rows()
+        if fast is not None:
+            out = fast(big, p)
+            if out is not None:
+                for j, col in fcols:  # columns kept in fractions (see _int_cols)
+                    if state[j] != BASIC:
+                        v = ZERO
+                        for i, a in col:
+                            if big[i]:
+                                v += big[i] * a
+                        if v:
+                            out[j] = v
+                return out, (None if scale == 1 else scale)
         acc_i = [0] * len(self.cols)
         for i, r in enumerate(big):
             if r:
@@ -941,8 +959,67 @@ class Simplex(DualPhase):
                         v += big[i] * a
                 if v:
                     out[j] = v
-        scale = e if d is None else e * d
         return out, (None if scale == 1 else scale)
+
+    def _np_rows(self):
+        """For wide models with numpy at hand: a function giving :meth:`_tableau_row`'s
+        integer sums ``R . (e_j a_j)`` for every column at once (or None, when a sum
+        could leave 64 bits); else None.  Kept until the set of columns changes.
+
+        The sums are ``A_int^T R`` over the nonzeros sorted by column: one gather,
+        one product and one segmented sum in 64-bit integers, exact when
+        ``max |R_i|`` times the largest column sum of ``|e_j a_ij|`` is below 2^63
+        (checked exactly on each call, on Python integers).  Of the basic columns
+        only the one at position p has a nonzero sum (1, scaled): ``B^-1 a_j`` is
+        the unit vector of j's position, so it is dropped by position, not by a scan.
+        """
+        ncol = len(self.cols)
+        cache = self._np_rows_cache
+        if cache is not None and cache[0] == ncol:
+            return cache[1]
+        fn = None
+        rows, escale, fcols = self._int_rows()
+        nnz = sum(len(a) + len(b) + len(c) for a, b, c in rows)
+        if nnz >= NUMPY_ROW_NONZEROS:
+            try:
+                import numpy as np
+            except ImportError:  # the float extra's library: without it, the loops below
+                np = None
+            if np is not None:
+                entries = []
+                for i, (plus, minus, other) in enumerate(rows):
+                    entries.extend((j, i, 1) for j in plus)
+                    entries.extend((j, i, -1) for j in minus)
+                    entries.extend((j, i, a) for j, a in other)
+                entries.sort()
+                colsum: dict[int, int] = {}
+                for j, _, a in entries:
+                    colsum[j] = colsum.get(j, 0) + abs(a)
+                top = max(colsum.values(), default=0)  # the largest column sum of |e_j a_ij|
+                if entries and top < 2**62:
+                    cols_a = np.array([j for j, _, _ in entries], dtype=np.int64)
+                    rows_a = np.array([i for _, i, _ in entries], dtype=np.int64)
+                    vals_a = np.array([a for _, _, a in entries], dtype=np.int64)
+                    starts = np.flatnonzero(np.r_[True, cols_a[1:] != cols_a[:-1]])
+                    col_ids = cols_a[starts]
+                    whole_mask = np.array([escale[j] == 1 for j in col_ids.tolist()])
+                    limit = (2**63 - 1) // max(top, 1)
+
+                    def fn(big, p, _np=np):
+                        if max(big, key=abs, default=0).__abs__() > limit:
+                            return None  # a sum could leave 64 bits: the loops below
+                        r = _np.array([int(v) for v in big], dtype=_np.int64)
+                        sums = _np.add.reduceat(vals_a * r[rows_a], starts)
+                        nz = sums != 0
+                        idx_w = _np.flatnonzero(nz & whole_mask)
+                        out = dict(zip(col_ids[idx_w].tolist(), sums[idx_w].tolist()))
+                        for k in _np.flatnonzero(nz & ~whole_mask).tolist():
+                            j = int(col_ids[k])
+                            out[j] = mpq(int(sums[k]), escale[j])
+                        out.pop(self.head[p], None)
+                        return out
+        self._np_rows_cache = (ncol, fn)
+        return fn
 
     def _int_rows(self):
         """The columns of :meth:`_int_cols` read by rows: ``(rows, e, fraction
