@@ -445,15 +445,18 @@ def _nonsingular_mod(m: int, rows, cols, vals, p: int, budget: int) -> bool:
             budget -= len(pitems)
             if budget < 0:
                 return False  # not proven: too much fill for this check
-            get = ri.get
             for cj, v in pitems:
-                nv = (get(cj, 0) - f * v) % p
+                old = ri.get(cj)
+                if old is None:
+                    # fill: -f v is never 0 modulo the prime (neither factor is)
+                    ri[cj] = -f * v % p
+                    cl[cj].add(i)
+                    touched.add(cj)
+                    continue
+                nv = (old - f * v) % p
                 if nv:
-                    if cj not in ri:
-                        cl[cj].add(i)
-                        touched.add(cj)
                     ri[cj] = nv
-                elif cj in ri:
+                else:  # cancelled
                     del ri[cj]
                     cl[cj].discard(i)
                     touched.add(cj)

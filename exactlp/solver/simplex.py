@@ -920,37 +920,27 @@ class Simplex(DualPhase):
         irows, escale, fcols = self._int_rows()
         scale = e if d is None else e * d
         fast = self._np_rows()
-        if fast is not None:
-            out = fast(big, p)
-            if out is not None:
-                for j, col in fcols:  # columns kept in fractions (see _int_cols)
-                    if state[j] != BASIC:
-                        v = ZERO
-                        for i, a in col:
-                            if big[i]:
-                                v += big[i] * a
-                        if v:
-                            out[j] = v
-                return out, (None if scale == 1 else scale)
-        acc_i = [0] * len(self.cols)
-        for i, r in enumerate(big):
-            if r:
-                r = int(r)
-                plus, minus, other = irows[i]
-                # (entries +-1, most of A in many models, need no product)
-                for j in plus:
-                    acc_i[j] += r
-                for j in minus:
-                    acc_i[j] -= r
-                for j, a in other:
-                    acc_i[j] += r * a
-        # (a whole entry stays a Python integer: mpq arithmetic takes it as it is,
-        # and it has the numerator and denominator that the devex update reads)
-        out: dict = {}
-        for j, v in enumerate(acc_i):
-            if v and state[j] != BASIC:
-                ej = escale[j]
-                out[j] = v if ej == 1 else mpq(v, ej)
+        out = fast(big, p) if fast is not None else None
+        if out is None:  # the loops (no numpy, a narrow model, or sums past 64 bits)
+            acc_i = [0] * len(self.cols)
+            for i, r in enumerate(big):
+                if r:
+                    r = int(r)
+                    plus, minus, other = irows[i]
+                    # (entries +-1, most of A in many models, need no product)
+                    for j in plus:
+                        acc_i[j] += r
+                    for j in minus:
+                        acc_i[j] -= r
+                    for j, a in other:
+                        acc_i[j] += r * a
+            # (a whole entry stays a Python integer: mpq arithmetic takes it as it is,
+            # and it has the numerator and denominator that the devex update reads)
+            out = {}
+            for j, v in enumerate(acc_i):
+                if v and state[j] != BASIC:
+                    ej = escale[j]
+                    out[j] = v if ej == 1 else mpq(v, ej)
         for j, col in fcols:  # columns kept in fractions (see _int_cols)
             if state[j] != BASIC:
                 v = ZERO
