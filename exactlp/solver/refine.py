@@ -197,6 +197,8 @@ class FloatInverse:
 
     #: a callable telling when to give up (a time limit or an interruption), or None
     expired = None
+    #: the primal's common denominator, once known: the duals' first guess
+    den_hint = ONE
 
     def primal(self, rhs: list[mpq]) -> list[mpq] | None:
         """The exact ``x`` with ``B x = rhs``, or None.  (``B x = A E^-1 x``: solve
@@ -215,7 +217,7 @@ class FloatInverse:
         denominator, if known, is tried first."""
         got = self._solve(self.cols, self.rows, self.inv.T,
                           [v * e if v and e != 1 else v for v, e in zip(rhs, self.scales)],
-                          getattr(self, "den_hint", ONE))
+                          self.den_hint)
         if got is None:
             return None
         nums, den = got
