@@ -302,6 +302,9 @@ class FloatInverse:
                         if failed is not None and failed not in probes:
                             probes.append(failed)
                             x_probes.append(_combine(m, chunks, failed))
+                        # the followed components came out and one other did not:
+                        # the answer is likely near, so the next try comes sooner
+                        next_try = total + total // 5
                     if done:
                         return None
                 # xt = round(2^k xh) must fit a word: |xt| < 2^62
