@@ -7,6 +7,7 @@ the exact ``mpq`` outcome back into Fractions in the model's own sense.
 
 from __future__ import annotations
 
+import sys
 import time
 from fractions import Fraction
 
@@ -16,6 +17,9 @@ from .events import Finish, PhaseEnd, Pivot, Start, WarmStart
 from .form import ZERO, build_form, frac
 from .result import SolveResult, Status, frozen_map
 from .simplex import PRICING_RULES, REFINE_MAX_ROWS, Simplex
+
+#: the interpreter's switch interval (seconds) while work is done beside HiGHS
+FILL_SWITCH_INTERVAL = 0.0002
 
 __all__ = ["solve", "SolveResult", "Status", "PRICING_RULES", "Start", "Pivot", "PhaseEnd", "Finish"]
 
@@ -116,7 +120,18 @@ def solve(
         from .refine import IntegerColumns
 
         integer_columns = IntegerColumns(form.cols)
-        integer_columns.fill_while(pending.running)
+        # A HiGHS thread that has finished needs the interpreter lock to return;
+        # under the usual switch interval (5 ms) it would wait that long behind
+        # this loop.  A short interval for the loop's time only: STAIR's warm
+        # solve 86.5 -> 80.3 ms (best of ten in alternation) with a yield of the
+        # lock at each check, and the same or better this way, without the cost
+        # of the yields (about 0.3 ms each, when a column takes 1.3 us)
+        interval = sys.getswitchinterval()
+        sys.setswitchinterval(FILL_SWITCH_INTERVAL)
+        try:
+            integer_columns.fill_while(pending.running)
+        finally:
+            sys.setswitchinterval(interval)
     hint = pending.result() if pending is not None else start_basis
     sx = Simplex(
         form,
