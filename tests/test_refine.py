@@ -298,3 +298,14 @@ def test_refinement_and_its_check_are_bounded(monkeypatch):
     assert dense.nonsingular()
     monkeypatch.setattr(refine, "NONSINGULAR_BUDGET", 10)
     assert not dense.nonsingular()
+
+
+@needs_netlib
+@pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
+def test_the_switch_interval_is_put_back_after_the_work_beside_highs():
+    import sys
+
+    before = sys.getswitchinterval()
+    m = read_mps(NETLIB / netlib_table()["STAIR"]["file"])
+    exactlp.solve(m, warm_start=True)
+    assert sys.getswitchinterval() == before
