@@ -69,7 +69,8 @@ STEP_MOST = 48
 #: 1,000 rows have denominators of at most about 8,500 bits: see basis.py)
 MAX_BITS = 40_000
 #: a few components are tried for their denominators at K = this many bits,
-#: then each time K has grown by half
+#: then each time K has grown by half (by a fifth after a try in which they
+#: came out but another component did not)
 FIRST_TRY = 64
 #: how many components are followed to learn when K suffices
 PROBES = 4
