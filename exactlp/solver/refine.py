@@ -286,6 +286,10 @@ class FloatInverse:
                 return None
             if xh is None:
                 xh = inv @ r.astype(np.float64)
+                # the float solve's size: it only sets how many bits this step may
+                # take (so that round(2^k xh) fits a word) and the tolerance of the
+                # denominator tries; no value of a result comes from it unchecked
+                # (each step's residual is exact, and the answer is checked exactly)
                 big = float(np.max(np.abs(xh)))
                 if not np.isfinite(big):
                     return None
