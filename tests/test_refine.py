@@ -309,3 +309,25 @@ def test_the_switch_interval_is_put_back_after_the_work_beside_highs():
     m = read_mps(NETLIB / netlib_table()["STAIR"]["file"])
     exactlp.solve(m, warm_start=True)
     assert sys.getswitchinterval() == before
+
+
+def test_fixed_columns_reduced_costs_come_from_the_same_scaled_duals(monkeypatch):
+    # Pricing skips a fixed column (it cannot move), but the result reports its
+    # reduced cost: at an optimal first pricing it is filled in from the same
+    # (D y, D) as the rest.  By hand: a = 3, b = 5 with c fixed at 2; the duals
+    # are 2 on "cap" (b's column) and 1 on "mix" (3 = 2 + 1 for a), so c's reduced
+    # cost is 4 - (2 * 1 + 1 * 3) = -1 in the model's (maximising) sense.
+    text = ("maximize: 3 a + 2 b + 4 c\nvariables: {a: {}, b: {}, c: {lower: 2, upper: 2}}\n"
+            "constraints:\n  cap: a + b + c <= 10\n  mix: a + 3 c <= 9\n")
+    model = model_from_text(text)
+    hint = optimal_hint(model)
+    monkeypatch.setattr(simplex, "REFINE_WHEN", 0)
+    form = build_form(model)
+    sx = Simplex(form, hint=hint, refine=True)
+    assert sx.warm.accepted and sx.warm.reason.endswith("(solved by refinement, checked exactly)")
+    out = sx.run()
+    c = [v.name for v in model.variables].index("c")
+    assert out.status == "optimal" and out.d[c] == mpq(1)  # minimising -3a - 2b - 4c inside
+    r = solve_verified(model, start_basis=hint)
+    assert r.reduced_costs["c"] == Fraction(-1) and type(r.reduced_costs["c"]) is Fraction
+    assert (r.duals["cap"], r.duals["mix"], r.objective) == (Fraction(2), Fraction(1), Fraction(27))

@@ -1106,6 +1106,31 @@ class Simplex(DualPhase):
             out[j] = d
         return out
 
+    def _fixed_reduced_costs(self, cost: list[mpq], d: list[mpq | None], scaled) -> None:
+        """At an optimum: fill in ``d_j`` for the nonbasic fixed columns, which
+        pricing skips (they cannot move) but the result reports, from the same
+        ``(D y, D)`` as the rest (one gcd per column, as in
+        :meth:`_reduced_costs`; from the duals' own long fractions, the result
+        paid one per term: a sixth of STAIR's time after the pivot loop)."""
+        w, dd = scaled
+        state, lower, upper, cols = self.state, self.lower, self.upper, self.cols
+        for j in range(self.f.n):
+            if state[j] == BASIC or d[j] is not None:
+                continue
+            lo, hi = lower[j], upper[j]
+            if lo is None or hi is None or lo != hi:
+                continue
+            s = ZERO
+            for i, a in cols[j]:
+                if w[i]:
+                    s += w[i] * a
+            c = cost[j]
+            if s:
+                sd, cd = s.denominator, c.denominator
+                d[j] = mpq(c.numerator * sd * dd - cd * s.numerator, cd * sd * dd)
+            else:
+                d[j] = c
+
     def _price(self, d: list[mpq | None], weighted: bool) -> tuple[int, int]:
         """Return (the lowest eligible column, the best one by the pricing score), or (-1, -1).
 
@@ -1358,6 +1383,7 @@ class Simplex(DualPhase):
         partial = (pricing == "guarded" and len(self.cols) > PARTIAL_FACTOR * (self.m + 1)
                    and not (self.warm is not None and self.warm.accepted))
         y: list[mpq] | None = None
+        fresh = None  # (D y, D) while d holds reduced costs priced afresh from it (no pivot since)
         while True:
             if partial:
                 if y is None:
@@ -1368,6 +1394,7 @@ class Simplex(DualPhase):
             elif d is None:
                 y, ys = self._duals_scaled(cost)  # current until the next pivot
                 d = self._reduced_costs(cost, y, ys)
+                fresh = ys
                 if self.check_updates:
                     assert y == self._duals(cost) and d == self._reduced_costs(cost, y), "scaled pricing drifted"
                 self.scores = None  # computed when first needed (not at all at an optimal start)
@@ -1401,7 +1428,13 @@ class Simplex(DualPhase):
                     d = [None] * len(self.cols)
                     for j, dj in self.partial_seen.items():
                         d[j] = dj
+                elif fresh is not None:
+                    self._fixed_reduced_costs(cost, d, fresh)
+                    if self.check_updates:
+                        assert all(dj is None or dj == cost[j] - sum((y[i] * a for i, a in self.cols[j]), ZERO)
+                                   for j, dj in enumerate(d)), "fixed columns' reduced costs wrong"
                 return Outcome("optimal", z, list(y) if y is not None else self._duals(cost), d=d)
+            fresh = None  # a pivot follows: d is updated from here, not priced afresh
             if pricing == "dantzig" or (pricing in ("hybrid", "guarded") and not bland_mode):
                 q, rule = best, ("partial dantzig" if partial else "devex" if pricing == "guarded" else "dantzig")
             else:
