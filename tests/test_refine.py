@@ -195,6 +195,48 @@ def test_too_many_rows_or_long_entries_are_left_to_exact_factorisation(monkeypat
         refine.FloatInverse(2, columns([[Fraction(1), Fraction(2)], [Fraction(2), Fraction(4)]]))
 
 
+def blas_threads() -> int:
+    from threadpoolctl import threadpool_info
+
+    return max((i["num_threads"] for i in threadpool_info() if i["user_api"] == "blas"), default=1)
+
+
+def test_an_inverse_made_in_the_background_is_the_same_and_blas_gets_its_threads_back(monkeypatch):
+    pytest.importorskip("threadpoolctl")
+    monkeypatch.setattr(refine, "BACKGROUND_ROWS", 1)
+    n = 8  # the Hilbert matrix (condition number about 1.5e10): refinement takes many steps
+    rows = [[Fraction(1, i + j + 1) for j in range(n)] for i in range(n)]
+    rhs = [mpq(i - 5, 7) for i in range(n)]
+    before = blas_threads()
+    inline = refine.FloatInverse(n, columns(rows))
+    made = refine.FloatInverse(n, columns(rows), background=True)
+    assert made._worker is not None and blas_threads() == 1  # held to one thread meanwhile
+    x = made.primal(rhs)
+    assert made._worker is None and made._limiter is None and blas_threads() == before
+    assert x == inline.primal(rhs) == [mpq(v.numerator, v.denominator) for v in sympy_solve(rows, [
+        Fraction(int(v.numerator), int(v.denominator)) for v in rhs])]
+    assert np.array_equal(made.inv, inline.inv)  # the same LAPACK call on the same matrix
+
+
+def test_a_singular_basis_inverted_in_the_background_gives_none(monkeypatch):
+    pytest.importorskip("threadpoolctl")
+    monkeypatch.setattr(refine, "BACKGROUND_ROWS", 1)
+    before = blas_threads()
+    fi = refine.FloatInverse(2, columns([[Fraction(1), Fraction(2)], [Fraction(2), Fraction(4)]]), background=True)
+    assert fi.primal([mpq(1), mpq(2)]) is None and fi.dual([mpq(1), mpq(2)]) is None
+    with pytest.raises(ArithmeticError, match="singular in floating point"):
+        fi.inv
+    assert blas_threads() == before
+
+
+def test_without_threadpoolctl_the_inverse_is_made_inline(monkeypatch):
+    monkeypatch.setattr(refine, "BACKGROUND_ROWS", 1)
+    monkeypatch.setattr(refine, "_controller", False)  # as when threadpoolctl is not installed
+    fi = refine.FloatInverse(2, columns([[Fraction(2), Fraction(1)], [Fraction(1), Fraction(1)]]), background=True)
+    assert fi._worker is None and fi._limiter is None
+    assert fi.primal([mpq(3), mpq(2)]) == [mpq(1), mpq(1)]
+
+
 # -- the solver's refined start, against its factorised one --------------------
 
 def optimal_hint(model) -> BasisHint:

@@ -74,6 +74,10 @@ MAX_BITS = 40_000
 FIRST_TRY = 64
 #: how many components are followed to learn when K suffices
 PROBES = 4
+#: bases of at least this many rows are inverted on a thread of their own when
+#: asked (see FloatInverse): below it, the thread's start and the BLAS limit
+#: (about 0.1 ms together) cost more than the overlap saves
+BACKGROUND_ROWS = 100
 #: the prime of the nonsingularity check: under 2^30, so that every residue is
 #: one digit of a Python integer (a prime near 2^61 took half as long again)
 NONSINGULAR_PRIME = (1 << 30) - 35
@@ -157,9 +161,11 @@ class FloatInverse:
     common denominator), with ``A``'s inverse in double precision, for
     :meth:`primal` and :meth:`dual`.  Raises ArithmeticError when this cannot be
     set up: numpy missing, no rows or too many, an integer too long, or ``A``
-    singular in floats."""
+    singular in floats.  With ``background``, a large inverse is made on a
+    thread of its own (see :meth:`wait`), and a singular ``A`` then makes
+    :meth:`primal` and :meth:`dual` give None instead."""
 
-    def __init__(self, m: int, columns) -> None:
+    def __init__(self, m: int, columns, background: bool = False) -> None:
         if not 0 < m <= MAX_ROWS:
             raise ArithmeticError("no rows, or too many rows for a dense float inverse")
         try:
@@ -188,13 +194,59 @@ class FloatInverse:
         s_r = np.ldexp(1.0, -np.frexp(big.max(axis=1))[1])
         big *= s_r[:, None]
         s_c = np.ldexp(1.0, -np.frexp(big.max(axis=0))[1])
+        self._inv = None
+        self._failed = None
+        self._worker = None
+        scaled = dense * s_r[:, None] * s_c[None, :]
+        self._limiter = _one_blas_thread() if background and m >= BACKGROUND_ROWS else None
+        if self._limiter is not None:
+            # LAPACK runs without the interpreter lock: the inverse is made on the
+            # other core while the caller proves A nonsingular (pure Python), and
+            # waited for at its first use.  BLAS is held to one thread meanwhile:
+            # OpenBLAS's second thread would take the caller's core, and its
+            # threads spin between calls, so that this way was slower than
+            # inline with two (STAIR's warm solve, median of 30 in alternation:
+            # 73 ms this way, 78 inline, 91 in the background on two threads)
+            import threading
+
+            self._worker = threading.Thread(target=self._invert, args=(scaled, s_r, s_c),
+                                            name="exactlp-float-inverse", daemon=True)
+            self._worker.start()
+        else:
+            self._invert(scaled, s_r, s_c)
+            self.inv  # raises at once if singular in floats
+
+    def _invert(self, scaled, s_r, s_c) -> None:
+        np = self.np
         try:
-            inv = np.linalg.inv(dense * s_r[:, None] * s_c[None, :])
+            inv = np.linalg.inv(scaled)
         except np.linalg.LinAlgError:
-            raise ArithmeticError("singular in floating point") from None
-        self.inv = inv * s_c[:, None] * s_r[None, :]
-        if not np.all(np.isfinite(self.inv)):
-            raise ArithmeticError("singular in floating point")
+            self._failed = "singular in floating point"
+            return
+        inv = inv * s_c[:, None] * s_r[None, :]
+        if not np.all(np.isfinite(inv)):
+            self._failed = "singular in floating point"
+            return
+        self._inv = inv
+
+    @property
+    def inv(self):
+        """``A^-1`` in double precision (waited for if made in the background);
+        ArithmeticError if ``A`` is singular in floating point."""
+        self.wait()
+        if self._failed is not None:
+            raise ArithmeticError(self._failed)
+        return self._inv
+
+    def wait(self) -> None:
+        """Wait for an inverse made in the background, and let BLAS have its
+        threads back (call it before dropping this object unused)."""
+        if self._worker is not None:
+            self._worker.join()
+            self._worker = None
+        if self._limiter is not None:
+            self._limiter.restore_original_limits()
+            self._limiter = None
 
     #: a callable telling when to give up (a time limit or an interruption), or None
     expired = None
@@ -204,7 +256,11 @@ class FloatInverse:
     def primal(self, rhs: list[mpq]) -> list[mpq] | None:
         """The exact ``x`` with ``B x = rhs``, or None.  (``B x = A E^-1 x``: solve
         ``A z = rhs``, then ``x = E z``.)"""
-        got = self._solve(self.rows, self.cols, self.inv, rhs, ONE)
+        try:
+            inv = self.inv
+        except ArithmeticError:
+            return None
+        got = self._solve(self.rows, self.cols, inv, rhs, ONE)
         if got is None:
             return None
         nums, den = got
@@ -216,7 +272,11 @@ class FloatInverse:
         integers), or None.  (``B^T = E^-1 A^T``: solve ``A^T y = E rhs``.)  The
         denominators of both solutions divide ``det A``, so the primal's common
         denominator, if known, is tried first."""
-        got = self._solve(self.cols, self.rows, self.inv.T,
+        try:
+            inv = self.inv
+        except ArithmeticError:
+            return None
+        got = self._solve(self.cols, self.rows, inv.T,
                           [v * e if v and e != 1 else v for v, e in zip(rhs, self.scales)],
                           self.den_hint)
         if got is None:
@@ -336,6 +396,27 @@ class FloatInverse:
             total += k
             r, rbits, xh = rn, top.bit_length(), None
         return None
+
+
+_controller = None  # threadpoolctl's view of the loaded BLAS, made once; False without it
+
+
+def _one_blas_thread():
+    """Hold BLAS to one thread, for the whole process (the libraries' setting is
+    global); returns the limiter, whose ``restore_original_limits()`` undoes it,
+    or None when threadpoolctl is not installed (then nothing runs in the
+    background).  A solve on another thread meanwhile is slower, not wrong."""
+    global _controller
+    if _controller is None:
+        try:
+            from threadpoolctl import ThreadpoolController
+        except ImportError:
+            _controller = False
+        else:
+            _controller = ThreadpoolController()
+    if _controller is False:
+        return None
+    return _controller.limit(limits=1, user_api="blas")
 
 
 def _denominator(xs: list, errs: list[int], bits: int, q=ONE):

@@ -382,11 +382,19 @@ class Simplex(DualPhase):
             self.integer_columns = IntegerColumns(self.cols)
         ints = self.integer_columns
         try:
-            fi = FloatInverse(m, [ints[c] for c in head])
+            fi = FloatInverse(m, [ints[c] for c in head], background=True)
         except ArithmeticError:
             return None
         fi.expired = self._expired
-        xb = fi.primal([rhs.get(i, ZERO) for i in range(m)])
+        # B nonsingular first: this pure-Python elimination runs while the float
+        # inverse is made on the other core (see FloatInverse); a basis that fails
+        # it (or is too dense for it) is factored exactly, which decides
+        try:
+            if not fi.nonsingular():
+                return None
+            xb = fi.primal([rhs.get(i, ZERO) for i in range(m)])
+        finally:
+            fi.wait()
         if xb is None:
             return None
         known = dict(zip(head, xb))
@@ -395,8 +403,6 @@ class Simplex(DualPhase):
             lo, hi = lower[c], upper[c]
             if (lo is not None and v < lo) or (hi is not None and v > hi):
                 return known
-        if not fi.nonsingular():
-            return None
         for c, v in known.items():
             x[c] = v
         self.repair = {}
