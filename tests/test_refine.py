@@ -373,3 +373,27 @@ def test_fixed_columns_reduced_costs_come_from_the_same_scaled_duals(monkeypatch
     r = solve_verified(model, start_basis=hint)
     assert r.reduced_costs["c"] == Fraction(-1) and type(r.reduced_costs["c"]) is Fraction
     assert (r.duals["cap"], r.duals["mix"], r.objective) == (Fraction(2), Fraction(1), Fraction(27))
+
+
+@pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
+def test_the_collector_is_paused_for_a_warm_solve_only_and_resumed():
+    import gc
+
+    seen = []
+    m = model_from_text(KNOWN[0][1])
+    assert gc.isenabled()
+    r = exactlp.solve(m, warm_start=True, listener=lambda e: seen.append(gc.isenabled()))
+    assert r.status.is_proven and seen and not any(seen) and gc.isenabled()
+    seen.clear()
+    exactlp.solve(m, warm_start=False, listener=lambda e: seen.append(gc.isenabled()))
+    assert seen and all(seen)  # a cold solve leaves it alone
+    # resumed after an error too; and one paused by the caller stays paused
+    with pytest.raises(RuntimeError, match="stop here"):
+        exactlp.solve(m, warm_start=True, listener=lambda e: (_ for _ in ()).throw(RuntimeError("stop here")))
+    assert gc.isenabled()
+    gc.disable()
+    try:
+        exactlp.solve(m, warm_start=True)
+        assert not gc.isenabled()
+    finally:
+        gc.enable()
