@@ -179,25 +179,34 @@ class FloatInverse:
                 raise ArithmeticError("an entry is too long for 64-bit residuals")
             e, ints = got
             scales.append(e)
-            for i, a in ints:
-                rows.append(i)
-                cols.append(k)
-                vals.append(a)
+            if ints:
+                r, v = zip(*ints)
+                rows.extend(r)
+                vals.extend(v)
+                cols.extend([k] * len(r))
         self.scales = scales
         self.rows, self.cols, self.vals = rows, cols, vals
-        dense = np.zeros((m, m))
-        dense[rows, cols] = vals  # exact: every integer is below 2^53
+        self._r = r_a = np.array(rows, dtype=np.int64)
+        self._c = c_a = np.array(cols, dtype=np.int64)
+        self._v = np.array(vals, dtype=np.int64)  # exact: every integer is below 2^40
         # equilibrated by powers of two (exact), rows then columns, so that the
         # float inverse is as accurate as the matrix allows: A = S_r^-1 H S_c^-1
-        # with H = S_r A S_c, so A^-1 = S_c H^-1 S_r
-        big = np.abs(dense)
-        s_r = np.ldexp(1.0, -np.frexp(big.max(axis=1))[1])
-        big *= s_r[:, None]
-        s_c = np.ldexp(1.0, -np.frexp(big.max(axis=0))[1])
+        # with H = S_r A S_c, so A^-1 = S_c H^-1 S_r (the largest entry of each
+        # row and column read off the nonzeros, not the dense matrix)
+        av = np.abs(self._v).astype(np.float64)
+        top = np.zeros(m)
+        np.maximum.at(top, r_a, av)
+        s_r = np.ldexp(1.0, -np.frexp(top)[1])
+        av *= s_r[r_a]
+        top[:] = 0.0
+        np.maximum.at(top, c_a, av)
+        s_c = np.ldexp(1.0, -np.frexp(top)[1])
+        scaled = np.zeros((m, m))
+        scaled[r_a, c_a] = self._v.astype(np.float64) * s_r[r_a] * s_c[c_a]
         self._inv = None
         self._failed = None
         self._worker = None
-        scaled = dense * s_r[:, None] * s_c[None, :]
+        self._sorted: dict = {}
         self._limiter = _one_blas_thread() if background and m >= BACKGROUND_ROWS else None
         if self._limiter is not None:
             # LAPACK runs without the interpreter lock: the inverse is made on the
@@ -260,7 +269,7 @@ class FloatInverse:
             inv = self.inv
         except ArithmeticError:
             return None
-        got = self._solve(self.rows, self.cols, inv, rhs, ONE)
+        got = self._solve(False, inv, rhs, ONE)
         if got is None:
             return None
         nums, den = got
@@ -276,7 +285,7 @@ class FloatInverse:
             inv = self.inv
         except ArithmeticError:
             return None
-        got = self._solve(self.cols, self.rows, inv.T,
+        got = self._solve(True, inv.T,
                           [v * e if v and e != 1 else v for v, e in zip(rhs, self.scales)],
                           self.den_hint)
         if got is None:
@@ -294,12 +303,13 @@ class FloatInverse:
         return _nonsingular_mod(self.m, self.rows, self.cols, self.vals, p, NONSINGULAR_BUDGET)
 
     # ------------------------------------------------------------------
-    def _solve(self, rows, cols, inv, rhs: list[mpq], q0):
+    def _solve(self, transpose: bool, inv, rhs: list[mpq], q0):
         """``(Z, D)``, integers ``Z`` and ``D`` with ``M (Z / D) = rhs`` exactly, for
-        the integer matrix ``M`` given by ``rows, cols, self.vals`` and ``inv``
-        its float inverse; or None.  ``q0``: a likely multiple of the
+        the integer matrix ``M`` (``A``, or with ``transpose`` its transpose) and
+        ``inv`` its float inverse; or None.  ``q0``: a likely multiple of the
         denominators, tried first."""
         np, m, vals = self.np, self.m, self.vals
+        rows, cols = (self.cols, self.rows) if transpose else (self.rows, self.cols)
         d = ONE  # the right-hand side's common denominator: solve M z' = d rhs, z = z' / d
         for v in rhs:
             if v.denominator != 1:
@@ -313,11 +323,15 @@ class FloatInverse:
             b.append(a)
         if not any(b):
             return [mpz(0)] * m, ONE
-        order = np.lexsort((cols, rows))  # by row, for the exact product below
-        rows_a = np.array(rows, dtype=np.int64)[order]
-        cols_a = np.array(cols, dtype=np.int64)[order]
-        vals_u = np.array(vals, dtype=np.int64)[order].view(np.uint64)
-        starts = np.flatnonzero(np.r_[True, rows_a[1:] != rows_a[:-1]])
+        got = self._sorted.get(transpose)
+        if got is None:  # the nonzeros by row of M, for the exact product below
+            r_a, c_a = (self._c, self._r) if transpose else (self._r, self._c)
+            order = np.lexsort((c_a, r_a))
+            rows_a = r_a[order]
+            got = self._sorted[transpose] = (
+                c_a[order], self._v[order].view(np.uint64),
+                np.flatnonzero(np.r_[True, rows_a[1:] != rows_a[:-1]]))
+        cols_a, vals_u, starts = got
         if len(starts) != m:
             return None  # an empty row: singular
 
