@@ -45,6 +45,9 @@ proposes ``xt``; every residual is exact, and the answer is checked exactly.
 
 from __future__ import annotations
 
+from math import frexp as _frexp
+from math import isfinite as _isfinite
+
 from gmpy2 import f_mod_2exp as _f_mod_2exp
 from gmpy2 import isqrt as _isqrt
 from gmpy2 import lcm as _lcm
@@ -336,7 +339,7 @@ class FloatInverse:
             return None  # an empty row: singular
 
         def product(xt):  # M xt, modulo 2^64
-            return np.add.reduceat(vals_u * xt.view(np.uint64)[cols_a], starts)
+            return np.add.reduceat(vals_u * xt.view(np.uint64).take(cols_a), starts)
 
         r = np.array(b, dtype=np.int64)
         rbits = int(np.max(np.abs(r))).bit_length()
@@ -364,8 +367,8 @@ class FloatInverse:
                 # take (so that round(2^k xh) fits a word) and the tolerance of the
                 # denominator tries; no value of a result comes from it unchecked
                 # (each step's residual is exact, and the answer is checked exactly)
-                big = float(np.max(np.abs(xh)))
-                if not np.isfinite(big):
+                big = float(abs(xh).max())  # (array methods: np.max costs a wrapper call a step)
+                if not _isfinite(big):
                     return None
                 done = big == 0.0
                 if done and r.any():
@@ -386,8 +389,8 @@ class FloatInverse:
                         next_try = total + total // 5
                     if done:
                         return None
-                # xt = round(2^k xh) must fit a word: |xt| < 2^62
-                fit = 61 - int(np.ceil(np.log2(big))) if big >= 1 else 61
+                # xt = round(2^k xh) must fit a word: |xt| < 2^62 (big < 2^e)
+                fit = 61 - _frexp(big)[1] if big >= 1 else 61
             # the longest step that keeps the new residual short: |r'| is about
             # 2^(k + rho) |r|, and must stay under 2^RESIDUAL_BITS (a margin of 4)
             want = STEP_MOST if rho is None else RESIDUAL_BITS - 4 - rbits - rho
@@ -398,7 +401,7 @@ class FloatInverse:
                 return None
             xt = np.rint(np.ldexp(xh, k)).astype(np.int64)
             rn = ((r.view(np.uint64) << np.uint64(k)) - product(xt)).view(np.int64)
-            top = int(np.max(np.abs(rn)))
+            top = int(abs(rn).max())
             if top >= limit:
                 # too far for the float solve's accuracy (or a value wrapped): this
                 # says rho >= RESIDUAL_BITS - k - rbits; the same xh, a shorter step
@@ -406,7 +409,7 @@ class FloatInverse:
                 continue
             rho = top.bit_length() - k - rbits
             chunks.append((k, xt))
-            x_probes = [(v << k) + int(xt[i]) for v, i in zip(x_probes, probes)]
+            x_probes = [(v << k) + t for v, t in zip(x_probes, xt.take(probes).tolist())]
             total += k
             r, rbits, xh = rn, top.bit_length(), None
         return None
