@@ -229,9 +229,15 @@ def test_a_singular_basis_inverted_in_the_background_gives_none(monkeypatch):
     assert blas_threads() == before
 
 
-def test_without_threadpoolctl_the_inverse_is_made_inline(monkeypatch):
+class _Refusing:
+    def limit(self, **kw):
+        raise RuntimeError("cannot set this BLAS")
+
+
+@pytest.mark.parametrize("controller", [False, _Refusing()], ids=["not installed", "refuses"])
+def test_without_a_blas_limit_the_inverse_is_made_inline(monkeypatch, controller):
     monkeypatch.setattr(refine, "BACKGROUND_ROWS", 1)
-    monkeypatch.setattr(refine, "_controller", False)  # as when threadpoolctl is not installed
+    monkeypatch.setattr(refine, "_controller", controller)
     fi = refine.FloatInverse(2, columns([[Fraction(2), Fraction(1)], [Fraction(1), Fraction(1)]]), background=True)
     assert fi._worker is None and fi._limiter is None
     assert fi.primal([mpq(3), mpq(2)]) == [mpq(1), mpq(1)]

@@ -427,13 +427,16 @@ def _one_blas_thread():
     if _controller is None:
         try:
             from threadpoolctl import ThreadpoolController
-        except ImportError:
-            _controller = False
-        else:
+
             _controller = ThreadpoolController()
+        except Exception:  # not installed, or it cannot read the loaded libraries
+            _controller = False
     if _controller is False:
         return None
-    return _controller.limit(limits=1, user_api="blas")
+    try:
+        return _controller.limit(limits=1, user_api="blas")
+    except Exception:  # a BLAS it cannot set: the inverse is made inline instead
+        return None
 
 
 def _denominator(xs: list, errs: list[int], bits: int, q=ONE):
