@@ -212,7 +212,7 @@ def test_an_inverse_made_in_the_background_is_the_same_and_blas_gets_its_threads
     made = refine.FloatInverse(n, columns(rows), background=True)
     assert made._worker is not None and blas_threads() == 1  # held to one thread meanwhile
     x = made.primal(rhs)
-    assert made._worker is None and made._limiter is None and blas_threads() == before
+    assert made._worker is None and not made._limiter and blas_threads() == before
     assert x == inline.primal(rhs) == [mpq(v.numerator, v.denominator) for v in sympy_solve(rows, [
         Fraction(int(v.numerator), int(v.denominator)) for v in rhs])]
     assert np.array_equal(made.inv, inline.inv)  # the same LAPACK call on the same matrix
@@ -239,7 +239,7 @@ def test_without_a_blas_limit_the_inverse_is_made_inline(monkeypatch, controller
     monkeypatch.setattr(refine, "BACKGROUND_ROWS", 1)
     monkeypatch.setattr(refine, "_controller", controller)
     fi = refine.FloatInverse(2, columns([[Fraction(2), Fraction(1)], [Fraction(1), Fraction(1)]]), background=True)
-    assert fi._worker is None and fi._limiter is None
+    assert fi._worker is None and not fi._limiter
     assert fi.primal([mpq(3), mpq(2)]) == [mpq(1), mpq(1)]
 
 
@@ -403,3 +403,28 @@ def test_the_collector_is_paused_for_a_warm_solve_only_and_resumed():
         assert not gc.isenabled()
     finally:
         gc.enable()
+
+
+def test_overlapping_solves_hand_the_process_settings_back_in_any_order():
+    # two solves on two threads: the first to start may end first; the BLAS limit
+    # and the collector's pause are counted, so the last to end puts back what was
+    # there before the first began (a plain save and restore left BLAS on one thread)
+    import gc
+
+    from exactlp.solver import _collector_paused
+
+    pytest.importorskip("threadpoolctl")
+    before = blas_threads()
+    assert refine._one_blas_thread() and refine._one_blas_thread()
+    assert blas_threads() == 1
+    refine._release_blas()
+    assert blas_threads() == 1  # the other still holds it
+    refine._release_blas()
+    assert blas_threads() == before and refine._blas_holders == 0
+    first, second = _collector_paused(True), _collector_paused(True)
+    first.__enter__()
+    second.__enter__()
+    first.__exit__(None, None, None)
+    assert not gc.isenabled()  # the second is still running
+    second.__exit__(None, None, None)
+    assert gc.isenabled()

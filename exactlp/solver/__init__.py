@@ -10,6 +10,7 @@ from __future__ import annotations
 import contextlib
 import gc
 import sys
+import threading
 import time
 from fractions import Fraction
 
@@ -26,6 +27,11 @@ FILL_SWITCH_INTERVAL = 0.0002
 __all__ = ["solve", "SolveResult", "Status", "PRICING_RULES", "Start", "Pivot", "PhaseEnd", "Finish"]
 
 
+_gc_lock = threading.Lock()
+_gc_holders = 0  # warm solves running now with the collector paused
+_gc_paused_by_us = False  # whether the first of them found it running and paused it
+
+
 @contextlib.contextmanager
 def _collector_paused(on: bool):
     """Pause Python's cyclic garbage collector for the block (when ``on``).
@@ -38,20 +44,30 @@ def _collector_paused(on: bool):
     alternating processes).  Nothing is left uncollected by the pause: the
     solver makes no reference cycles (none over STAIR's solves, 24 objects
     over BANDM's whole cold solve), so its objects are freed by their counts
-    as always.  The collector is the process's: it is paused only if it was
-    running (and then resumed, even after an error).  Only for warm
-    solves of models up to REFINE_MAX_ROWS rows, which take a fraction of a
-    second when the suggestion holds; cold solves gained nothing measurable
-    (BANDM 1.54-1.75 s either way).
+    as always.  Only for warm solves of models up to REFINE_MAX_ROWS rows,
+    which take a fraction of a second when the suggestion holds; cold solves
+    gained nothing measurable (BANDM 1.54-1.75 s either way).  The collector is
+    the process's, so solves on several threads are counted: the first pauses
+    it if it was running, and the last resumes it then (even after an error).
     """
-    paused = on and gc.isenabled()
-    if paused:
-        gc.disable()
+    global _gc_holders, _gc_paused_by_us
+    if not on:
+        yield
+        return
+    with _gc_lock:
+        if _gc_holders == 0:
+            _gc_paused_by_us = gc.isenabled()
+            if _gc_paused_by_us:
+                gc.disable()
+        _gc_holders += 1
     try:
         yield
     finally:
-        if paused and not gc.isenabled():
-            gc.enable()
+        with _gc_lock:
+            _gc_holders -= 1
+            if _gc_holders == 0 and _gc_paused_by_us:
+                _gc_paused_by_us = False
+                gc.enable()
 
 
 def _fixed(lo, hi) -> bool:

@@ -45,6 +45,7 @@ proposes ``xt``; every residual is exact, and the answer is checked exactly.
 
 from __future__ import annotations
 
+import threading
 from math import frexp as _frexp
 from math import isfinite as _isfinite
 
@@ -210,8 +211,8 @@ class FloatInverse:
         self._failed = None
         self._worker = None
         self._sorted: dict = {}
-        self._limiter = _one_blas_thread() if background and m >= BACKGROUND_ROWS else None
-        if self._limiter is not None:
+        self._limiter = background and m >= BACKGROUND_ROWS and _one_blas_thread()
+        if self._limiter:
             # LAPACK runs without the interpreter lock: the inverse is made on the
             # other core while the caller proves A nonsingular (pure Python), and
             # waited for at its first use.  BLAS is held to one thread meanwhile:
@@ -219,8 +220,6 @@ class FloatInverse:
             # threads spin between calls, so that this way was slower than
             # inline with two (STAIR's warm solve, median of 30 in alternation:
             # 73 ms this way, 78 inline, 91 in the background on two threads)
-            import threading
-
             self._worker = threading.Thread(target=self._invert, args=(scaled, s_r, s_c),
                                             name="exactlp-float-inverse", daemon=True)
             self._worker.start()
@@ -256,9 +255,9 @@ class FloatInverse:
         if self._worker is not None:
             self._worker.join()
             self._worker = None
-        if self._limiter is not None:
-            self._limiter.restore_original_limits()
-            self._limiter = None
+        if self._limiter:
+            self._limiter = False
+            _release_blas()
 
     #: a callable telling when to give up (a time limit or an interruption), or None
     expired = None
@@ -416,27 +415,47 @@ class FloatInverse:
 
 
 _controller = None  # threadpoolctl's view of the loaded BLAS, made once; False without it
+_blas_lock = threading.Lock()
+_blas_holders = 0  # solves holding BLAS to one thread now (the setting is the process's)
+_blas_limiter = None  # what the first of them set, to be undone by the last
 
 
-def _one_blas_thread():
-    """Hold BLAS to one thread, for the whole process (the libraries' setting is
-    global); returns the limiter, whose ``restore_original_limits()`` undoes it,
-    or None when threadpoolctl is not installed (then nothing runs in the
-    background).  A solve on another thread meanwhile is slower, not wrong."""
-    global _controller
-    if _controller is None:
-        try:
-            from threadpoolctl import ThreadpoolController
+def _one_blas_thread() -> bool:
+    """Hold BLAS to one thread; True if held (then :func:`_release_blas` must
+    follow), False when threadpoolctl is not installed or cannot set the loaded
+    BLAS (then nothing runs in the background).  The setting is global, so
+    holders are counted: the first sets it and the last puts back what was
+    there before the first (two solves on two threads, overlapping, would
+    otherwise leave one thread for good: the second would "restore" the
+    first's limit).  A solve on another thread meanwhile is slower, not wrong."""
+    global _controller, _blas_holders, _blas_limiter
+    with _blas_lock:
+        if _blas_holders == 0:
+            if _controller is None:
+                try:
+                    from threadpoolctl import ThreadpoolController
 
-            _controller = ThreadpoolController()
-        except Exception:  # not installed, or it cannot read the loaded libraries
-            _controller = False
-    if _controller is False:
-        return None
-    try:
-        return _controller.limit(limits=1, user_api="blas")
-    except Exception:  # a BLAS it cannot set: the inverse is made inline instead
-        return None
+                    _controller = ThreadpoolController()
+                except Exception:  # not installed, or it cannot read the loaded libraries
+                    _controller = False
+            if _controller is False:
+                return False
+            try:
+                _blas_limiter = _controller.limit(limits=1, user_api="blas")
+            except Exception:  # a BLAS it cannot set: the inverse is made inline instead
+                return False
+        _blas_holders += 1
+        return True
+
+
+def _release_blas() -> None:
+    """Undo one :func:`_one_blas_thread` that returned True."""
+    global _blas_holders, _blas_limiter
+    with _blas_lock:
+        _blas_holders -= 1
+        if _blas_holders == 0:
+            limiter, _blas_limiter = _blas_limiter, None
+            limiter.restore_original_limits()
 
 
 def _denominator(xs: list, errs: list[int], bits: int, q=ONE):
