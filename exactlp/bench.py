@@ -149,6 +149,30 @@ def processor() -> str:
     return ""
 
 
+def _fixed_work() -> int:
+    """A fixed pure-Python loop (integers, a dictionary) of about 10-20 ms here."""
+    seen: dict[int, int] = {}
+    s = 0
+    for i in range(200_000):
+        s += i * i % 7
+        seen[i & 1023] = s
+    return s
+
+
+def calibration(runs: int = 5) -> float:
+    """Seconds for :func:`_fixed_work`, the fastest of ``runs``: printed under the
+    header, so that runs made in different spells of the machine can be told
+    apart (the exact solver's pivots are pure Python like it; the float
+    reference is not)."""
+    best = None
+    for _ in range(runs):
+        t = time.perf_counter()
+        _fixed_work()
+        dt = time.perf_counter() - t
+        best = dt if best is None else min(best, dt)
+    return best
+
+
 def best_of(call, budget: float = REPEAT_BUDGET, most: int = REPEAT_MOST):
     """Run ``call`` once, and again while the runs so far took under ``budget``
     seconds (``most`` runs at most); return (the fastest time, the last result).
@@ -335,6 +359,8 @@ def main(argv: list[str] | None = None) -> int:
 
     print(f"exactlp {__version__} benchmark, {time.strftime('%Y-%m-%d')}, {os.cpu_count()} cores{processor()}, "
           f"Python {sys.version.split()[0]}")
+    print(f"calibration: {calibration() * 1000:.1f} ms for a fixed pure-Python loop, the fastest of 5 "
+          "(the machine's spell: see DEVELOPERS.md)")
     rows = choose(read_table(netlib), a.list)
     import importlib
 

@@ -7,7 +7,8 @@ against a recomputation (the paths the Netlib problems take only on long numbers
 --partial: partial pricing on every model (the wide models' rule; its scans on
 integers or, with nested denominators, on fractions).
 --refine: every model also solved from HiGHS's basis checked by refinement
-(solver/refine.py, forced on every basis), which must give the same exact
+(solver/refine.py, forced on every basis, its float inverse made on a thread of
+its own beside the nonsingularity check), which must give the same exact
 result as the same start checked by factorisation.
 """
 import sys
@@ -36,6 +37,9 @@ if REFINE:
     from exactlp.floatlp import highs_available
 
     assert highs_available(), "--refine needs highspy"
+    import exactlp.solver.refine as refine_module
+
+    refine_module.BACKGROUND_ROWS = 1
 count = {"n": 0}
 @settings(max_examples=N, deadline=None, database=None, suppress_health_check=list(HealthCheck))
 @given(lp_models(max_vars=7, max_rows=7))

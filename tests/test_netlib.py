@@ -114,6 +114,11 @@ def test_bench_prints_figures(capsys):
     # the header names the date and the machine: cores, the processor where the system says it
     header = out.splitlines()[0]
     assert header.startswith("exactlp ") and f"{os.cpu_count()} cores" in header and bench.processor() in header
+    # then the time of a fixed pure-Python loop, which tells a slow spell of the machine
+    cal = out.splitlines()[1]
+    assert cal.startswith("calibration: ") and cal.endswith(" ms for a fixed pure-Python loop, the fastest of 5 "
+                                                            "(the machine's spell: see DEVELOPERS.md)")
+    assert 0 < float(cal.split()[1]) < 10_000
     # the targets follow the table, read off the same figures
     tail = out.split("targets:\n", 1)[1].splitlines()
     assert tail[0].startswith("  up to 500 rows, no warm start, within 5 s: 2 of 2")
