@@ -229,6 +229,21 @@ def test_a_singular_basis_inverted_in_the_background_gives_none(monkeypatch):
     assert blas_threads() == before
 
 
+def test_no_thread_to_be_had_means_inline_and_blas_given_back(monkeypatch):
+    pytest.importorskip("threadpoolctl")
+    import threading
+
+    def refuse(self):
+        raise RuntimeError("can't start new thread")
+
+    monkeypatch.setattr(refine, "BACKGROUND_ROWS", 1)
+    monkeypatch.setattr(threading.Thread, "start", refuse)
+    before = blas_threads()
+    fi = refine.FloatInverse(2, columns([[Fraction(2), Fraction(1)], [Fraction(1), Fraction(1)]]), background=True)
+    assert fi._worker is None and not fi._limiter and blas_threads() == before and refine._blas_holders == 0
+    assert fi.primal([mpq(3), mpq(2)]) == [mpq(1), mpq(1)]
+
+
 class _Refusing:
     def limit(self, **kw):
         raise RuntimeError("cannot set this BLAS")

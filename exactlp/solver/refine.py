@@ -220,10 +220,15 @@ class FloatInverse:
             # threads spin between calls, so that this way was slower than
             # inline with two (STAIR's warm solve, median of 30 in alternation:
             # 73 ms this way, 78 inline, 91 in the background on two threads)
-            self._worker = threading.Thread(target=self._invert, args=(scaled, s_r, s_c),
-                                            name="exactlp-float-inverse", daemon=True)
-            self._worker.start()
-        else:
+            worker = threading.Thread(target=self._invert, args=(scaled, s_r, s_c),
+                                      name="exactlp-float-inverse", daemon=True)
+            try:
+                worker.start()
+            except RuntimeError:  # no thread to be had: inline, BLAS given back
+                self.wait()
+            else:
+                self._worker = worker
+        if self._worker is None:
             self._invert(scaled, s_r, s_c)
             self.inv  # raises at once if singular in floats
 
