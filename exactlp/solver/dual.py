@@ -377,7 +377,24 @@ class DualPhase:
         division (the same rule as the primal ratio test, ``Simplex._ratio``).
         """
         best, best_t, best_e, best_a = -1, None, 0, None
-        for j, dj, a in self._dual_candidates(row, d, s):
+        state = self.state
+        # (the filter of _dual_candidates, in line: this loop meets every entry of
+        # the row, about 6,000 a pivot on D6CUBE, and the generator's yields were
+        # a sixth of its time)
+        for j, v in row.items():
+            dj = d[j]
+            if dj is None or not v:
+                continue  # fixed (cannot move)
+            a = v if s > 0 else -v
+            st = state[j]
+            if st == AT_LOWER:
+                if a <= 0:
+                    continue
+            elif st == AT_UPPER:
+                if a >= 0:
+                    continue
+            if a < 0:
+                a = -a
             if dj:
                 n = dj.numerator
                 e = (n.bit_length() - dj.denominator.bit_length()  # (bit_length ignores the sign)
