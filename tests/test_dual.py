@@ -21,6 +21,7 @@ from exactlp.solver import dual as dual_module
 from exactlp.solver import simplex as simplex_module
 from exactlp.solver.events import Pivot, Start
 
+from .conftest import needs_netlib
 from .helpers import always_scaled, solve_verified, sympy_solve
 from .models import FLIPS, KNOWN
 from .strategies import lp_models
@@ -426,9 +427,11 @@ def test_tableau_rows_by_numpy_on_the_bound_flip_model():
     assert r.status is exactlp.Status.OPTIMAL and seen["rows"] >= 1 and seen["by_numpy"] == seen["rows"]
 
 
-def test_tableau_row_sums_that_could_leave_64_bits_go_by_the_loops(monkeypatch):
+def test_tableau_row_sums_past_64_bits_go_by_limbs_then_by_the_loops(monkeypatch):
     # a multiplier of 2^70 in a row: max |R| times the column sums is past 2^63,
-    # so the numpy function declines (None) and the loops make the row
+    # so R is cut into limbs, each summed in 64 bits, and the sums put together
+    # in Python integers; past ROW_LIMBS_MOST limbs (2^400 here) the function
+    # declines (None) and the loops make the row
     pytest.importorskip("numpy")
     monkeypatch.setattr(simplex_module, "NUMPY_ROW_NONZEROS", 0)
     from exactlp.solver.form import build_form
@@ -437,5 +440,73 @@ def test_tableau_row_sums_that_could_leave_64_bits_go_by_the_loops(monkeypatch):
     sx = simplex_module.Simplex(build_form(m), pricing="guarded")
     fast = sx._np_rows()
     assert fast is not None
-    assert fast([mpq(2**70)] + [mpq(0)] * (sx.m - 1), 0) is None
+    rows, escale, _ = sx._int_rows()
+    plus, minus, other = rows[0]
+    for r0 in (2**70, -(2**70) + 12345, 3**100):
+        want: dict = {}
+        for j in plus:
+            want[j] = want.get(j, 0) + r0
+        for j in minus:
+            want[j] = want.get(j, 0) - r0
+        for j, a in other:
+            want[j] = want.get(j, 0) + r0 * a
+        want = {j: (v if escale[j] == 1 else mpq(v, escale[j])) for j, v in want.items() if v}
+        want.pop(sx.head[0], None)
+        got = fast([mpq(r0)] + [mpq(0)] * (sx.m - 1), 0)
+        assert got == want and got and all(type(v) in (int, type(mpq(0))) for v in got.values())
+    assert fast([mpq(2**400)] + [mpq(0)] * (sx.m - 1), 0) is None
     assert fast([mpq(0)] * sx.m, 0) == {}
+
+
+@pytest.mark.parametrize("bits", [3, 17])
+@settings(max_examples=40, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@given(model=lp_models(max_vars=6, max_rows=6))
+def test_tableau_rows_by_limbs_are_the_loops_rows(bits, model):
+    # every row whose R passes 2^bits goes through the limbs (so most rows take
+    # several), against the loops' row for the same basis
+    with rows_both_ways() as seen, limbs_of(bits) as cut:
+        solve_verified(model, warm_start=False)
+    assert seen["by_numpy"] == seen["rows"] and cut["rows"] <= seen["rows"]
+
+
+@needs_netlib
+@pytest.mark.parametrize("name", ["SC50A", "KB2", "SHARE2B"])
+def test_tableau_rows_by_limbs_on_netlib(name):
+    from exactlp.io import read_mps
+
+    from .conftest import NETLIB, netlib_table
+
+    m = read_mps(NETLIB / netlib_table()[name]["file"])
+    with rows_both_ways() as seen, limbs_of(5) as cut:
+        r = solve_verified(m, warm_start=False)
+    assert r.status is exactlp.Status.OPTIMAL
+    assert seen["rows"] == seen["by_numpy"] and cut["rows"] >= 10 and cut["limbs"] > cut["rows"]
+
+
+@contextlib.contextmanager
+def limbs_of(bits: int):
+    """Limbs of ``bits`` bits, as many as a row needs; yields how many rows went
+    by limbs and how many limbs they took (read off R as the function sees it)."""
+    saved = simplex_module.ROW_LIMB_BITS, simplex_module.ROW_LIMBS_MOST, simplex_module.Simplex._np_rows
+    cut = {"rows": 0, "limbs": 0}
+    original = simplex_module.Simplex._np_rows
+
+    def counting(self):
+        fn = original(self)
+        if fn is None:
+            return None
+
+        def wrapped(big, p):
+            longest = int(max(big, key=abs, default=0).__abs__())
+            if longest >> bits:
+                cut["rows"] += 1
+                cut["limbs"] += -(-longest.bit_length() // bits)
+            return fn(big, p)
+        return wrapped
+
+    simplex_module.ROW_LIMB_BITS, simplex_module.ROW_LIMBS_MOST = bits, 10**6
+    simplex_module.Simplex._np_rows = counting
+    try:
+        yield cut
+    finally:
+        simplex_module.ROW_LIMB_BITS, simplex_module.ROW_LIMBS_MOST, simplex_module.Simplex._np_rows = saved

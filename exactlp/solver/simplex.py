@@ -181,6 +181,12 @@ def _dual_ints(y: list[mpq]):
     return [v.numerator * (dy // v.denominator) if v else 0 for v in y], dy
 
 
+#: a tableau row whose btran integers R pass the 64-bit bound of _np_rows is summed
+#: in limbs of R, at most this many (past it, by the Python loops)
+ROW_LIMBS_MOST = 4
+#: the limbs' size in bits when smaller than the bound allows (None: as it allows;
+#: tests set a few bits to take every row through the limbs)
+ROW_LIMB_BITS = None
 #: a suggested basis is checked by refinement (see refine.py) instead of exact
 #: factorisation when the nucleus of its factorisation (what the singletons
 #: leave) holds this many bits or more (numerators and denominators).  Measured
@@ -1000,10 +1006,41 @@ class Simplex(DualPhase):
                     col_ids = cols_a[starts]
                     whole_mask = np.array([escale[j] == 1 for j in col_ids.tolist()])
                     limit = (2**63 - 1) // max(top, 1)
+                    # a limb of R: |digit| < 2^b <= limit (ROW_LIMB_BITS: smaller, in tests)
+                    b = min(limit.bit_length() - 1, ROW_LIMB_BITS or 63)
+                    ids = col_ids.tolist()
+                    wholes = whole_mask.tolist()
+
+                    def limbs(big, p, longest, _np=np):
+                        # R = sum_k R_k 2^(k b) with signed digits |R_k| < 2^b, so each
+                        # A_int^T R_k is exact in 64 bits; the sums are put together in
+                        # Python integers (D6CUBE: 65 of its 427 rows, R up to 195 bits)
+                        n = -(-longest // b)
+                        if n > ROW_LIMBS_MOST:
+                            return None  # too long even so: the loops below
+                        mask = (1 << b) - 1
+                        vals = [int(v) for v in big]
+                        total = None
+                        for k in range(n):
+                            sh = k * b
+                            r = _np.array([(v >> sh) & mask if v >= 0 else -((-v >> sh) & mask) for v in vals],
+                                          dtype=_np.int64)
+                            part = _np.add.reduceat(vals_a * r[rows_a], starts).tolist()
+                            total = part if total is None else [t + (x << sh) if x else t
+                                                                for t, x in zip(total, part)]
+                        out = {}
+                        for j, v, w in zip(ids, total, wholes):
+                            if v:
+                                out[j] = v if w else mpq(v, escale[j])
+                        out.pop(self.head[p], None)
+                        return out
+
+                    forced = ROW_LIMB_BITS is not None
 
                     def fn(big, p, _np=np):
-                        if max(big, key=abs, default=0).__abs__() > limit:
-                            return None  # a sum could leave 64 bits: the loops below
+                        longest = max(big, key=abs, default=0).__abs__()
+                        if longest > limit or (forced and longest >> b):
+                            return limbs(big, p, int(longest).bit_length())  # a sum could leave 64 bits
                         r = _np.array([int(v) for v in big], dtype=_np.int64)
                         sums = _np.add.reduceat(vals_a * r[rows_a], starts)
                         nz = sums != 0
