@@ -443,3 +443,31 @@ def test_overlapping_solves_hand_the_process_settings_back_in_any_order():
     assert not gc.isenabled()  # the second is still running
     second.__exit__(None, None, None)
     assert gc.isenabled()
+
+
+@pytest.mark.parametrize("source", ["KNOWN", "SCSD6", "STAIR"])
+def test_integer_columns_made_beside_highs_serve_the_pivot_loop_as_its_own(source):
+    # Simplex._int_cols takes each column made ahead for the warm start's check
+    # (refine.IntegerColumns) instead of making it again: the same scale, rows and
+    # integers as its own, column by column
+    if source == "KNOWN":
+        models = [model_from_text(k[1]) for k in KNOWN if "constraints" in k[1]]
+    else:
+        if NETLIB is None:
+            pytest.skip("../shared/netlib is absent")
+        models = [read_mps(NETLIB / netlib_table()[source]["file"])]
+    for model in models:
+        form = build_form(model)
+        ahead = refine.IntegerColumns(form.cols)
+        ahead.fill_while(lambda: True)
+        own = Simplex(build_form(model))._int_cols()
+        sx = Simplex(form, integer_columns=ahead)
+        taken = sx._int_cols()
+        assert len(own) == len(taken) == len(sx.cols)
+        probe = list(range(1, sx.m + 1))
+        for j, ((e1, p1, v1), (e2, p2, v2)) in enumerate(zip(own, taken)):
+            assert e1 == e2 and (p1 is None) == (p2 is None), j
+            if p1 is None:
+                assert [(i, int(v)) for i, v in v1] == [(i, int(v)) for i, v in v2], j
+            else:
+                assert p1(probe) == p2(probe) and [int(v) for v in v1] == [int(v) for v in v2], j

@@ -821,7 +821,20 @@ class Simplex(DualPhase):
         ncol = len(self.cols)
         if self._int_cols_cache is None or self._int_cols_cache[0] != ncol:
             out = []
-            for col in self.cols:
+            # the columns as integers made beside HiGHS for the warm start's check
+            # (refine.IntegerColumns: the same e_j and integers, when not too long)
+            ahead = self.integer_columns.made if self.integer_columns is not None else ()
+            for j, col in enumerate(self.cols):
+                got = ahead[j] if j < len(ahead) else False
+                if got and (got[0] == 1 or got[0].bit_length() <= DUAL_INTS_SLACK + 2 * max(
+                        a.denominator.bit_length() for _, a in col)):
+                    e, ints = got
+                    if len(ints) >= 2:
+                        rows_of, values = zip(*ints)
+                        out.append((e, _itemgetter(*rows_of), values))
+                    else:
+                        out.append((e, None, ints))
+                    continue
                 e = ONE_Z
                 top = 0
                 for _, a in col:
@@ -835,9 +848,13 @@ class Simplex(DualPhase):
                     # hostile model's copy huge), so the column stays in fractions
                     out.append((None, None, [(i, a) for i, a in col if a]))
                     continue
-                ints = [(i, a.numerator * (e // a.denominator)) for i, a in col if a]
+                if e == 1:  # (most columns: whole entries, no division)
+                    ints = [(i, a.numerator) for i, a in col if a]
+                else:
+                    ints = [(i, a.numerator * (e // a.denominator)) for i, a in col if a]
                 if len(ints) >= 2:
-                    out.append((e, _itemgetter(*(i for i, _ in ints)), tuple(v for _, v in ints)))
+                    rows_of, values = zip(*ints)
+                    out.append((e, _itemgetter(*rows_of), values))
                 else:
                     out.append((e, None, ints))
             self._int_cols_cache = (ncol, out)
