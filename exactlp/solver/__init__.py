@@ -187,6 +187,10 @@ def _solve(model, pricing, iteration_limit, time_limit, listener, tableau, shoul
             sys.setswitchinterval(FILL_SWITCH_INTERVAL)
         try:
             integer_columns.fill_while(pending.running)
+            if pending.running():  # still time: what a check by refinement loads once a process
+                from .refine import _load_controller
+
+                _load_controller()
         finally:
             if lowered and sys.getswitchinterval() == FILL_SWITCH_INTERVAL:
                 sys.setswitchinterval(interval)

@@ -425,6 +425,20 @@ _blas_holders = 0  # solves holding BLAS to one thread now (the setting is the p
 _blas_limiter = None  # what the first of them set, to be undone by the last
 
 
+def _load_controller() -> None:
+    """threadpoolctl's view of the loaded BLAS, made once a process (its import
+    and the look at the libraries took 4.4 ms here: done while HiGHS runs, when
+    there is time, see ``solver.solve``); False when it cannot be had."""
+    global _controller
+    if _controller is None:
+        try:
+            from threadpoolctl import ThreadpoolController
+
+            _controller = ThreadpoolController()
+        except Exception:  # not installed, or it cannot read the loaded libraries
+            _controller = False
+
+
 def _one_blas_thread() -> bool:
     """Hold BLAS to one thread; True if held (then :func:`_release_blas` must
     follow), False when threadpoolctl is not installed or cannot set the loaded
@@ -433,16 +447,10 @@ def _one_blas_thread() -> bool:
     there before the first (two solves on two threads, overlapping, would
     otherwise leave one thread for good: the second would "restore" the
     first's limit).  A solve on another thread meanwhile is slower, not wrong."""
-    global _controller, _blas_holders, _blas_limiter
+    global _blas_holders, _blas_limiter
     with _blas_lock:
         if _blas_holders == 0:
-            if _controller is None:
-                try:
-                    from threadpoolctl import ThreadpoolController
-
-                    _controller = ThreadpoolController()
-                except Exception:  # not installed, or it cannot read the loaded libraries
-                    _controller = False
+            _load_controller()
             if _controller is False:
                 return False
             try:
