@@ -62,6 +62,11 @@ def run(model):
     if ours.status.value == "infeasible" and st == "optimal" and exact_violation(model, ref_x) > 0:
         count["ref_infeasible_point"] = count.get("ref_infeasible_point", 0) + 1
         return
+    if st.startswith("scipy-status-"):
+        # the reference gave no definite answer (status 4, numerical difficulties,
+        # seen on entries of 1e4 and 1e-4 together); ours is certified and verified
+        count["ref_no_answer"] = count.get("ref_no_answer", 0) + 1
+        return
     assert ours.status.value == st, (ours.status, st)
     if obj is not None:
         assert abs(float(ours.objective) - obj) <= 1e-6 * max(1, abs(obj)), (ours.objective, obj)
