@@ -311,9 +311,11 @@ class DualPhase:
         lower, upper = self.lower, self.upper
         if slope is None or not self._boxed:
             return self._dual_entering_plain(row, d, s, bland), []
+        found: list = []
+        self._dual_entering_plain(row, d, s, bland, collect=found)
         cands = []
         boxed = False  # any candidate with two finite bounds (that could be flipped)
-        for j, dj, a in self._dual_candidates(row, d, s):
+        for j, dj, a in found:
             t = dj / a
             cands.append((-t if t < 0 else t, -a, j))  # (ratio, -|a_j|, j): the order of choice
             if boxed is False and lower[j] is not None and upper[j] is not None:
@@ -344,30 +346,16 @@ class DualPhase:
             flips.extend(j for _, _, j in group)
         return -1, flips  # every candidate passed: the rate never falls to zero
 
-    def _dual_candidates(self, row: dict, d: list, s: int):
-        """The columns the dual ratio test may choose, as ``(j, d_j, |a_j|)``
-        (``a_j = s S alpha_pj``): at a lower bound with ``a_j > 0``, at an upper
-        bound with ``a_j < 0``, or free (resting at zero with ``d_j = 0``) with
-        ``a_j != 0``; fixed columns (``d_j`` None) never.  ``d_j`` has the sign
-        of ``a_j`` or is 0, so the ratio is ``|d_j| / |a_j|``."""
-        state = self.state
-        for j, v in row.items():
-            dj = d[j]
-            if dj is None or not v:
-                continue  # fixed (cannot move)
-            a = v if s > 0 else -v
-            st = state[j]
-            if st == AT_LOWER:
-                if a <= 0:
-                    continue
-            elif st == AT_UPPER:
-                if a >= 0:
-                    continue
-            yield j, dj, (-a if a < 0 else a)
-
-    def _dual_entering_plain(self, row: dict, d: list, s: int, bland: bool) -> int:
+    def _dual_entering_plain(self, row: dict, d: list, s: int, bland: bool, collect=None) -> int:
         """The smallest ratio ``d_j / a_j`` (ties as in :meth:`_dual_entering`; under
         Bland's choice to the lowest index), with nothing to flip; -1 if none.
+
+        The candidates are the columns the dual ratio test may choose (``a_j = s S
+        alpha_pj``): at a lower bound with ``a_j > 0``, at an upper bound with
+        ``a_j < 0``, or free (resting at zero with ``d_j = 0``) with ``a_j != 0``;
+        fixed columns (``d_j`` None) never.  ``d_j`` has the sign of ``a_j`` or is
+        0, so the ratio is ``|d_j| / |a_j|``.  With ``collect`` (a list), each
+        candidate is appended to it as ``(j, d_j, |a_j|)`` instead, and -1 returned.
 
         A positive ``n / d`` lies strictly between ``2^(bits n - bits d - 1)`` and
         ``2^(bits n - bits d + 1)``, so with ``e`` the difference of those bit
@@ -378,9 +366,8 @@ class DualPhase:
         """
         best, best_t, best_e, best_a = -1, None, 0, None
         state = self.state
-        # (the filter of _dual_candidates, in line: this loop meets every entry of
-        # the row, about 6,000 a pivot on D6CUBE, and the generator's yields were
-        # a sixth of its time)
+        # (the filter in line: this loop meets every entry of the row, about 6,000
+        # a pivot on D6CUBE, and a generator's yields were a sixth of its time)
         for j, v in row.items():
             dj = d[j]
             if dj is None or not v:
@@ -395,6 +382,9 @@ class DualPhase:
                     continue
             if a < 0:
                 a = -a
+            if collect is not None:
+                collect.append((j, dj, a))
+                continue
             if dj:
                 n = dj.numerator
                 e = (n.bit_length() - dj.denominator.bit_length()  # (bit_length ignores the sign)
