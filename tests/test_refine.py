@@ -196,9 +196,11 @@ def test_too_many_rows_or_long_entries_are_left_to_exact_factorisation(monkeypat
 
 
 def blas_threads() -> int:
-    from threadpoolctl import threadpool_info
-
-    return max((i["num_threads"] for i in threadpool_info() if i["user_api"] == "blas"), default=1)
+    """The thread count of the BLAS libraries the solver's limit acts on: those
+    loaded when it first looked (numpy's, which makes the inverse; a BLAS that
+    another library loads later, such as scipy's own copy, is not numpy's)."""
+    refine._load_controller()
+    return max((i["num_threads"] for i in refine._controller.info() if i["user_api"] == "blas"), default=1)
 
 
 def test_an_inverse_made_in_the_background_is_the_same_and_blas_gets_its_threads_back(monkeypatch):
