@@ -190,16 +190,20 @@ class _Parser:
                 coef = sign * self.number(tok)
                 star = False
                 while self.tok.kind == "op" and self.tok.text == "*":
-                    self.advance()
+                    at = self.advance().offset
                     star = True
+                    if self.tok.kind == "op" and self.tok.text == "*":
+                        raise self._power(at)
                     if self.tok.kind == "number":
                         coef *= self.number(self.advance())
                         star = False
                 if self.tok.kind == "name" and self.tok.text in FUNCTIONS and self._next_is_paren():
                     self.call(coef, self.advance(), calls, nested)
                 elif self.tok.kind == "name":
-                    name = self.advance().text
-                    terms[name] = terms.get(name, Fraction(0)) + coef
+                    name_tok = self.advance()
+                    if self.tok.kind == "op" and self.tok.text == "*":
+                        raise self._after_name(name_tok)
+                    terms[name_tok.text] = terms.get(name_tok.text, Fraction(0)) + coef
                 elif star:
                     raise self.expected("a variable name after '*'")
                 else:
@@ -209,11 +213,7 @@ class _Parser:
             elif tok.kind == "name":
                 self.advance()
                 if self.tok.kind == "op" and self.tok.text == "*":
-                    raise _error(
-                        f"write the number before the name: '<number> {tok.text}', "
-                        f"not '{tok.text} * <number>'",
-                        self.tok.offset,
-                    )
+                    raise self._after_name(tok)
                 terms[tok.text] = terms.get(tok.text, Fraction(0)) + sign
             else:
                 if first and not saw_sign and tok.kind == "end":
@@ -225,6 +225,38 @@ class _Parser:
         # drop terms that cancelled; keep first-appearance order
         kept = tuple((k, v) for k, v in terms.items() if v != 0)
         return Linear(kept, constant, tuple(c for c in calls if c.coefficient != 0))
+
+    def _after_name(self, name_tok: Token) -> ExpressionError:
+        """The error for ``name *`` (``self.tok`` is the ``*``): a linear term is
+        a number times one variable, with the number written first."""
+        star = self.tok
+        nxt = self.tokens[self.i + 1]
+        if nxt.kind == "op" and nxt.text == "*":
+            return self._power(star.offset)
+        if nxt.kind == "name" and nxt.text in FUNCTIONS and self.tokens[self.i + 2].text == "(":
+            return _error(
+                f"'{name_tok.text} * {nxt.text}(...)' multiplies a variable by an expression; "
+                f"a linear expression allows only a number times a variable",
+                star.offset,
+            )
+        if nxt.kind == "name":
+            return _error(
+                f"'{name_tok.text} * {nxt.text}' multiplies two variables; a linear "
+                f"expression allows only a number times a variable",
+                star.offset,
+            )
+        if nxt.kind == "number" or (nxt.kind == "op" and nxt.text in ("+", "-")):
+            return _error(
+                f"write the number before the name: '<number> {name_tok.text}', "
+                f"not '{name_tok.text} * <number>'",
+                star.offset,
+            )
+        self.advance()
+        return self.expected("a number after '*'")
+
+    @staticmethod
+    def _power(offset: int) -> ExpressionError:
+        return _error("'**' raises to a power, which is not linear", offset)
 
     def _next_is_paren(self) -> bool:
         nxt = self.tokens[self.i + 1]
