@@ -121,6 +121,10 @@ def parse_bound(text: str, limits: Limits = DEFAULT_LIMITS) -> Fraction | None |
         return "+inf"
     if s in _NEG_INF_WORDS:
         return "-inf"
+    if s.lstrip("+-") == ".inf":  # YAML's spelling of infinity
+        raise NumberError(f"'{text.strip()}' is not a number (did you mean '{s.replace('.', '')}'?)")
+    if s in ("", "~", "null"):
+        raise NumberError(f"'{text.strip()}' is not a number (leave the key out for no bound)")
     return parse_number(text, limits)
 
 

@@ -65,6 +65,15 @@ def test_bounds_accept_infinity():
     assert parse_bound("inf") == "+inf"
     assert parse_bound("-inf") == "-inf"
     assert parse_bound("12.5") == Fraction(25, 2)
+    for text, message in [
+        (".inf", "'.inf' is not a number (did you mean 'inf'?)"),
+        ("-.Inf", "'-.Inf' is not a number (did you mean '-inf'?)"),
+        ("null", "'null' is not a number (leave the key out for no bound)"),
+        ("", "'' is not a number (leave the key out for no bound)"),
+    ]:
+        with pytest.raises(NumberError) as exc:
+            parse_bound(text)
+        assert str(exc.value) == message
 
 
 def test_to_fraction_refuses_floats_and_says_how():
