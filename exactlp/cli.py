@@ -144,6 +144,7 @@ def import_(
         from .io import dump_yaml_model, model_from_text, read_mps
         from .io.atomic import write_atomic
 
+        _check_output(output, None)  # (the source itself is refused by write_atomic)
         m = read_mps(source)
         text = dump_yaml_model(m)
         again = model_from_text(text, output)
@@ -212,14 +213,27 @@ def solve(
             raise InputError(f"must be yaml or json, not '{cert_format}'", field="--certificate-format")
         m = _load(model)
         for out in (certificate, log):
-            if out is not None and same_file(out, model):
-                raise OutputError(f"{out}: refusing to write over the model file")
-            if out is not None and not os.path.isdir(os.path.dirname(os.path.abspath(out))):
-                raise OutputError(f"{out}: the folder does not exist")
+            _check_output(out, model)
         if certificate is not None and log is not None and same_file(certificate, log):
             raise OutputError(f"{log}: the certificate and the log cannot be the same file")
         _solve_command(m, model, certificate, log, pricing, iteration_limit, time_limit, tableau,
                        as_json, cert_format, digits, timestamps, warm_start)
+
+
+def _check_output(out: str | None, source: str | None) -> None:
+    """Refuse an output path before any work is done: the input file itself,
+    a folder that does not exist, or a folder in place of a file."""
+    from .errors import OutputError
+    from .io.atomic import same_file
+
+    if out is None:
+        return
+    if source is not None and same_file(out, source):
+        raise OutputError(f"{out}: refusing to write over the model file")
+    if not os.path.isdir(os.path.dirname(os.path.abspath(out))):
+        raise OutputError(f"{out}: the folder does not exist")
+    if os.path.isdir(out):
+        raise OutputError(f"{out}: is a folder; give a file name")
 
 
 def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, time_limit, tableau,
@@ -421,6 +435,7 @@ def sensitivity(
         from .analysis import sensitivity as run_sensitivity
         from .numbers import format_number
 
+        _check_output(output, model)
         m = _load(model)
         s = run_sensitivity(m)
         if output is not None:
@@ -458,6 +473,7 @@ def ranges_(
         from .analysis import ranges as run_ranges
         from .numbers import format_number
 
+        _check_output(output, model)
         m = _load(model)
         rg = run_ranges(m, variables or None)
         if output is not None:
@@ -496,6 +512,7 @@ def conflict(
         from .analysis import conflict as run_conflict
         from .numbers import format_number
 
+        _check_output(output, model)
         m = _load(model)
         c = run_conflict(m)
         if output is not None:

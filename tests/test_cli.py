@@ -253,3 +253,26 @@ def test_help_and_check_import_nothing_heavy(tmp_path):
 
     assert loaded("--help") == "LOADED []"
     assert loaded("check", str(CASES / "drought.yaml")) == "LOADED ['exactlp.io', 'yaml']"
+
+
+@pytest.mark.parametrize("args", [
+    ("solve", DROUGHT, "-c", "{dir}"),
+    ("solve", DROUGHT, "-l", "{dir}"),
+    ("sensitivity", DROUGHT, "-o", "{dir}"),
+    ("ranges", DROUGHT, "-o", "{dir}"),
+])
+def test_a_folder_as_output_is_refused_before_any_work(cli, tmp_path, args):
+    folder = tmp_path / "out"
+    folder.mkdir()
+    code, out, err = cli(*[str(a).replace("{dir}", str(folder)) for a in args])
+    assert (code, out) == (2, "")
+    assert err == f"exactlp: {folder}: is a folder; give a file name\n"
+    assert list(folder.iterdir()) == [] and sorted(p.name for p in tmp_path.iterdir()) == ["out"]
+
+
+def test_import_to_a_folder_is_refused(cli, tmp_path):
+    folder = tmp_path / "out"
+    folder.mkdir()
+    code, _, err = cli("import", CASES / "depot.mps", "-o", folder)
+    assert code == 2 and err == f"exactlp: {folder}: is a folder; give a file name\n"
+    assert list(folder.iterdir()) == []

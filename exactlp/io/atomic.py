@@ -28,6 +28,8 @@ def write_atomic(path: str | os.PathLike, text: str, *, protect: tuple = ()) -> 
     folder = os.path.dirname(os.path.abspath(p))
     if not os.path.isdir(folder):
         raise OutputError(f"{p}: the folder {folder} does not exist")
+    if os.path.isdir(p):
+        raise OutputError(f"{p}: is a folder; give a file name")
     fd, tmp = tempfile.mkstemp(prefix="." + os.path.basename(p) + ".", suffix=".tmp", dir=folder)
     try:
         with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
