@@ -20,13 +20,49 @@ import sys
 from typing import Optional
 
 import typer
+import typer.core
 
 from . import __version__
 
 EXIT_OK, EXIT_INVALID, EXIT_INPUT, EXIT_LIMIT, EXIT_INTERNAL = 0, 1, 2, 3, 4
 
+class _OneLineErrors(typer.core.TyperGroup):
+    """Usage errors (a missing argument, an unknown option, a bad option value)
+    as one line on stderr, exit status 2, like every other bad input."""
+
+    def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
+        if not standalone_mode:
+            return super().main(args, prog_name, complete_var, standalone_mode, **extra)
+        # (click's base exception, whether typer vendors click or depends on it)
+        click_exception = next(c for c in typer.BadParameter.__mro__ if c.__name__ == "ClickException")
+        try:
+            code = super().main(args, prog_name, complete_var, False, **extra)
+        except click_exception as e:
+            if type(e).__name__ == "NoArgsIsHelpError":  # a bare `exactlp`: its help, as before
+                return super().main(args, prog_name, complete_var, True, **extra)
+            sys.stderr.write(_usage_line(e) + "\n")
+            sys.exit(e.exit_code)
+        except typer.Abort:
+            sys.stderr.write("exactlp: aborted\n")
+            sys.exit(1)
+        sys.exit(code if isinstance(code, int) else 0)
+
+
+def _usage_line(e) -> str:
+    """``exactlp: solve: Missing argument 'model'. (exactlp solve -h for help)``"""
+    ctx = getattr(e, "ctx", None)
+    text = " ".join(e.format_message().split())
+    where = ""
+    helper = "exactlp -h"
+    if ctx is not None and ctx.command_path and ctx.command_path != ctx.find_root().info_name:
+        where = ctx.command_path.split(" ", 1)[-1] + ": "
+        helper = f"{ctx.command_path} -h"
+    return f"exactlp: {where}{text} (see '{helper}')"
+
+
 app = typer.Typer(
     name="exactlp",
+    cls=_OneLineErrors,
     help="Exact linear programming with proofs: solve a model in rational arithmetic, "
     "write an audit log and a certificate, and let anyone re-check it.",
     no_args_is_help=True,

@@ -276,3 +276,22 @@ def test_import_to_a_folder_is_refused(cli, tmp_path):
     code, _, err = cli("import", CASES / "depot.mps", "-o", folder)
     assert code == 2 and err == f"exactlp: {folder}: is a folder; give a file name\n"
     assert list(folder.iterdir()) == []
+
+
+@pytest.mark.parametrize("args, where, names", [
+    (("solve",), "solve: ", "model"),
+    (("solve", DROUGHT, "--digits", "abc"), "solve: ", "--digits"),
+    (("solve", DROUGHT, "--time-limit", "-1"), "solve: ", "--time-limit"),
+    (("solve", DROUGHT, "--no-such-option"), "solve: ", "--no-such-option"),
+    (("verify", DROUGHT), "verify: ", "cert"),
+    (("sovle", DROUGHT), "", "sovle"),
+])
+def test_usage_errors_are_one_line(cli, args, where, names):
+    # (the middle of the line is the command-line library's own wording, which its
+    # versions change; exactlp's frame around it is pinned)
+    code, out, err = cli(*args)
+    assert (code, out) == (2, "")
+    assert err.count("\n") == 1 and err.endswith("\n")
+    helper = f"exactlp {args[0]} -h" if where else "exactlp -h"
+    assert err.startswith(f"exactlp: {where}") and err.endswith(f" (see '{helper}')\n")
+    assert names in err.lower()
