@@ -14,11 +14,27 @@ from .errors import ExactLPError, InputError, ModelError  # noqa: E402
 # first use, like the solver: ``exactlp --help`` needs none of them (about 80 ms).
 
 
+def _need_model(model) -> None:
+    """Refuse anything but a :class:`exactlp.Model` with one line that says how to get one."""
+    from .model import Model
+
+    if isinstance(model, Model):
+        return
+    import os
+
+    if isinstance(model, (str, os.PathLike)):
+        raise InputError(f"got the path {os.fspath(model)!r}, not a Model: load it first, "
+                         f"exactlp.load({os.fspath(model)!r})", field="model")
+    raise InputError(f"must be a Model (from exactlp.load or exactlp.build_model), "
+                     f"not {type(model).__name__}", field="model")
+
+
 def solve(model, **options):
     """Solve ``model`` exactly; see :func:`exactlp.solver.solve`.
 
     A model with priority tiers is solved tier by tier with :func:`solve_stages`.
     """
+    _need_model(model)
     if getattr(model, "stages", ()):
         raise InputError("this model has priority tiers (objectives:): solve it with exactlp.solve_stages(model)",
                          field="objectives")
@@ -29,6 +45,7 @@ def solve(model, **options):
 
 def solve_stages(model, **options):
     """Solve a model with priority tiers; see :func:`exactlp.stages.solve_stages`."""
+    _need_model(model)
     from .stages import solve_stages as _solve_stages
 
     return _solve_stages(model, **options)
@@ -36,6 +53,7 @@ def solve_stages(model, **options):
 
 def verify(model, certificate):
     """Check ``certificate`` against ``model``; see :func:`exactlp.verifier.verify`."""
+    _need_model(model)
     from .verifier import verify as _verify
 
     return _verify(model, certificate)

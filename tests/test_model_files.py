@@ -263,6 +263,20 @@ def test_build_model_refuses_floats():
     )
 
 
+@pytest.mark.parametrize("call", [exactlp.solve, exactlp.solve_stages, lambda m: exactlp.verify(m, {})])
+def test_the_api_wants_a_model_and_says_how_to_get_one(call):
+    from pathlib import Path
+
+    for given_path in ("cases/drought.yaml", Path("cases/drought.yaml")):
+        with pytest.raises(InputError) as exc:
+            call(given_path)
+        assert str(exc.value) == ("model: got the path 'cases/drought.yaml', not a Model: "
+                                  "load it first, exactlp.load('cases/drought.yaml')")
+    with pytest.raises(InputError) as exc:
+        call({"x": 1})
+    assert str(exc.value) == "model: must be a Model (from exactlp.load or exactlp.build_model), not dict"
+
+
 def test_model_is_immutable():
     import dataclasses
 
