@@ -1,9 +1,11 @@
 """The safe expression and formula parser (issue 2)."""
 
 from fractions import Fraction as F
+import os
+import re
 
 import pytest
-from hypothesis import given, strategies as st
+from hypothesis import given, settings, strategies as st
 
 from exactlp.errors import InputError
 from exactlp.expr import parse_comparison, parse_expression
@@ -134,3 +136,25 @@ def test_any_formula_text_gives_a_result_or_our_error(text):
         parse_comparison(text)
     except InputError:
         pass
+
+
+# The README's grammar of an expression, over symbols: N a number, V a name.
+# A term is [sign ...] followed by a number times numbers, optionally times a
+# name (with or without '*'), or a name alone; terms are joined by signs.
+_CORE = r"(N(\*N)*(\*?V)?|V)"
+_GRAMMAR = re.compile(rf"[+-]*{_CORE}([+-]+{_CORE})*")
+
+
+@settings(max_examples=int(os.environ.get("EXACTLP_FUZZ_EXAMPLES", "300")))
+@given(st.lists(st.sampled_from(["N", "V", "*", "+", "-"]), min_size=1, max_size=9))
+def test_the_parser_accepts_exactly_the_documented_grammar(symbols):
+    # (a reference written from the README, not from the parser: "3 * * x" was
+    # once read as 3 x)
+    text = " ".join({"N": "3", "V": "x"}.get(s, s) for s in symbols)
+    expected = _GRAMMAR.fullmatch("".join(symbols)) is not None
+    try:
+        parse_expression(text)
+        accepted = True
+    except InputError:
+        accepted = False
+    assert accepted == expected, text
