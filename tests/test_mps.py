@@ -117,6 +117,17 @@ def test_fixed_mps_with_blanks_in_names_and_objsense():
          "<text>:14:1: COLUMNS: column 'X2' names row 'NOROW', which ROWS does not declare"),
         (SMALL.replace("ENDATA\n", ""), "<text>: MPS: the file ends without ENDATA (truncated?)"),
         (SMALL.replace(" L  LIM1", " Q  LIM1"), "<text>:5:1: ROWS: unknown row type 'Q' (expected N, L, G or E)"),
+        # an entry given twice: readers differ (sum, last, error), so the file says no one model
+        (SMALL.replace("    X2        MYEQN       -1.0", "    X2        MYEQN       -1.0   LIM1         3"),
+         "<text>:14:1: COLUMNS: column 'X2' gives row 'LIM1' a second value"),
+        (SMALL.replace("    X4        COST         0.1", "    X1        COST         0.1"),
+         "<text>:17:1: COLUMNS: column 'X1' gives the objective row 'COST' a second value"),
+        (SMALL.replace("    RHS       MYEQN        7.0", "    RHS       LIM1         7.0"),
+         "<text>:21:1: RHS: RHS gives row 'LIM1' a second value"),
+        (SMALL.replace("    RHS       LIM1         4.0", "    RHS       COST         4.0"),
+         "<text>:20:1: RHS: RHS gives the objective row 'COST' a second value"),
+        (SMALL.replace("    RNG       MYEQN        2 ", "    RNG       LIM1         2 "),
+         "<text>:24:1: RANGES: RANGES gives row 'LIM1' a second value"),
     ],
 )
 def test_mps_errors(text, message):

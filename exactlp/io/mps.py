@@ -90,6 +90,7 @@ def _parse(text: str, path: str, limits: Limits, fixed: bool) -> Model:
     upper: dict[str, Fraction | None] = {}
     lower_set: set[str] = set()
     constant = Fraction(0)
+    obj_rhs_seen = False
     rhs_set = range_set = bound_set = None
     nonzeros = 0
     ended = False
@@ -173,17 +174,22 @@ def _parse(text: str, path: str, limits: Limits, fixed: bool) -> Model:
                     raise err(f"more than the limit of {limits.max_variables} columns", lineno, exc=LimitError)
             for k in range(1, len(fields), 2):
                 r, v = fields[k], num(fields[k + 1], lineno, line)
+                # an entry given twice is an error, not summed or overwritten: the
+                # file would not say one model (readers differ on such files)
                 if r == obj_row:
-                    objective[c] = objective.get(c, Fraction(0)) + v
+                    if c in objective:
+                        raise err(f"column '{c}' gives the objective row '{r}' a second value", lineno)
+                    objective[c] = v
                 elif r in dropped:
                     continue
                 elif r in entries:
                     row = entries[r]
-                    if c not in row:
-                        nonzeros += 1
-                        if nonzeros > limits.max_nonzeros:
-                            raise err(f"more than the limit of {limits.max_nonzeros} nonzeros", lineno, exc=LimitError)
-                    row[c] = row.get(c, Fraction(0)) + v
+                    if c in row:
+                        raise err(f"column '{c}' gives row '{r}' a second value", lineno)
+                    nonzeros += 1
+                    if nonzeros > limits.max_nonzeros:
+                        raise err(f"more than the limit of {limits.max_nonzeros} nonzeros", lineno, exc=LimitError)
+                    row[c] = v
                 else:
                     raise err(f"column '{c}' names row '{r}', which ROWS does not declare", lineno)
         elif section in ("RHS", "RANGES"):
@@ -209,15 +215,22 @@ def _parse(text: str, path: str, limits: Limits, fixed: bool) -> Model:
                 r, v = pairs[k], num(pairs[k + 1], lineno, line)
                 if section == "RHS":
                     if r == obj_row:
+                        if obj_rhs_seen:
+                            raise err(f"RHS gives the objective row '{r}' a second value", lineno)
+                        obj_rhs_seen = True
                         constant = -v
                     elif r in dropped:
                         continue
                     elif r in row_type:
+                        if r in rhs:
+                            raise err(f"RHS gives row '{r}' a second value", lineno)
                         rhs[r] = v
                     else:
                         raise err(f"RHS names row '{r}', which ROWS does not declare", lineno)
                 else:
                     if r in row_type:
+                        if r in ranges:
+                            raise err(f"RANGES gives row '{r}' a second value", lineno)
                         ranges[r] = v
                     elif r == obj_row or r in dropped:
                         raise err(f"RANGES cannot apply to the free row '{r}'", lineno)
