@@ -106,6 +106,8 @@ ERRORS = [
      "5:18: constraints.c.terms.x: 'inf' is not allowed here: infinity is only allowed as a bound"),
     ("maximize: x\nvariables:\n  x: {}\nconstraints:\n  c: 1/0 x <= 3\n",
      "5:6: constraints.c: '1/0' divides by zero"),
+    ("maximize: x\nvariables:\n  x: {}\nconstraints:\n  c: x <= inf\n",
+     "5:11: constraints.c: 'inf' cannot stand in a formula: leave out the side with no limit"),
     ("maximize: x\nvariables:\n  x: {upper: .inf}\n",
      "3:14: variables.x.upper: '.inf' is not a number (did you mean 'inf'?)"),
     ("maximize: x\nvariables:\n  x: {lower: -.inf}\n",

@@ -297,7 +297,10 @@ class _Reader:
     ) -> tuple[tuple[str, Fraction], ...]:
         for name, _ in lin_terms:
             if name not in order:
-                err = ModelError(f"undeclared variable '{name}'{did_you_mean(name, order)}")
+                if name.lower() in ("inf", "infinity"):  # 'x <= inf': a side with no limit
+                    err = ModelError(f"'{name}' cannot stand in a formula: leave out the side with no limit")
+                else:
+                    err = ModelError(f"undeclared variable '{name}'{did_you_mean(name, order)}")
                 m = re.search(r"(?<![A-Za-z0-9_.])" + re.escape(name) + r"(?![A-Za-z0-9_.])", text)
                 err.offset = m.start() if m else 0  # type: ignore[attr-defined]
                 raise self.relocate(err, node, field)
