@@ -117,23 +117,32 @@ def test_fixed_mps_with_blanks_in_names_and_objsense():
          "<text>:14:1: COLUMNS: column 'X2' names row 'NOROW', which ROWS does not declare"),
         (SMALL.replace("ENDATA\n", ""), "<text>: MPS: the file ends without ENDATA (truncated?)"),
         (SMALL.replace(" L  LIM1", " Q  LIM1"), "<text>:5:1: ROWS: unknown row type 'Q' (expected N, L, G or E)"),
-        # an entry given twice: readers differ (sum, last, error), so the file says no one model
-        (SMALL.replace("    X2        MYEQN       -1.0", "    X2        MYEQN       -1.0   LIM1         3"),
-         "<text>:14:1: COLUMNS: column 'X2' gives row 'LIM1' a second value"),
-        (SMALL.replace("    X4        COST         0.1", "    X1        COST         0.1"),
-         "<text>:17:1: COLUMNS: column 'X1' gives the objective row 'COST' a second value"),
-        (SMALL.replace("    RHS       MYEQN        7.0", "    RHS       LIM1         7.0"),
-         "<text>:21:1: RHS: RHS gives row 'LIM1' a second value"),
-        (SMALL.replace("    RHS       LIM1         4.0", "    RHS       COST         4.0"),
-         "<text>:20:1: RHS: RHS gives the objective row 'COST' a second value"),
-        (SMALL.replace("    RNG       MYEQN        2 ", "    RNG       LIM1         2 "),
-         "<text>:24:1: RANGES: RANGES gives row 'LIM1' a second value"),
     ],
 )
 def test_mps_errors(text, message):
     with pytest.raises(InputError) as exc:
         mps_from_text(text)
     assert str(exc.value) == message
+
+
+# An entry given twice: readers differ (some add, some keep the last), so such a
+# file does not say one model. Each row: the line of SMALL changed, what it
+# becomes, and the error.
+GIVEN_TWICE = [
+    ("    X2        MYEQN       -1.0", "    X2        MYEQN       -1.0   LIM1         3", "14:1: COLUMNS: column 'X2' gives row 'LIM1' a second value"),
+    ("    X4        COST         0.1", "    X1        COST         0.1", "17:1: COLUMNS: column 'X1' gives the objective row 'COST' a second value"),
+    ("    RHS       MYEQN        7.0", "    RHS       LIM1         7.0", "21:1: RHS: RHS gives row 'LIM1' a second value"),
+    ("    RHS       LIM1         4.0", "    RHS       COST         4.0", "20:1: RHS: RHS gives the objective row 'COST' a second value"),
+    ("    RNG       MYEQN        2 ", "    RNG       LIM1         2 ", "24:1: RANGES: RANGES gives row 'LIM1' a second value"),
+]
+
+
+@pytest.mark.parametrize("line, becomes, message", GIVEN_TWICE)
+def test_an_entry_given_twice_is_an_error(line, becomes, message):
+    assert SMALL.count(line) == 1
+    with pytest.raises(InputError) as exc:
+        mps_from_text(SMALL.replace(line, becomes))
+    assert str(exc.value) == "<text>:" + message
 
 
 def test_import_then_load_gives_the_same_fingerprint(cli, write, tmp_path):
