@@ -132,6 +132,26 @@ def _load(path: str):
     return load(path)
 
 
+def _load_model_not_certificate(path: str):
+    """Load a model; if the file is a certificate or report instead (the two
+    arguments swapped), say so rather than list its unknown keys."""
+    from .errors import InputError
+
+    try:
+        return _load(path)
+    except InputError as first:
+        try:
+            from .certificate import read_certificate
+
+            doc = read_certificate(path)
+        except Exception:
+            raise first from None
+        if isinstance(doc, dict) and ("format" in doc or "report" in doc):
+            raise InputError("this is a certificate or report, not a model: the model comes first, "
+                             "exactlp verify MODEL CERTIFICATE", file=path) from None
+        raise
+
+
 # ----------------------------------------------------------------------
 @app.command()
 def check(
@@ -396,10 +416,14 @@ def verify(
     """
     with _Run(debug):
         from .certificate import read_certificate
+        from .errors import InputError
         from .verifier import verify as run_verify
 
-        m = _load(model)
+        m = _load_model_not_certificate(model)
         cert = read_certificate(certificate)
+        if "format" not in cert and "report" not in cert and "variables" in cert:
+            raise InputError(f"this is a model file, not a certificate: exactlp verify MODEL CERTIFICATE",
+                             file=certificate)
         if "report" in cert:
             from .report_check import check_report
 

@@ -295,3 +295,15 @@ def test_usage_errors_are_one_line(cli, args, where, names):
     helper = f"exactlp {args[0]} -h" if where else "exactlp -h"
     assert err.startswith(f"exactlp: {where}") and err.endswith(f" (see '{helper}')\n")
     assert names in err.lower()
+
+
+def test_verify_with_its_arguments_swapped_or_doubled_says_so(cli, tmp_path):
+    cert = tmp_path / "c.yaml"
+    assert cli("solve", DROUGHT, "-c", cert)[0] == 0
+    code, out, err = cli("verify", cert, DROUGHT)
+    assert (code, out) == (2, "")
+    assert err == (f"exactlp: {cert}: this is a certificate or report, not a model: "
+                   "the model comes first, exactlp verify MODEL CERTIFICATE\n")
+    code, out, err = cli("verify", DROUGHT, DROUGHT)
+    assert (code, out) == (2, "")
+    assert err == f"exactlp: {DROUGHT}: this is a model file, not a certificate: exactlp verify MODEL CERTIFICATE\n"
