@@ -280,12 +280,6 @@ def verify_report(console: Console, verification, model_path: str, cert_path: st
 def trace_report(console: Console, records: list[dict], pivot: int | None) -> None:
     header = records[0]
     model = header.get("model", {})
-    kv(console, [
-        ("log", f"{header.get('tool', '?')}, {header.get('format', '?')}"),
-        ("model", f"{model.get('name') or '(unnamed)'}  {model.get('fingerprint', '')}"),
-        ("settings", ", ".join(f"{k}={v if isinstance(v, str) else json.dumps(v)}"
-                               for k, v in sorted((header.get("settings") or {}).items()))),
-    ])
     tier = None
     steps = []
     for r in records:  # a priority model's log marks where each tier begins
@@ -294,6 +288,17 @@ def trace_report(console: Console, records: list[dict], pivot: int | None) -> No
         elif r.get("record") in ("pivot", "flip"):
             steps.append(dict(r, tier=tier) if tier is not None else r)
     tiered = tier is not None
+    match = [r for r in steps if r.get("iteration") == pivot]
+    if pivot is not None and not match:  # (before anything is printed)
+        from .errors import InputError
+
+        raise InputError(f"the log has no pivot {pivot} (it has {len(steps)})", field="--pivot")
+    kv(console, [
+        ("log", f"{header.get('tool', '?')}, {header.get('format', '?')}"),
+        ("model", f"{model.get('name') or '(unnamed)'}  {model.get('fingerprint', '')}"),
+        ("settings", ", ".join(f"{k}={v if isinstance(v, str) else json.dumps(v)}"
+                               for k, v in sorted((header.get("settings") or {}).items()))),
+    ])
     close = next((r for r in records if r.get("record") == "close"), None)
     if pivot is None:
         t = Table(title="Pivots", box=BOX, title_justify="left")
@@ -311,11 +316,6 @@ def trace_report(console: Console, records: list[dict], pivot: int | None) -> No
             add_row(t, *(([r.get("tier") or ""] if tiered else []) + cells))
         console.print(t)
     else:
-        match = [r for r in steps if r.get("iteration") == pivot]
-        if not match:
-            from .errors import InputError
-
-            raise InputError(f"the log has no pivot {pivot} (it has {len(steps)})", field="--pivot")
         r = match[0]
         def shown(k, v) -> str:
             if k == "flipped":

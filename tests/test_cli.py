@@ -173,7 +173,7 @@ def test_trace_table_and_one_pivot(cli, tmp_path):
     assert code == 0
     assert "Pivot 2" in out and "Tableau before the pivot" in out
     code, out, err = cli("trace", log, "--pivot", "9")
-    assert (code, err) == (2, "exactlp: --pivot: the log has no pivot 9 (it has 3)\n")
+    assert (code, out, err) == (2, "", "exactlp: --pivot: the log has no pivot 9 (it has 3)\n")
 
 
 def test_trace_shows_a_dual_pivots_bound_flips(cli, write, tmp_path):
