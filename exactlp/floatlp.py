@@ -15,6 +15,7 @@ import contextlib
 import os
 import sys
 from dataclasses import dataclass
+from fractions import Fraction
 
 from .model import Model, Sense
 
@@ -51,8 +52,16 @@ class BasisHint:
         return cls(basic, frozenset(result.at_upper_columns), source, "exact")
 
 
+# Fraction's two slots, read directly where they are exactly these (as
+# ``solver.form`` does): ``a._numerator`` costs a sixth of the ``numerator``
+# property's call, and the float copy is made before HiGHS can start
+_SLOTS = getattr(Fraction, "__slots__", None) == ("_numerator", "_denominator")
+
+
 def _f(x) -> float:
     """A Fraction rounded to the nearest double (int / int is correctly rounded)."""
+    if _SLOTS and type(x) is Fraction:
+        return x._numerator / x._denominator
     return x.numerator / x.denominator
 
 
@@ -82,9 +91,14 @@ def _arrays(model: Model, rowwise: bool = False):
         # even where a few values repeat thousands of times (STAIR 1.05 -> 0.61 ms,
         # SHIP04L 1.59 -> 1.14, SCSD8 2.14 -> 1.52; the same doubles)
         for c in model.constraints:
-            for name, a in c.terms:
-                idx.append(index[name])
-                val.append(a.numerator / a.denominator)
+            terms = c.terms
+            try:  # (a Model made by hand may hold other exact numbers: then the properties)
+                val.extend([a._numerator / a._denominator for _, a in terms] if _SLOTS else ())
+            except AttributeError:
+                del val[len(idx):]
+            if len(val) == len(idx):
+                val.extend([a.numerator / a.denominator for _, a in terms])
+            idx.extend([index[name] for name, _ in terms])
             start.append(len(idx))
     else:
         cols: list[list[tuple[int, float]]] = [[] for _ in range(n)]

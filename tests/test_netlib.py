@@ -259,6 +259,35 @@ def test_float_copy_handed_to_highs_is_the_model():
 
 
 @pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
+def test_float_copy_reads_fractions_and_other_exact_numbers_alike():
+    # The float copy reads a Fraction's slots directly (the fast path) and any other
+    # exact number (a Model made by hand, here with gmpy2's mpq) by its properties:
+    # the same correctly rounded doubles either way (int / int rounds correctly).
+    import numpy as np
+    from gmpy2 import mpq
+
+    from exactlp.floatlp import _arrays
+    from exactlp.model import Constraint, Model, Sense, Variable
+
+    F = Fraction
+    values = [F(1, 3), F(-2, 7), F(10**30 + 1, 3), F(5), F(1, 10**20)]
+
+    def model(conv):
+        return Model(
+            variables=(Variable("x", conv(F(0)), conv(F(1, 3))), Variable("y", None, conv(F(7, 2)))),
+            objective=(("x", conv(F(1))),), sense=Sense.MINIMIZE,
+            constraints=tuple(Constraint(f"r{k}", (("x", conv(v)), ("y", conv(-v))), conv(F(-1)), None)
+                              for k, v in enumerate(values)))
+
+    ours = _arrays(model(lambda v: v), rowwise=True)
+    other = _arrays(model(lambda v: mpq(v.numerator, v.denominator)), rowwise=True)
+    for a, b in zip(ours, other):
+        assert np.array_equal(a, b) if hasattr(a, "shape") else a == b
+    assert list(ours[-1]) == [x for v in values for x in (float(v), float(-v))]
+    assert list(ours[5]) == [1 / 3, 3.5]
+
+
+@pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
 def test_no_float_suggestion_is_said_not_silent(monkeypatch):
     # When the warm start is asked for but no suggestion comes, the result and the
     # log say why (it used to read "off"), and the exact solve goes on from the
