@@ -12,6 +12,7 @@ scipy are imported only when these functions run.
 from __future__ import annotations
 
 import contextlib
+import itertools
 import os
 import sys
 from dataclasses import dataclass
@@ -65,6 +66,16 @@ def _f(x) -> float:
     return x.numerator / x.denominator
 
 
+def _doubles(xs: list, none: float) -> list[float]:
+    """Each of ``xs`` (exact numbers, or None for ``none``) as the nearest double."""
+    if _SLOTS:
+        try:
+            return [none if x is None else x._numerator / x._denominator for x in xs]
+        except AttributeError:  # (other exact numbers than Fractions: their properties)
+            pass
+    return [none if x is None else x.numerator / x.denominator for x in xs]
+
+
 def _arrays(model: Model, rowwise: bool = False):
     """The model in doubles: sizes, sense sign, costs (minimising), bounds, and the matrix.
 
@@ -80,26 +91,27 @@ def _arrays(model: Model, rowwise: bool = False):
     for name, c in model.objective:
         cost[index[name]] = sign * _f(c)
     inf = float("inf")  # an absent bound in the float copy, which only ever suggests a basis
-    lo = np.array([-inf if v.lower is None else _f(v.lower) for v in model.variables])
-    hi = np.array([inf if v.upper is None else _f(v.upper) for v in model.variables])
-    rlo = np.array([-inf if c.lower is None else _f(c.lower) for c in model.constraints])
-    rhi = np.array([inf if c.upper is None else _f(c.upper) for c in model.constraints])
+    lo = np.array(_doubles([v.lower for v in model.variables], -inf))
+    hi = np.array(_doubles([v.upper for v in model.variables], inf))
+    rlo = np.array(_doubles([c.lower for c in model.constraints], -inf))
+    rhi = np.array(_doubles([c.upper for c in model.constraints], inf))
     start, idx, val = [0], [], []
     if rowwise:
         # every value divided where it stands (int / int, correctly rounded): a
         # dictionary of the distinct values cost more than the divisions it saved,
         # even where a few values repeat thousands of times (STAIR 1.05 -> 0.61 ms,
         # SHIP04L 1.59 -> 1.14, SCSD8 2.14 -> 1.52; the same doubles)
-        for c in model.constraints:
-            terms = c.terms
+        rows = [c.terms for c in model.constraints]
+        val = None
+        if _SLOTS:
             try:  # (a Model made by hand may hold other exact numbers: then the properties)
-                val.extend([a._numerator / a._denominator for _, a in terms] if _SLOTS else ())
+                val = [a._numerator / a._denominator for terms in rows for _, a in terms]
             except AttributeError:
-                del val[len(idx):]
-            if len(val) == len(idx):
-                val.extend([a.numerator / a.denominator for _, a in terms])
-            idx.extend([index[name] for name, _ in terms])
-            start.append(len(idx))
+                pass
+        if val is None:
+            val = [a.numerator / a.denominator for terms in rows for _, a in terms]
+        idx = [index[name] for terms in rows for name, _ in terms]
+        start.extend(itertools.accumulate(map(len, rows)))
     else:
         cols: list[list[tuple[int, float]]] = [[] for _ in range(n)]
         for i, c in enumerate(model.constraints):
