@@ -161,11 +161,13 @@ def test_model_numbers_stay_short_but_certificates_may_be_long():
         parse_number(long_zero)  # in a model, the 400-character cap applies
 
 
-@pytest.mark.parametrize("path", ["as installed", "slots", "keyword"])
+@pytest.mark.parametrize("path", ["as installed", "slots", "constructor"])
 def test_mpq_to_fraction_keeps_type_and_value(path, monkeypatch):
     # the solver's boundary conversion skips the second gcd (an mpq is already in
     # lowest terms); it must equal the normalising constructor on every sign and
-    # size, by each of its three routes (whichever this Python offers is "as installed")
+    # size, by each of its routes (whichever this Python offers is "as installed";
+    # "constructor": the keyword that skips normalising up to 3.11, the plain
+    # constructor after it)
     from fractions import Fraction
 
     from gmpy2 import mpq

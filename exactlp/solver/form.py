@@ -15,6 +15,7 @@ every value reported back is turned into the model's own sense.
 
 from __future__ import annotations
 
+import sys
 from dataclasses import dataclass
 from fractions import Fraction
 
@@ -40,6 +41,9 @@ _ZERO_FRACTION = Fraction(0)  # immutable, so one object serves every zero
 # directly, as 3.12's ``_from_coprime_ints`` does, only where they are exactly these.
 _SLOTS = getattr(Fraction, "__slots__", None) == ("_numerator", "_denominator")
 _new = object.__new__
+# the constructor's ``_normalize=False`` keyword exists up to Python 3.11 only;
+# where neither route above exists and it is gone too, the normalising constructor
+_KEYWORD = sys.version_info < (3, 12)
 
 
 def frac(v) -> Fraction:
@@ -60,7 +64,9 @@ def frac(v) -> Fraction:
         f._numerator = int(v.numerator)
         f._denominator = int(v.denominator)
         return f
-    return Fraction(int(v.numerator), int(v.denominator), _normalize=False)
+    if _KEYWORD:
+        return Fraction(int(v.numerator), int(v.denominator), _normalize=False)
+    return Fraction(int(v.numerator), int(v.denominator))
 
 
 @dataclass
