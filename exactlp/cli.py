@@ -9,6 +9,7 @@ Exit codes, the same for every command:
 * 3  a limit (iterations, time) was reached: nothing is proven
 * 4  internal error (a short message; ``--debug`` shows the traceback)
 * 130 / 143  interrupted by SIGINT / SIGTERM
+* 141  the program reading the output closed it (``exactlp ... | head``)
 """
 
 from __future__ import annotations
@@ -25,6 +26,7 @@ import typer.core
 from . import __version__
 
 EXIT_OK, EXIT_INVALID, EXIT_INPUT, EXIT_LIMIT, EXIT_INTERNAL = 0, 1, 2, 3, 4
+EXIT_PIPE = 141  # the reader of our output went away (128 + SIGPIPE)
 
 class _OneLineErrors(typer.core.TyperGroup):
     """Usage errors (a missing argument, an unknown option, a bad option value)
@@ -41,9 +43,11 @@ class _OneLineErrors(typer.core.TyperGroup):
             if type(e).__name__ == "NoArgsIsHelpError":  # a bare `exactlp`: its help, as before
                 return super().main(args, prog_name, complete_var, True, **extra)
             sys.stderr.write(_usage_line(e) + "\n")
+            sys.stderr.flush()
             sys.exit(e.exit_code)
         except typer.Abort:
             sys.stderr.write("exactlp: aborted\n")
+            sys.stderr.flush()
             sys.exit(1)
         sys.exit(code if isinstance(code, int) else 0)
 
@@ -88,7 +92,21 @@ def _root(
 def _console(stderr: bool = False):
     from rich.console import Console
 
-    return Console(stderr=stderr, highlight=False, soft_wrap=False, emoji=False)
+    console = Console(stderr=stderr, highlight=False, soft_wrap=False, emoji=False)
+    console.on_broken_pipe = _reader_gone  # (rich's own would exit 1: ours means "invalid")
+    return console
+
+
+def _reader_gone() -> None:
+    """The program reading our output has closed it (``exactlp ... | head``): stop
+    quietly with exit status 141, as a process killed by SIGPIPE would.  Files
+    already written (a certificate, a log) are complete; nothing else is."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())  # (so that the final flush cannot fail again)
+    except (OSError, ValueError):
+        pass
+    raise SystemExit(EXIT_PIPE)
 
 
 def _dumps(doc) -> str:
@@ -114,6 +132,8 @@ class _Run:
     def __exit__(self, etype, exc, tb):
         if exc is None or isinstance(exc, (typer.Exit, SystemExit, KeyboardInterrupt)):
             return False
+        if isinstance(exc, BrokenPipeError):
+            _reader_gone()
         from .errors import ExactLPError
 
         if isinstance(exc, ExactLPError):

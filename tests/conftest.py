@@ -42,7 +42,10 @@ def cli(monkeypatch):
 
     from exactlp.cli import app
 
-    runner = CliRunner()
+    try:  # (click before 8.2 mixes stderr into stdout unless told not to; 8.2 keeps them apart)
+        runner = CliRunner(mix_stderr=False)
+    except TypeError:
+        runner = CliRunner()
 
     def run(*args: str):
         r = runner.invoke(app, [str(a) for a in args], env={"COLUMNS": "120", "NO_COLOR": "1", "TERM": "dumb"})

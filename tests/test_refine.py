@@ -217,7 +217,11 @@ def test_an_inverse_made_in_the_background_is_the_same_and_blas_gets_its_threads
     assert made._worker is None and not made._limiter and blas_threads() == before
     assert x == inline.primal(rhs) == [mpq(v.numerator, v.denominator) for v in sympy_solve(rows, [
         Fraction(int(v.numerator), int(v.denominator)) for v in rhs])]
-    assert np.array_equal(made.inv, inline.inv)  # the same LAPACK call on the same matrix
+    # The two float inverses come from the same LAPACK call, but on one BLAS thread
+    # against the default count: some BLAS builds (numpy 1.24's OpenBLAS) then differ
+    # in the last bits of an ill-conditioned matrix. Only the exact answers above
+    # must agree; the inverses need only be the same to float rounding.
+    assert np.allclose(made.inv, inline.inv, rtol=1e-5, atol=0)
 
 
 def test_a_singular_basis_inverted_in_the_background_gives_none(monkeypatch):

@@ -60,6 +60,23 @@ def test_interrupt_closes_the_log_and_writes_no_certificate(tmp_path, long_model
     assert cert.read_text() == "an earlier certificate\n"
 
 
+
+def test_a_reader_that_goes_away_ends_the_run_quietly(tmp_path):
+    # `exactlp solve ... | head`: once the reader has closed the pipe, the screen
+    # report stops with status 141 (as if killed by SIGPIPE) and no message, never
+    # an "internal error"; the certificate written before the report is whole.
+    from .conftest import CASES
+
+    cert = tmp_path / "c.yaml"
+    p = subprocess.Popen([sys.executable, "-m", "exactlp.cli", "solve", str(CASES / "drought.yaml"),
+                          "--no-warm-start", "-c", str(cert)], stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    p.stdout.close()  # gone before the first line is written
+    err = p.stderr.read()
+    assert p.wait(timeout=60) == 141 and err == b""
+    import exactlp
+
+    assert exactlp.verify(exactlp.load(str(CASES / "drought.yaml")), str(cert)).valid
+
 def test_sigkill_leaves_a_log_readable_to_the_last_pivot(tmp_path, long_model):
     cert, log = tmp_path / "c.yaml", tmp_path / "l.jsonl"
     cert.write_text("an earlier certificate\n")
