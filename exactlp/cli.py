@@ -28,6 +28,7 @@ from . import __version__
 EXIT_OK, EXIT_INVALID, EXIT_INPUT, EXIT_LIMIT, EXIT_INTERNAL = 0, 1, 2, 3, 4
 EXIT_PIPE = 141  # the reader of our output went away (128 + SIGPIPE)
 
+
 class _OneLineErrors(typer.core.TyperGroup):
     """Usage errors (a missing argument, an unknown option, a bad option value)
     as one line on stderr, exit status 2, like every other bad input."""
@@ -45,15 +46,16 @@ class _OneLineErrors(typer.core.TyperGroup):
             sys.stderr.write(_usage_line(e) + "\n")
             sys.stderr.flush()
             sys.exit(e.exit_code)
-        except typer.Abort:
+        except typer.Abort:  # (only a prompt raises it, and exactlp has none: as an interrupt)
             sys.stderr.write("exactlp: aborted\n")
             sys.stderr.flush()
-            sys.exit(1)
+            sys.exit(130)
         sys.exit(code if isinstance(code, int) else 0)
 
 
 def _usage_line(e) -> str:
-    """``exactlp: solve: Missing argument 'model'. (exactlp solve -h for help)``"""
+    """``exactlp: solve: Missing argument 'model'. (see 'exactlp solve -h')``: the
+    command, the command-line library's own words on one line, and where help is."""
     ctx = getattr(e, "ctx", None)
     text = " ".join(e.format_message().split())
     where = ""
