@@ -8,7 +8,7 @@ Exit codes, the same for every command:
 * 2  bad input or usage (one line naming file, line, column and field)
 * 3  a limit (iterations, time) was reached: nothing is proven
 * 4  internal error (a short message; ``--debug`` shows the traceback)
-* 130 / 143  interrupted by SIGINT / SIGTERM
+* 130 / 143  interrupted by SIGINT / SIGTERM (one line; no file left half-written)
 * 141  the program reading the output closed it (``exactlp ... | head``)
 """
 
@@ -122,17 +122,41 @@ def _fail(message: str, code: int) -> "typer.Exit":
     return typer.Exit(code)
 
 
+class _Terminated(BaseException):
+    """SIGTERM, raised where the command is, so that every ``finally`` and every
+    atomic write's clean-up runs (no temporary file is left behind)."""
+
+
+def _on_term(signum, frame):
+    raise _Terminated()
+
+
 class _Run:
-    """Run a command body, turning every library exception into one message."""
+    """Run a command body, turning every library exception into one message.
+
+    An interrupt (SIGINT) or a termination (SIGTERM) ends it with one line and
+    status 130 or 143; ``solve`` handles both itself while it solves (it closes
+    its log), and this covers the rest of every command."""
 
     def __init__(self, debug: bool = False) -> None:
         self.debug = debug
+        self._old_term = None
 
     def __enter__(self):
+        try:
+            self._old_term = signal.signal(signal.SIGTERM, _on_term)
+        except ValueError:  # (not the main thread: signals stay as they are)
+            self._old_term = None
         return self
 
     def __exit__(self, etype, exc, tb):
-        if exc is None or isinstance(exc, (typer.Exit, SystemExit, KeyboardInterrupt)):
+        if self._old_term is not None:
+            signal.signal(signal.SIGTERM, self._old_term)
+        if isinstance(exc, KeyboardInterrupt):
+            raise _fail("interrupted; no file is left half-written", 130) from None
+        if isinstance(exc, _Terminated):
+            raise _fail("terminated; no file is left half-written", 143) from None
+        if exc is None or isinstance(exc, (typer.Exit, SystemExit)):
             return False
         if isinstance(exc, BrokenPipeError):
             _reader_gone()

@@ -218,3 +218,35 @@ def test_deep_json_nesting_is_our_error(cli, write):
     log = write("l.jsonl", "{\"record\": " + deep + "}\n")
     code, out, err = cli("trace", log)
     assert (code, out) == (2, "") and err == f"exactlp: {log}:1:1: not a log record: nesting is too deep\n"
+
+
+def test_interrupt_or_termination_outside_a_solve_is_one_line_and_leaves_no_file(tmp_path, monkeypatch, capsys):
+    # every command runs in cli._Run: SIGINT (KeyboardInterrupt) and SIGTERM end it
+    # with one line and 130 / 143, and a termination in the middle of an atomic
+    # write (here: while the data are synced) leaves neither the file nor its
+    # temporary behind; the SIGTERM handler is put back afterwards
+    import typer
+
+    from exactlp import cli
+    from exactlp.io import atomic
+
+    before = signal.getsignal(signal.SIGTERM)
+    with pytest.raises(typer.Exit) as exc:
+        with cli._Run():
+            raise KeyboardInterrupt
+    assert exc.value.exit_code == 130
+    assert capsys.readouterr().err == "exactlp: interrupted; no file is left half-written\n"
+
+    def fsync_then_terminated(fd):
+        os.kill(os.getpid(), signal.SIGTERM)
+        time.sleep(1)  # (the handler runs at the next bytecode; never reached)
+
+    monkeypatch.setattr(atomic.os, "fsync", fsync_then_terminated)
+    target = tmp_path / "report.yaml"
+    with pytest.raises(typer.Exit) as exc:
+        with cli._Run():
+            atomic.write_atomic(target, "text\n")
+    assert exc.value.exit_code == 143
+    assert capsys.readouterr().err == "exactlp: terminated; no file is left half-written\n"
+    assert list(tmp_path.iterdir()) == []
+    assert signal.getsignal(signal.SIGTERM) is before
