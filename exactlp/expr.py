@@ -336,6 +336,8 @@ def parse_comparison(text: str, limits: Limits = DEFAULT_LIMITS) -> Comparison:
             raise _error("abs(), max() and min() cannot stand in a chained comparison: "
                          "write each side as its own constraint", side.calls[0].offset)
     for side, off in ((a, a_off), (b, b_off)):
+        if len(side.terms) == 1 and side.terms[0][0].lower() in ("inf", "infinity") and not side.constant:
+            raise _error(f"'{side.terms[0][0]}' cannot stand in a formula: leave out the side with no limit", off)
         if side.terms:
             raise _error(
                 "in a chained comparison the outer parts must be numbers "

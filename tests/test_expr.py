@@ -91,6 +91,8 @@ def test_single_equals_is_equality():
         ("x $ 1", "unexpected character '$'", 2),
         ("x <= 1/0", "'1/0' divides by zero", 5),
         ("x <= 1 <= 2 <= 3", "at most two comparisons may be chained", 12),
+        ("-inf <= x <= 4", "'inf' cannot stand in a formula: leave out the side with no limit", 0),
+        ("0 <= x <= Infinity", "'Infinity' cannot stand in a formula: leave out the side with no limit", 10),
     ],
 )
 def test_formula_errors(text, message, offset):
