@@ -172,6 +172,14 @@ class _Run:
         ) from None
 
 
+SCREEN_ROWS = 200  # (render.ROWS: a test keeps the two the same; render is not imported for --help)
+
+
+def _rows_option():
+    return typer.Option(SCREEN_ROWS, "--rows", min=0,
+                        help="Most rows of each table on the screen (0: every row); files and --json are never cut.")
+
+
 def _load(path: str):
     from .io import load
 
@@ -219,6 +227,7 @@ def check(
 def show(
     model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
     expanded: bool = typer.Option(False, "--expanded", help="Show the linear program actually solved (abs/max/min reformulated)."),
+    rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
     """Print the model as tables: objective, variables with bounds, constraints as formulas.
@@ -229,7 +238,7 @@ def show(
         m = _load(model)
         from .render import show_model
 
-        show_model(_console(), m, expanded)
+        show_model(_console(), m, expanded, rows)
 
 
 @app.command("import")
@@ -299,6 +308,7 @@ def solve(
     cert_format: str = typer.Option("yaml", "--certificate-format", help="yaml (default) or json."),
     digits: int = typer.Option(12, "--digits", min=1, max=100, help="Significant digits of the decimal rendering."),
     timestamps: bool = typer.Option(False, "--timestamps", help="Add wall-clock times to the log's header and closing record."),
+    rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
     """Solve a model exactly, verify the proof, and report.
@@ -319,7 +329,7 @@ def solve(
         if certificate is not None and log is not None and same_file(certificate, log):
             raise OutputError(f"{log}: the certificate and the log cannot be the same file")
         _solve_command(m, model, certificate, log, pricing, iteration_limit, time_limit, tableau,
-                       as_json, cert_format, digits, timestamps, warm_start)
+                       as_json, cert_format, digits, timestamps, warm_start, rows)
 
 
 def _check_output(out: str | None, source: str | None) -> None:
@@ -339,7 +349,7 @@ def _check_output(out: str | None, source: str | None) -> None:
 
 
 def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, time_limit, tableau,
-                   as_json, cert_format, digits, timestamps, warm_start=None):
+                   as_json, cert_format, digits, timestamps, warm_start=None, rows=SCREEN_ROWS):
     from .audit import AuditLog
     from .certificate import build_certificate, dump_certificate
     from .io.atomic import write_atomic
@@ -442,7 +452,7 @@ def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, ti
         if staged_box:
             stages_report(_console(), m, staged_box[-1])
         solve_report(_console(), shown, result, digits=digits, certificate=certificate if cert else None,
-                     verified=verified, log=log, cert=cert)
+                     verified=verified, log=log, cert=cert, rows=rows)
     if not result.status.is_proven:
         raise typer.Exit(EXIT_LIMIT)
 
@@ -493,6 +503,7 @@ def verify(
 def trace(
     log: str = typer.Argument(..., help="Audit log written by 'exactlp solve -l'."),
     pivot: Optional[int] = typer.Option(None, "--pivot", min=1, help="Show this one pivot in detail (with its tableau if recorded)."),
+    rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
     """Replay an audit log on screen: a table of pivots, or one pivot in detail.
@@ -503,7 +514,7 @@ def trace(
         from .audit import read_log
         from .render import trace_report
 
-        trace_report(_console(), read_log(log), pivot)
+        trace_report(_console(), read_log(log), pivot, rows)
 
 
 def _write_report(model_path: str, m, doc: dict, output: str) -> None:
@@ -531,6 +542,7 @@ def sensitivity(
     model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
     output: Optional[str] = typer.Option(None, "-o", "--output", help="Write a report with a certificate for every claim."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
+    rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
     """Exact ranges over which the optimal basis stays optimal (objective) or feasible (limits).
@@ -560,7 +572,7 @@ def sensitivity(
         else:
             from .render import sensitivity_report
 
-            sensitivity_report(_console(), m, s)
+            sensitivity_report(_console(), m, s, rows)
 
 
 @app.command("ranges")
@@ -569,6 +581,7 @@ def ranges_(
     variables: Optional[list[str]] = typer.Argument(None, help="Variables to range (default: all)."),
     output: Optional[str] = typer.Option(None, "-o", "--output", help="Write a report with a certificate for every claim."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
+    rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
     """The exact least and greatest value of each variable over all optimal allocations.
@@ -600,7 +613,7 @@ def ranges_(
         else:
             from .render import ranges_report
 
-            ranges_report(_console(), m, rg)
+            ranges_report(_console(), m, rg, rows)
 
 
 @app.command()
@@ -608,6 +621,7 @@ def conflict(
     model: str = typer.Argument(..., help="An infeasible model file."),
     output: Optional[str] = typer.Option(None, "-o", "--output", help="Write a report with a certificate for every claim."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
+    rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
     """Name a minimal set of rules that cannot all hold (each one-out subset is feasible).
@@ -638,7 +652,7 @@ def conflict(
         else:
             from .render import conflict_report
 
-            conflict_report(_console(), m, c)
+            conflict_report(_console(), m, c, rows)
 
 
 def main() -> None:  # console script entry

@@ -1,6 +1,7 @@
 """The command line (issue 5): every command and exit code, pinned width, no colour."""
 
 import json
+from pathlib import Path
 
 import pytest
 
@@ -307,3 +308,51 @@ def test_verify_with_its_arguments_swapped_or_doubled_says_so(cli, tmp_path):
     code, out, err = cli("verify", DROUGHT, DROUGHT)
     assert (code, out) == (2, "")
     assert err == f"exactlp: {DROUGHT}: this is a model file, not a certificate: exactlp verify MODEL CERTIFICATE\n"
+
+
+def _wide_model(write, n: int) -> str:
+    lines = ["name: wide", "maximize: " + " + ".join(f"x{i}" for i in range(n)), "variables:"]
+    lines += [f"  x{i}: {{upper: {i % 7 + 1}}}" for i in range(n)]
+    lines += ["constraints:", "  cap: " + " + ".join(f"x{i}" for i in range(n)) + f" <= {2 * n}"]
+    return write("wide.yaml", "\n".join(lines) + "\n")
+
+
+def test_screen_tables_show_at_most_rows_and_say_how_many_more(cli, write):
+    from exactlp import render
+    from exactlp.cli import SCREEN_ROWS
+
+    assert render.ROWS == SCREEN_ROWS == 200
+    model = _wide_model(write, 250)
+
+    def variable_rows(out):  # the first column of the first table's rows
+        lines = out.splitlines()
+        start = next(i for i, line in enumerate(lines) if line.strip().startswith("variable "))
+        rows = []
+        for line in lines[start + 2:]:
+            if not line.strip():
+                break
+            rows.append(line.split()[0])
+        return rows
+
+    code, out, _ = cli("solve", model)
+    assert code == 0 and variable_rows(out) == [f"x{i}" for i in range(200)]
+    assert ("... and 50 more variables, not shown here (the certificate and --json hold every value; "
+            "--rows 0 shows every one)") in out
+    code, out, _ = cli("solve", model, "--rows", "0")
+    assert code == 0 and variable_rows(out) == [f"x{i}" for i in range(250)] and "more variables" not in out
+    code, out, _ = cli("solve", model, "--rows", "3")
+    assert variable_rows(out) == ["x0", "x1", "x2"] and "... and 247 more variables" in out
+    code, out, _ = cli("solve", model, "--json", "--rows", "3")
+    assert code == 0 and len(json.loads(out)["primal"]) == 250  # --json is never cut
+    code, out, _ = cli("show", model, "--rows", "4")
+    assert variable_rows(out) == ["x0", "x1", "x2", "x3"]
+    assert "... and 246 more variables, not shown here (the model file holds them; --rows 0 shows every one)" in out
+    code, out, _ = cli("ranges", model, "--rows", "2")
+    assert variable_rows(out) == ["x0", "x1"] and "... and 248 more variables" in out
+    log = str(Path(model).with_suffix(".log.jsonl"))
+    assert cli("solve", model, "--no-warm-start", "-l", log)[0] == 0
+    steps = sum(1 for line in open(log) if '"record": "pivot"' in line)
+    assert steps > 1
+    code, out, _ = cli("trace", log, "--rows", "1")
+    assert code == 0 and (f"... and {steps - 1:,} more pivots, not shown here (the log holds every one, and "
+                          "--pivot K shows any one; --rows 0 shows every one)") in out
