@@ -441,11 +441,12 @@ def sensitivity_report(console: Console, model: Model, s, rows: int | None = ROW
         add_row(t, name, rr.bound, format_number(rr.value), format_number(rr.dual), _iv(rr.interval))
     console.print(t)
     _more(console, left, "constraints", "--json and -o hold every range")
-    for name, rr in s.rhs_ranges.items():
-        if rr.dual:
-            verb = "raises" if rr.dual > 0 else "lowers"
-            console.print(Text(f"Raising the {name} limit by 1 {verb} the objective by {format_number(abs(rr.dual))}, "
-                               f"valid while the limit stays within {_iv(rr.interval)}."), soft_wrap=True)
+    shown, left = _cap(((name, rr) for name, rr in s.rhs_ranges.items() if rr.dual), rows)
+    for name, rr in shown:
+        verb = "raises" if rr.dual > 0 else "lowers"
+        console.print(Text(f"Raising the {name} limit by 1 {verb} the objective by {format_number(abs(rr.dual))}, "
+                           f"valid while the limit stays within {_iv(rr.interval)}."), soft_wrap=True)
+    _more(console, left, "such sentences", "--json and -o hold every dual")
     caution(console)
 
 

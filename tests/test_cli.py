@@ -349,6 +349,8 @@ def test_screen_tables_show_at_most_rows_and_say_how_many_more(cli, write):
     assert "... and 246 more variables, not shown here (the model file holds them; --rows 0 shows every one)" in out
     code, out, _ = cli("ranges", model, "--rows", "2")
     assert variable_rows(out) == ["x0", "x1"] and "... and 248 more variables" in out
+    code, out, _ = cli("sensitivity", model, "--rows", "2")
+    assert code == 0 and variable_rows(out) == ["x0", "x1"] and "... and 248 more variables" in out
     log = str(Path(model).with_suffix(".log.jsonl"))
     assert cli("solve", model, "--no-warm-start", "-l", log)[0] == 0
     steps = sum(1 for line in open(log) if '"record": "pivot"' in line)
