@@ -84,6 +84,18 @@ ERRORS = [
      "3:7: variables.x.uper: unknown key 'uper' (did you mean 'upper'?)"),
     ("maximise: x\nvariables:\n  x: {}\n",
      "1:1: maximise: unknown key 'maximise' (did you mean 'maximize'?)"),
+    # words whose nearest spelling would mislead get their own hint
+    ("objective: {minimize: x}\nvariables:\n  x: {}\n",
+     "1:1: objective: unknown key 'objective' (write the objective as 'minimize: <formula>' or "
+     "'maximize: <formula>'; 'objectives' is for priority tiers)"),
+    ("Goal: x\nvariables:\n  x: {}\n",
+     "1:1: Goal: unknown key 'Goal' (write the objective as 'minimize: <formula>' or 'maximize: <formula>')"),
+    ("max: x\nvariables:\n  x: {}\n",
+     "1:1: max: unknown key 'max' (did you mean 'maximize'?)"),
+    ("maximize: x\nvariables:\n  x: {}\nbounds:\n  x: {upper: 3}\n",
+     "4:1: bounds: unknown key 'bounds' (bounds go with each variable, as in 'x: {lower: 0, upper: 10}')"),
+    ("maximize: x\nvariables:\n  x: {}\nsubject_to:\n  c: x <= 3\n",
+     "4:1: subject_to: unknown key 'subject_to' (did you mean 'constraints'?)"),
     ("maximize: north\nvariables:\n  north: {}\n  south: {}\nconstraints:\n  c: north + sooth <= 4\n",
      "6:14: constraints.c: undeclared variable 'sooth' (did you mean 'south'?)"),
     ("maximize: 2 nort\nvariables:\n  north: {}\n",

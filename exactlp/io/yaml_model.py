@@ -36,6 +36,19 @@ STAGE_KEYS = ("name", "maximize", "minimize")
 VARIABLE_KEYS = ("lower", "upper", "fixed", "unit", "note")
 STRUCTURED_KEYS = ("terms", "lower", "upper", "equals", "note")
 OBJECTIVE_KEYS = ("terms", "constant")
+#: top-level words a newcomer writes for something the format says otherwise; the
+#: closest-spelling suggestion would mislead here ('objective' is nearest to
+#: 'objectives', which is for priority tiers, and 'max' is near nothing)
+_OBJECTIVE_HINT = "write the objective as 'minimize: <formula>' or 'maximize: <formula>'"
+TOP_HINTS = {
+    "objective": _OBJECTIVE_HINT + "; 'objectives' is for priority tiers",
+    "obj": _OBJECTIVE_HINT,
+    "goal": _OBJECTIVE_HINT,
+    "min": "did you mean 'minimize'?",
+    "max": "did you mean 'maximize'?",
+    "bounds": "bounds go with each variable, as in 'x: {lower: 0, upper: 10}'",
+    "subject_to": "did you mean 'constraints'?",
+}
 
 
 class _Reader:
@@ -58,13 +71,14 @@ class _Reader:
             column = node.column
         return type(err)(err.message, file=self.path, line=line, column=column, field=field)
 
-    def check_keys(self, node: Mapping, allowed: tuple[str, ...], field: str) -> None:
+    def check_keys(self, node: Mapping, allowed: tuple[str, ...], field: str,
+                   hints: dict[str, str] | None = None) -> None:
         for k, _ in node.items:
             if k.text not in allowed:
                 where = f"{field}.{k.text}" if field else k.text
-                raise self.fail(
-                    f"unknown key '{k.text}'{did_you_mean(k.text, allowed)}", k, where
-                )
+                hint = (hints or {}).get(k.text.lower())
+                more = f" ({hint})" if hint else did_you_mean(k.text, allowed)
+                raise self.fail(f"unknown key '{k.text}'{more}", k, where)
 
     def text(self, node: Node, field: str) -> str:
         if not isinstance(node, Scalar):
@@ -105,7 +119,7 @@ class _Reader:
                 root,
                 "(document)",
             )
-        self.check_keys(root, TOP_KEYS, "")
+        self.check_keys(root, TOP_KEYS, "", TOP_HINTS)
         name = description = None
         if (n := root.get("name")) is not None and not (isinstance(n, Scalar) and n.is_null):
             name = self.text(n, "name")
