@@ -49,6 +49,12 @@ TOP_HINTS = {
     "bounds": "bounds go with each variable, as in 'x: {lower: 0, upper: 10}'",
     "subject_to": "did you mean 'constraints'?",
 }
+#: the same for the bounds of a variable or of a structured constraint
+BOUND_HINTS = {
+    **{w: "did you mean 'lower'?" for w in ("min", "minimum", "lb", "lo")},
+    **{w: "did you mean 'upper'?" for w in ("max", "maximum", "ub", "up")},
+}
+STRUCTURED_HINTS = {**BOUND_HINTS, "rhs": "give the limit as 'lower', 'upper' or 'equals'"}
 
 
 class _Reader:
@@ -266,7 +272,7 @@ class _Reader:
             )
         if not isinstance(spec, Mapping):
             raise self.fail(f"expected a mapping of bounds, found {kind_name(spec)}", spec, field)
-        self.check_keys(spec, VARIABLE_KEYS, field)
+        self.check_keys(spec, VARIABLE_KEYS, field, BOUND_HINTS)
         unit = note = None
         if (u := spec.get("unit")) is not None:
             unit = self.text(u, f"{field}.unit")
@@ -370,7 +376,7 @@ class _Reader:
     def constraint(self, name: str, spec: Node, order: dict[str, int]) -> Constraint:
         field = f"constraints.{name}"
         if isinstance(spec, Mapping):
-            self.check_keys(spec, STRUCTURED_KEYS, field)
+            self.check_keys(spec, STRUCTURED_KEYS, field, STRUCTURED_HINTS)
             terms = self.structured_terms(spec.get("terms"), order, f"{field}.terms")
             note = None
             if (n := spec.get("note")) is not None:
