@@ -53,8 +53,8 @@ def conflict(model: Model, **solve_options) -> Conflict:
 
     first = solve(model, **solve_options)
     if first.status is not Status.INFEASIBLE:
-        raise InputError(f"the model is {first.status.value}, not infeasible: there is no conflict to explain",
-                         field="model")
+        raise _not_proven_as_needed(model, first.status.value, "only an infeasible model has a conflict "
+                                    "to explain")
     solves = 1
     if first.crossed is not None:
         kind, name = first.crossed
@@ -134,6 +134,22 @@ class Sensitivity:
     dual_directions: dict
 
 
+#: what to do instead, by the outcome that is not an optimum
+_INSTEAD = {
+    "infeasible": "'exactlp conflict' names a minimal set of rules that clash",
+    "unbounded": "the solve's certificate gives the improving ray",
+    "optimal": "'exactlp sensitivity' and 'exactlp ranges' apply",
+}
+
+
+def _not_proven_as_needed(model: Model, status: str, needs: str) -> InputError:
+    """One line naming the model's file (when it came from one), its outcome, what
+    the analysis needs, and what to do instead."""
+    hint = _INSTEAD.get(status, "nothing is proven: raise the limit")
+    return InputError(f"the model is {status}: {needs} ({hint})",
+                      file=model.source, field=None if model.source else "model")
+
+
 def _single_objective(model: Model) -> None:
     if model.stages:
         raise InputError("this model has priority tiers: sensitivity and ranges apply to a single "
@@ -167,7 +183,7 @@ def sensitivity(model: Model, **solve_options) -> Sensitivity:
 
     r = solve(model, **solve_options)
     if r.status is not Status.OPTIMAL:
-        raise InputError(f"the model is {r.status.value}: sensitivity ranging needs an optimum", field="model")
+        raise _not_proven_as_needed(model, r.status.value, "sensitivity ranging needs an optimum")
     form = build_form(model)
     n, m = form.n, form.m
     basic_cols = list(r.basis_columns)
@@ -340,7 +356,7 @@ def ranges(model: Model, variables: list[str] | None = None, **solve_options) ->
 
     r = solve(model, **solve_options)
     if r.status is not Status.OPTIMAL:
-        raise InputError(f"the model is {r.status.value}: allocation ranges need an optimum", field="model")
+        raise _not_proven_as_needed(model, r.status.value, "allocation ranges need an optimum")
     names = [v.name for v in model.variables]
     chosen = names if not variables else list(variables)
     for v in chosen:

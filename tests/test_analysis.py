@@ -129,7 +129,13 @@ def test_conflict_on_the_overcommitted_case_is_minimal():
 def test_conflict_of_a_feasible_model_is_refused():
     with pytest.raises(exactlp.InputError) as exc:
         conflict(exactlp.load(CASES / "grants.yaml"))
-    assert str(exc.value) == "model: the model is optimal, not infeasible: there is no conflict to explain"
+    assert str(exc.value) == (f"{CASES / 'grants.yaml'}: the model is optimal: only an infeasible model has a "
+                              "conflict to explain ('exactlp sensitivity' and 'exactlp ranges' apply)")
+    # a model made in code has no file: the field says what is meant
+    with pytest.raises(exactlp.InputError) as exc:
+        conflict(replace(model_from_text("maximize: x\nvariables:\n  x: {upper: 2}\n"), source=None))
+    assert str(exc.value) == ("model: the model is optimal: only an infeasible model has a conflict to explain "
+                              "('exactlp sensitivity' and 'exactlp ranges' apply)")
 
 
 def test_cli_sensitivity_and_conflict_json(cli):
@@ -144,7 +150,25 @@ def test_cli_sensitivity_and_conflict_json(cli):
     code, out, _ = cli("sensitivity", CASES / "grants.yaml")
     assert "Raising the fund limit by 1 raises the objective by 79/10, valid while the limit stays within [12, 259/20]." in out
     code, out, err = cli("conflict", CASES / "grants.yaml")
-    assert code == 2 and err == "exactlp: model: the model is optimal, not infeasible: there is no conflict to explain\n"
+    assert code == 2 and err == (f"exactlp: {CASES / 'grants.yaml'}: the model is optimal: only an infeasible model "
+                                 "has a conflict to explain ('exactlp sensitivity' and 'exactlp ranges' apply)\n")
+
+
+@pytest.mark.parametrize("command, case, expect", [
+    ("sensitivity", "grants_overcommitted.yaml",
+     "the model is infeasible: sensitivity ranging needs an optimum ('exactlp conflict' names a minimal set of "
+     "rules that clash)"),
+    ("ranges", "grants_overcommitted.yaml",
+     "the model is infeasible: allocation ranges need an optimum ('exactlp conflict' names a minimal set of "
+     "rules that clash)"),
+    ("sensitivity", "pipeline_forgotten_cap.yaml",
+     "the model is unbounded: sensitivity ranging needs an optimum (the solve's certificate gives the improving ray)"),
+    ("ranges", "pipeline_forgotten_cap.yaml",
+     "the model is unbounded: allocation ranges need an optimum (the solve's certificate gives the improving ray)"),
+])
+def test_analysis_of_a_model_without_an_optimum_names_the_file_and_what_to_do(cli, command, case, expect):
+    code, out, err = cli(command, CASES / case)
+    assert (code, out, err) == (2, "", f"exactlp: {CASES / case}: {expect}\n")
 
 
 ALTERNATIVE = "maximize: x + y\nvariables: {x: {upper: 3}, y: {upper: 3}}\nconstraints:\n  cap: x + y <= 4\n"
