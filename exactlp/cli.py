@@ -54,7 +54,7 @@ class _OneLineErrors(typer.core.TyperGroup):
 
 
 def _usage_line(e) -> str:
-    """``exactlp: solve: Missing argument 'model'. (see 'exactlp solve -h')``: the
+    """``exactlp: solve: Missing argument 'MODEL'. (see 'exactlp solve -h')``: the
     command, the command-line library's own words on one line, and where help is."""
     ctx = getattr(e, "ctx", None)
     text = " ".join(e.format_message().split())
@@ -74,6 +74,10 @@ app = typer.Typer(
     no_args_is_help=True,
     add_completion=True,
     pretty_exceptions_enable=False,
+    # plain help, as the command-line library writes it: rich's markup would
+    # eat bracketed text ('exactlp[fast]'), and its help layout costs about
+    # 80 ms of start-up (the --help target is 0.3 s)
+    rich_markup_mode=None,
     context_settings={"help_option_names": ["-h", "--help"]},
 )
 
@@ -176,7 +180,7 @@ SCREEN_ROWS = 200  # (render.ROWS: a test keeps the two the same; render is not 
 
 
 def _rows_option():
-    return typer.Option(SCREEN_ROWS, "--rows", min=0,
+    return typer.Option(SCREEN_ROWS, "--rows", min=0, metavar="N",
                         help="Most rows of each table on the screen (0: every row); files and --json are never cut.")
 
 
@@ -209,7 +213,7 @@ def _load_model_not_certificate(path: str):
 # ----------------------------------------------------------------------
 @app.command()
 def check(
-    model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
+    model: str = typer.Argument(..., metavar="MODEL", help="Model file (.yaml, .mps or .mps.gz)."),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
     """Validate a model and print its summary and fingerprint.
@@ -225,7 +229,7 @@ def check(
 
 @app.command()
 def show(
-    model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
+    model: str = typer.Argument(..., metavar="MODEL", help="Model file (.yaml, .mps or .mps.gz)."),
     expanded: bool = typer.Option(False, "--expanded", help="Show the linear program actually solved (abs/max/min reformulated)."),
     rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
@@ -243,8 +247,8 @@ def show(
 
 @app.command("import")
 def import_(
-    source: str = typer.Argument(..., help="MPS file (.mps or .mps.gz), free or fixed format."),
-    output: str = typer.Option(..., "-o", "--output", help="Where to write the model in the exactlp YAML format."),
+    source: str = typer.Argument(..., metavar="SRC.mps", help="MPS file (.mps or .mps.gz), free or fixed format."),
+    output: str = typer.Option(..., "-o", "--output", metavar="OUT.yaml", help="Where to write the model in the exactlp YAML format."),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
     """Convert an MPS file into an exactlp YAML model (same fingerprint).
@@ -293,26 +297,27 @@ def _result_json(model, result, cert, cert_path, log_path, digits):
 
 @app.command()
 def solve(
-    model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
-    certificate: Optional[str] = typer.Option(None, "-c", "--certificate", help="Write the certificate here."),
-    log: Optional[str] = typer.Option(None, "-l", "--log", help="Write the pivot-by-pivot audit log here (JSON Lines)."),
-    pricing: str = typer.Option("guarded", "--pricing", help="Pricing rule: guarded (default), hybrid, bland or dantzig."),
+    model: str = typer.Argument(..., metavar="MODEL", help="Model file (.yaml, .mps or .mps.gz)."),
+    certificate: Optional[str] = typer.Option(None, "-c", "--certificate", metavar="CERT", help="Write the certificate here."),
+    log: Optional[str] = typer.Option(None, "-l", "--log", metavar="LOG", help="Write the pivot-by-pivot audit log here (JSON Lines)."),
+    pricing: str = typer.Option("guarded", "--pricing", metavar="RULE", help="Pricing rule: guarded (default), hybrid, bland or dantzig."),
     warm_start: Optional[bool] = typer.Option(
         None, "--warm-start/--no-warm-start",
         help="Start from a basis suggested by a floating-point solver (exactlp[fast] extra); "
              "re-proven exactly. Default: on for models with 50 rows or more when highspy is installed."),
-    iteration_limit: Optional[int] = typer.Option(None, "--iteration-limit", min=0, help="Stop after this many steps (nothing is proven then)."),
-    time_limit: Optional[float] = typer.Option(None, "--time-limit", min=0, help="Stop after this many seconds (nothing is proven then)."),
+    iteration_limit: Optional[int] = typer.Option(None, "--iteration-limit", min=0, metavar="N", help="Stop after this many steps (nothing is proven then)."),
+    time_limit: Optional[float] = typer.Option(None, "--time-limit", min=0, metavar="S", help="Stop after this many seconds (nothing is proven then)."),
     tableau: bool = typer.Option(False, "--tableau", help="Record the full exact tableau at each pivot in the log (small models)."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout instead of tables."),
-    cert_format: str = typer.Option("yaml", "--certificate-format", help="yaml (default) or json."),
-    digits: int = typer.Option(12, "--digits", min=1, max=100, help="Significant digits of the decimal rendering."),
+    cert_format: str = typer.Option("yaml", "--certificate-format", metavar="yaml|json", help="yaml (default) or json."),
+    digits: int = typer.Option(12, "--digits", min=1, max=100, metavar="N", help="Significant digits of the decimal rendering."),
     timestamps: bool = typer.Option(False, "--timestamps", help="Add wall-clock times to the log's header and closing record."),
     rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
     """Solve a model exactly, verify the proof, and report.
 
+    \b
     Examples:
       exactlp solve cases/drought.yaml
       exactlp solve cases/drought.yaml -c drought.cert.yaml -l drought.log.jsonl
@@ -459,8 +464,8 @@ def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, ti
 
 @app.command()
 def verify(
-    model: str = typer.Argument(..., help="Model file the certificate is about."),
-    certificate: str = typer.Argument(..., help="Certificate file (YAML or JSON)."),
+    model: str = typer.Argument(..., metavar="MODEL", help="Model file the certificate is about."),
+    certificate: str = typer.Argument(..., metavar="CERT", help="Certificate file (YAML or JSON)."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
@@ -501,8 +506,8 @@ def verify(
 
 @app.command()
 def trace(
-    log: str = typer.Argument(..., help="Audit log written by 'exactlp solve -l'."),
-    pivot: Optional[int] = typer.Option(None, "--pivot", min=1, help="Show this one pivot in detail (with its tableau if recorded)."),
+    log: str = typer.Argument(..., metavar="LOG", help="Audit log written by 'exactlp solve -l'."),
+    pivot: Optional[int] = typer.Option(None, "--pivot", min=1, metavar="K", help="Show this one pivot in detail (with its tableau if recorded)."),
     rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
@@ -539,8 +544,8 @@ def _interval(iv) -> dict:
 
 @app.command()
 def sensitivity(
-    model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
-    output: Optional[str] = typer.Option(None, "-o", "--output", help="Write a report with a certificate for every claim."),
+    model: str = typer.Argument(..., metavar="MODEL", help="Model file (.yaml, .mps or .mps.gz)."),
+    output: Optional[str] = typer.Option(None, "-o", "--output", metavar="REPORT", help="Write a report with a certificate for every claim."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
     rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
@@ -577,9 +582,9 @@ def sensitivity(
 
 @app.command("ranges")
 def ranges_(
-    model: str = typer.Argument(..., help="Model file (.yaml, .mps or .mps.gz)."),
-    variables: Optional[list[str]] = typer.Argument(None, help="Variables to range (default: all)."),
-    output: Optional[str] = typer.Option(None, "-o", "--output", help="Write a report with a certificate for every claim."),
+    model: str = typer.Argument(..., metavar="MODEL", help="Model file (.yaml, .mps or .mps.gz)."),
+    variables: Optional[list[str]] = typer.Argument(None, metavar="VAR", help="Variables to range (default: all)."),
+    output: Optional[str] = typer.Option(None, "-o", "--output", metavar="REPORT", help="Write a report with a certificate for every claim."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
     rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
@@ -618,8 +623,8 @@ def ranges_(
 
 @app.command()
 def conflict(
-    model: str = typer.Argument(..., help="An infeasible model file."),
-    output: Optional[str] = typer.Option(None, "-o", "--output", help="Write a report with a certificate for every claim."),
+    model: str = typer.Argument(..., metavar="MODEL", help="An infeasible model file."),
+    output: Optional[str] = typer.Option(None, "-o", "--output", metavar="REPORT", help="Write a report with a certificate for every claim."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
     rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),

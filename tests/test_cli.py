@@ -254,6 +254,29 @@ def test_help_and_check_import_nothing_heavy(tmp_path):
 
     assert loaded("--help") == "LOADED []"
     assert loaded("check", str(CASES / "drought.yaml")) == "LOADED ['exactlp.io', 'yaml']"
+    # the help is plain: neither rich nor the command-line library's rich layout
+    # (about 80 ms of start-up) is loaded for it
+    probe = probe.replace(repr(heavy), repr(("rich", "typer.rich_utils", "markdown_it")))
+    assert loaded("--help") == "LOADED []"
+    assert loaded("solve", "--help") == "LOADED []"
+
+
+def test_help_is_plain_keeps_bracketed_text_and_names_values_as_the_readme_does(cli):
+    code, out, _ = cli("solve", "--help")
+    assert code == 0 and "\u256d" not in out  # no boxes
+    # rich markup used to eat '[fast]', leaving "(exactlp extra)"
+    assert "(exactlp[fast] extra)" in " ".join(out.replace("floating-\n", "floating-").split())
+    for shown in ("-c, --certificate CERT", "-l, --log LOG", "--pricing RULE", "--iteration-limit N",
+                  "--time-limit S", "--certificate-format yaml|json", "--digits N", "--rows N"):
+        assert shown in out, shown
+    # the examples keep one command a line
+    assert "\n    exactlp solve cases/drought.yaml\n" in out
+    # (the usage line's marks around arguments are the command-line library's own,
+    # and differ between its versions: 'MODEL [VAR]' or '{MODEL} [VAR]...')
+    code, out, _ = cli("ranges", "--help")
+    usage = out.splitlines()[0]
+    assert code == 0 and usage.startswith("Usage: exactlp ranges [OPTIONS] ") and "MODEL" in usage and "VAR" in usage
+    assert "\\[" not in out  # no markup escapes left in plain text (older versions of it did that)
 
 
 @pytest.mark.parametrize("args", [
