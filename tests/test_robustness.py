@@ -4,6 +4,7 @@ import ast
 import json
 import os
 import signal
+import stat
 import subprocess
 import sys
 import time
@@ -218,6 +219,28 @@ def test_deep_json_nesting_is_our_error(cli, write):
     log = write("l.jsonl", "{\"record\": " + deep + "}\n")
     code, out, err = cli("trace", log)
     assert (code, out) == (2, "") and err == f"exactlp: {log}:1:1: not a log record: nesting is too deep\n"
+
+
+def test_atomic_writes_get_the_permissions_of_any_new_file(tmp_path):
+    # a certificate is meant to be handed on: a new file gets 0o666 less the
+    # umask, as open() would give it (mkstemp's 0o600 had kept it from the group
+    # and other accounts), and a file written over keeps the mode it had
+    from exactlp.io import atomic
+
+    old = os.umask(0o022)
+    try:
+        atomic.write_atomic(tmp_path / "new.cert.yaml", "a\n")
+        assert stat.S_IMODE(os.stat(tmp_path / "new.cert.yaml").st_mode) == 0o644
+        os.umask(0o077)
+        atomic.write_atomic(tmp_path / "private.cert.yaml", "a\n")
+        assert stat.S_IMODE(os.stat(tmp_path / "private.cert.yaml").st_mode) == 0o600
+        os.chmod(tmp_path / "new.cert.yaml", 0o640)
+        atomic.write_atomic(tmp_path / "new.cert.yaml", "b\n")
+        assert stat.S_IMODE(os.stat(tmp_path / "new.cert.yaml").st_mode) == 0o640
+        assert (tmp_path / "new.cert.yaml").read_text() == "b\n"
+    finally:
+        os.umask(old)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["new.cert.yaml", "private.cert.yaml"]
 
 
 def test_interrupt_or_termination_outside_a_solve_is_one_line_and_leaves_no_file(tmp_path, monkeypatch, capsys):
