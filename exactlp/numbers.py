@@ -89,7 +89,9 @@ def parse_number(text: str, limits: Limits = DEFAULT_LIMITS) -> Fraction:
         raise NumberError(f"'{s}' is not a number")
     m = _NUMBER.fullmatch(s)
     if m is None or (m.group("num") is None and not (m.group("int") or m.group("frac"))):
-        raise NumberError(f"'{s}' is not a number")
+        plain = s.replace("_", "")  # digits grouped as in code: 1_000_000
+        hint = f" (did you mean '{plain}'?)" if plain != s and _NUMBER.fullmatch(plain) and plain[-1:].isdigit() else ""
+        raise NumberError(f"'{s}' is not a number{hint}")
     sign = -1 if m.group("sign") == "-" else 1
     if m.group("num") is not None:
         den = int_from_digits(m.group("den"))

@@ -51,7 +51,9 @@ def test_tenth_is_not_the_binary_float():
         ("", "'' is not a number"),
         ("1/2/3", "'1/2/3' is not a number"),
         ("0x10", "'0x10' is not a number"),
-        ("1_000", "'1_000' is not a number"),
+        ("1_000", "'1_000' is not a number (did you mean '1000'?)"),
+        ("-2_500.5e3", "'-2_500.5e3' is not a number (did you mean '-2500.5e3'?)"),
+        ("_", "'_' is not a number"),
         ("1" * 401, "number has 401 characters, more than the limit of 400"),
     ],
 )
