@@ -179,6 +179,34 @@ def test_float_hint_in_a_thread_is_the_same_as_in_line(name):
     assert len(threaded.basic) == len(m.constraints)
 
 
+def test_bench_repeats_short_solves_and_runs_those_under_ten_seconds_twice(monkeypatch):
+    # the fastest of the runs made within one second (at most 15), and a second
+    # run for any solve whose first took under ten seconds; a fake clock: each
+    # call takes the next of the given durations
+    from exactlp import bench
+
+    def timed(durations):
+        clock = [0.0]
+        queue = list(durations)
+        calls = []
+
+        def call():
+            calls.append(1)
+            clock[0] += queue.pop(0)
+            return len(calls)
+
+        monkeypatch.setattr(bench.time, "perf_counter", lambda: clock[0])
+        best, last = bench.best_of(call)
+        return best, last
+
+    # (durations that are binary fractions, so that the fake clock is exact)
+    assert timed([0.25, 0.125, 0.375, 0.5]) == (0.125, 4)  # 0.75 s spent after three: a fourth
+    assert timed([2**-7] * 20) == (2**-7, 15)  # at most 15
+    assert timed([4.5, 4.125]) == (4.125, 2)  # a few seconds: twice
+    assert timed([9.5, 9.875]) == (9.5, 2)
+    assert timed([12.0]) == (12.0, 1)  # long solves: once
+
+
 def test_bench_reads_the_targets_off_its_own_figures():
     # synthetic records (no solving): the lines name each target, what misses it and why
     from exactlp.bench import targets
