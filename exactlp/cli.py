@@ -560,6 +560,10 @@ def sensitivity(
 
         _check_output(output, model)
         m = _load(model)
+        if output is not None:  # (refused before the analysis, not after it)
+            from .reports import check_report_size
+
+            check_report_size(m)
         s = run_sensitivity(m)
         if output is not None:
             from .reports import sensitivity_report

@@ -256,7 +256,33 @@ class _Around:
         return self._doc(probe, objective, primal, act, dict(self.fy), dict(self.fd), dual)
 
 
-def sensitivity_report(model: Model, sens) -> dict:
+def sensitivity_report_size(model: Model) -> int:
+    """The exact numbers a sensitivity report of ``model`` holds, at most: with
+    ``k = 2 (n + m)`` range ends, a certificate of ``k + 2`` numbers (the allocation,
+    activities, duals and reduced costs, and the two objectives) for each end and
+    for the optimum, and the ``k`` ends, each limit's value and dual, and the
+    objective themselves."""
+    k = 2 * (len(model.variables) + len(model.constraints))
+    return (k + 1) * (k + 3) + k
+
+
+def check_report_size(model: Model, limits=None) -> None:
+    """Refuse a sensitivity report that would pass ``limits.max_report_numbers``."""
+    from .errors import LimitError
+    from .limits import DEFAULT_LIMITS
+
+    most = (limits or DEFAULT_LIMITS).max_report_numbers
+    size = sensitivity_report_size(model)
+    if size > most:
+        n, m = len(model.variables), len(model.constraints)
+        raise LimitError(f"a sensitivity report of this model ({n} variables, {m} constraints) would hold "
+                         f"about {size:,} exact numbers, one certificate for each end of each range; the "
+                         f"limit is {most:,} (print the ranges with --json instead)",
+                         file=model.source, field="--output")
+
+
+def sensitivity_report(model: Model, sens, limits=None) -> dict:
+    check_report_size(model, limits)
     doc = _head(model, "sensitivity")
     r = sens.result
     x = dict(r.primal)

@@ -12,12 +12,16 @@ from fractions import Fraction as F
 import pytest
 
 import exactlp
+import exactlp.limits
 from exactlp.analysis import Interval, conflict, sensitivity
 from exactlp.io import model_from_text
 from exactlp.model import Constraint
+from exactlp.numbers import parse_number
 
 from .conftest import CASES
 from .helpers import scipy_solve, sympy_solve
+
+_REPORT_LIMITS = exactlp.limits.Limits(max_number_chars=200_000)
 from .models import KNOWN
 
 THREE = KNOWN[0][1]  # maximize 5 x1 + 4 x2 + 3 x3; optimum 13 at (2, 0, 1), y = (1, 0, 1)
@@ -136,6 +140,50 @@ def test_conflict_of_a_feasible_model_is_refused():
         conflict(replace(model_from_text("maximize: x\nvariables:\n  x: {upper: 2}\n"), source=None))
     assert str(exc.value) == ("model: the model is optimal: only an infeasible model has a conflict to explain "
                               "('exactlp sensitivity' and 'exactlp ranges' apply)")
+
+
+def _number_leaves(doc) -> int:
+    if isinstance(doc, dict):
+        return sum(_number_leaves(v) for v in doc.values())
+    if isinstance(doc, list):
+        return sum(_number_leaves(v) for v in doc)
+    if isinstance(doc, str):
+        try:
+            parse_number(doc, _REPORT_LIMITS)
+        except exactlp.InputError:
+            return 0
+        return 1
+    return 0
+
+
+def test_a_sensitivity_report_holds_no_more_numbers_than_its_size_says():
+    # k = 2 (n + m) range ends, each with a certificate of k + 2 numbers, the
+    # optimal certificate, the ends, each limit's value and dual, and the
+    # objective: an upper bound, checked on two cases
+    from exactlp.reports import sensitivity_report, sensitivity_report_size
+
+    for case in ("grants.yaml", "drought.yaml"):
+        m = exactlp.load(CASES / case)
+        doc = sensitivity_report(m, sensitivity(m))
+        k = 2 * (len(m.variables) + len(m.constraints))
+        assert sensitivity_report_size(m) == (k + 1) * (k + 3) + k
+        assert k * k < _number_leaves(doc) <= sensitivity_report_size(m)
+
+
+def test_a_sensitivity_report_past_the_limit_is_refused_before_any_work(cli, tmp_path, monkeypatch):
+    # grants.yaml: 5 variables and 3 constraints, so 17 * 19 + 16 = 339 numbers at most
+    import exactlp.limits
+
+    out = tmp_path / "r.yaml"
+    monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=338))
+    code, stdout, err = cli("sensitivity", CASES / "grants.yaml", "-o", out)
+    assert (code, stdout) == (2, "") and not out.exists()
+    assert err == (f"exactlp: {CASES / 'grants.yaml'}: --output: a sensitivity report of this model (5 variables, "
+                   "3 constraints) would hold about 339 exact numbers, one certificate for each end of each range; "
+                   "the limit is 338 (print the ranges with --json instead)\n")
+    monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=339))
+    code, _, err = cli("sensitivity", CASES / "grants.yaml", "-o", out)
+    assert (code, err) == (0, "") and out.exists()
 
 
 def test_cli_sensitivity_and_conflict_json(cli):
