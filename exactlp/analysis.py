@@ -38,7 +38,7 @@ def _subset(model: Model, rows: set[str], bounded: set[str]) -> Model:
     return replace(model, constraints=cons, variables=vars_, objective=(), objective_constant=Fraction(0), stages=())
 
 
-def conflict(model: Model, **solve_options) -> Conflict:
+def conflict(model: Model, progress=None, **solve_options) -> Conflict:
     """Find a minimal set of constraints and bounds that cannot all hold.
 
     A deletion filter: start from the support of the Farkas certificate (the
@@ -47,7 +47,8 @@ def conflict(model: Model, **solve_options) -> Conflict:
     infeasible (proven by a new Farkas certificate, whose support then
     replaces the working set).  Each member the filter keeps was needed: the
     set without it was solved and found feasible.  So the final set is
-    minimal: removing any one member makes it feasible.
+    minimal: removing any one member makes it feasible.  ``progress``, if given,
+    is called with a line of text before each step (the command line shows it).
     """
     from .solver import Status, solve
 
@@ -74,6 +75,8 @@ def conflict(model: Model, **solve_options) -> Conflict:
         kind, name = item
         if (kind == "constraint" and name not in rows) or (kind == "bound" and name not in bounded):
             continue
+        if progress is not None:
+            progress(f"conflict: {len(rows) + len(bounded)} rules left; trying without {kind} '{name}'")
         trial_rows = rows - {name} if kind == "constraint" else rows
         trial_bounded = bounded - {name} if kind == "bound" else bounded
         r = solve(_subset(model, trial_rows, trial_bounded), **solve_options)
@@ -339,7 +342,7 @@ def fixed_objective_model(model: Model, optimum: Fraction, name: str = "optimal_
     return replace(model, constraints=model.constraints + (row,))
 
 
-def ranges(model: Model, variables: list[str] | None = None, **solve_options) -> Ranges:
+def ranges(model: Model, variables: list[str] | None = None, progress=None, **solve_options) -> Ranges:
     """The exact minimum and maximum of each variable over all optimal solutions.
 
     First pass, no solves: a variable resting on a bound with a nonzero reduced
@@ -349,7 +352,8 @@ def ranges(model: Model, variables: list[str] | None = None, **solve_options) ->
     that holds for every nonbasic column, the optimum is unique (the dual is
     nondegenerate).  Otherwise each undecided variable is minimised and
     maximised exactly with the objective held at its optimum by an equality
-    row; each of those solves carries its own certificate.
+    row; each of those solves carries its own certificate.  ``progress``, if
+    given, is called with a line of text before each of them.
     """
     _single_objective(model)
     from .solver import Status, solve
@@ -390,6 +394,7 @@ def ranges(model: Model, variables: list[str] | None = None, **solve_options) ->
     out: dict[str, VarRange] = {}
     endpoints: dict[str, tuple] = {}
     solves = 1
+    to_solve = 0 if nondegenerate else sum(1 for name in chosen if name not in decided)
     for name in chosen:
         if name in decided:
             out[name] = decided[name]
@@ -397,6 +402,8 @@ def ranges(model: Model, variables: list[str] | None = None, **solve_options) ->
         if nondegenerate:  # the optimum is unique: the range is the point
             out[name] = VarRange(r.primal[name], r.primal[name], "unique optimum")
             continue
+        if progress is not None:
+            progress(f"ranges: '{name}', {len(endpoints) + 1} of {to_solve} to solve (two exact solves each)")
         ends = []
         probes = []
         for sense in ("minimize", "maximize"):

@@ -14,6 +14,7 @@ Exit codes, the same for every command:
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import signal
@@ -101,6 +102,19 @@ def _console(stderr: bool = False):
     console = Console(stderr=stderr, highlight=False, soft_wrap=False, emoji=False)
     console.on_broken_pipe = _reader_gone  # (rich's own would exit 1: ours means "invalid")
     return console
+
+
+@contextlib.contextmanager
+def _progress(as_json: bool):
+    """A live one-line status on stderr for the analysis commands, on terminals
+    only (their exact solves and report checks can run for minutes on large
+    models); yields the function that updates it, which does nothing elsewhere."""
+    err = _console(stderr=True)
+    if as_json or not err.is_terminal:
+        yield lambda text: None
+        return
+    with err.status("working…") as status:
+        yield lambda text: status.update(text)
 
 
 def _reader_gone() -> None:
@@ -522,12 +536,13 @@ def trace(
         trace_report(_console(), read_log(log), pivot, rows)
 
 
-def _write_report(model_path: str, m, doc: dict, output: str) -> None:
+def _write_report(model_path: str, m, doc: dict, output: str, say=lambda text: None) -> None:
     """Check a report as a reviewer would, then write it atomically."""
     from .certificate import dump_certificate
     from .io.atomic import write_atomic
     from .report_check import check_report
 
+    say(f"checking the report as a reviewer would, then writing {output}")
     v = check_report(m, doc)
     if not v.valid:  # our own report fails its check: a bug, never written
         raise RuntimeError(f"the report failed its check: {v.failure.detail}")
@@ -564,11 +579,14 @@ def sensitivity(
             from .reports import check_report_size
 
             check_report_size(m)
-        s = run_sensitivity(m)
-        if output is not None:
-            from .reports import sensitivity_report
+        with _progress(as_json) as say:
+            say("sensitivity: solving the model")
+            s = run_sensitivity(m)
+            if output is not None:
+                from .reports import sensitivity_report
 
-            _write_report(model, m, sensitivity_report(m, s), output)
+                say("sensitivity: a certificate for each end of each range")
+                _write_report(model, m, sensitivity_report(m, s), output, say)
         if as_json:
             doc = {
                 "model": {"name": m.name, "fingerprint": m.fingerprint},
@@ -603,11 +621,13 @@ def ranges_(
 
         _check_output(output, model)
         m = _load(model)
-        rg = run_ranges(m, variables or None)
-        if output is not None:
-            from .reports import ranges_report
+        with _progress(as_json) as say:
+            say("ranges: solving the model")
+            rg = run_ranges(m, variables or None, progress=say)
+            if output is not None:
+                from .reports import ranges_report
 
-            _write_report(model, m, ranges_report(m, rg), output)
+                _write_report(model, m, ranges_report(m, rg), output, say)
         if as_json:
             doc = {
                 "model": {"name": m.name, "fingerprint": m.fingerprint},
@@ -643,11 +663,13 @@ def conflict(
 
         _check_output(output, model)
         m = _load(model)
-        c = run_conflict(m)
-        if output is not None:
-            from .reports import conflict_report
+        with _progress(as_json) as say:
+            say("conflict: solving the model")
+            c = run_conflict(m, progress=say)
+            if output is not None:
+                from .reports import conflict_report
 
-            _write_report(model, m, conflict_report(m, c), output)
+                _write_report(model, m, conflict_report(m, c), output, say)
         if as_json:
             doc = {
                 "model": {"name": m.name, "fingerprint": m.fingerprint},

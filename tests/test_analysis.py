@@ -12,6 +12,7 @@ from fractions import Fraction as F
 import pytest
 
 import exactlp
+import exactlp.analysis
 import exactlp.limits
 from exactlp.analysis import Interval, conflict, sensitivity
 from exactlp.io import model_from_text
@@ -217,6 +218,21 @@ def test_cli_sensitivity_and_conflict_json(cli):
 def test_analysis_of_a_model_without_an_optimum_names_the_file_and_what_to_do(cli, command, case, expect):
     code, out, err = cli(command, CASES / case)
     assert (code, out, err) == (2, "", f"exactlp: {CASES / case}: {expect}\n")
+
+
+def test_the_analyses_say_what_they_are_doing_before_each_exact_solve():
+    # the command line shows these lines on a terminal while the solves run
+    said: list[str] = []
+    rg = exactlp.analysis.ranges(model_from_text(ALTERNATIVE), progress=said.append)
+    assert said == ["ranges: 'x', 1 of 2 to solve (two exact solves each)",
+                    "ranges: 'y', 2 of 2 to solve (two exact solves each)"]
+    assert rg.solves == 5
+    said.clear()
+    c = conflict(exactlp.load(CASES / "grants_overcommitted.yaml"), progress=said.append)
+    assert said == [f"conflict: 5 rules left; trying without {kind} '{name}'" for kind, name in (
+        ("constraint", "fund"), ("constraint", "uplands_floor"), ("constraint", "metro_floor"),
+        ("bound", "north"), ("bound", "coast"))]
+    assert c.solves == 7
 
 
 ALTERNATIVE = "maximize: x + y\nvariables: {x: {upper: 3}, y: {upper: 3}}\nconstraints:\n  cap: x + y <= 4\n"
