@@ -19,6 +19,7 @@ import exactlp
 from exactlp.io import model_from_text
 from exactlp.solver import dual as dual_module
 from exactlp.solver import simplex as simplex_module
+from exactlp.solver import rows as rows_module
 from exactlp.solver.events import Pivot, Start
 
 from .conftest import needs_netlib
@@ -322,6 +323,7 @@ def test_same_model_same_log_byte_for_byte(tmp_path):
 def test_the_column_states_are_the_pivot_loops_own():
     codes = ("BASIC", "AT_LOWER", "AT_UPPER", "AT_ZERO")
     assert [getattr(dual_module, c) for c in codes] == [getattr(simplex_module, c) for c in codes]
+    assert rows_module.BASIC == simplex_module.BASIC
 
 
 def test_the_plain_dual_ratio_test_skips_only_what_cannot_win():
@@ -387,7 +389,7 @@ def rows_both_ways():
     within one test function, so a fixture's patch would pile up.)"""
     pytest.importorskip("numpy")
     original = simplex_module.Simplex._tableau_row
-    threshold = simplex_module.NUMPY_ROW_NONZEROS
+    threshold = rows_module.NUMPY_ROW_NONZEROS
     seen = {"rows": 0, "by_numpy": 0}
 
     def both(self, p):
@@ -403,13 +405,13 @@ def rows_both_ways():
         seen["by_numpy"] += used
         return fast
 
-    simplex_module.NUMPY_ROW_NONZEROS = 0
+    rows_module.NUMPY_ROW_NONZEROS = 0
     simplex_module.Simplex._tableau_row = both
     try:
         yield seen
     finally:
         simplex_module.Simplex._tableau_row = original
-        simplex_module.NUMPY_ROW_NONZEROS = threshold
+        rows_module.NUMPY_ROW_NONZEROS = threshold
 
 
 @settings(max_examples=80, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
@@ -433,7 +435,7 @@ def test_tableau_row_sums_past_64_bits_go_by_limbs_then_by_the_loops(monkeypatch
     # in Python integers; past ROW_LIMBS_MOST limbs (2^400 here) the function
     # declines (None) and the loops make the row
     pytest.importorskip("numpy")
-    monkeypatch.setattr(simplex_module, "NUMPY_ROW_NONZEROS", 0)
+    monkeypatch.setattr(rows_module, "NUMPY_ROW_NONZEROS", 0)
     from exactlp.solver.form import build_form
 
     m = model_from_text(FLIPS)
@@ -487,7 +489,7 @@ def test_tableau_rows_by_limbs_on_netlib(name):
 def limbs_of(bits: int):
     """Limbs of ``bits`` bits, as many as a row needs; yields how many rows went
     by limbs and how many limbs they took (read off R as the function sees it)."""
-    saved = simplex_module.ROW_LIMB_BITS, simplex_module.ROW_LIMBS_MOST, simplex_module.Simplex._np_rows
+    saved = rows_module.ROW_LIMB_BITS, rows_module.ROW_LIMBS_MOST, simplex_module.Simplex._np_rows
     cut = {"rows": 0, "limbs": 0}
     original = simplex_module.Simplex._np_rows
 
@@ -504,9 +506,9 @@ def limbs_of(bits: int):
             return fn(big, p)
         return wrapped
 
-    simplex_module.ROW_LIMB_BITS, simplex_module.ROW_LIMBS_MOST = bits, 10**6
+    rows_module.ROW_LIMB_BITS, rows_module.ROW_LIMBS_MOST = bits, 10**6
     simplex_module.Simplex._np_rows = counting
     try:
         yield cut
     finally:
-        simplex_module.ROW_LIMB_BITS, simplex_module.ROW_LIMBS_MOST, simplex_module.Simplex._np_rows = saved
+        rows_module.ROW_LIMB_BITS, rows_module.ROW_LIMBS_MOST, simplex_module.Simplex._np_rows = saved

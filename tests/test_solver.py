@@ -628,7 +628,7 @@ def test_partial_pricing_follows_the_rule_exactly():
 def test_dual_ints_are_the_duals_over_their_common_denominator():
     from gmpy2 import mpq, mpz
 
-    from exactlp.solver.simplex import DUAL_INTS_SLACK, _dual_ints
+    from exactlp.solver.rows import DUAL_INTS_SLACK, _dual_ints
 
     y = [mpq(1, 6), mpq(0), mpq(-5, 4), mpq(7)]
     ys, d = _dual_ints(y)
