@@ -391,6 +391,7 @@ def ranges(model: Model, variables: list[str] | None = None, progress=None, **so
     from .floatlp import BasisHint
 
     start = BasisHint.of_result(r, n, len(model.constraints), added_rows=1, source="optimum of the model")
+    probes_of = None  # factored once, on the first probe to solve
     out: dict[str, VarRange] = {}
     endpoints: dict[str, tuple] = {}
     solves = 1
@@ -408,7 +409,11 @@ def ranges(model: Model, variables: list[str] | None = None, progress=None, **so
         probes = []
         for sense in ("minimize", "maximize"):
             probe = replace(fixed, sense=Sense(sense), objective=((name, Fraction(1)),), objective_constant=Fraction(0))
-            pr = solve(probe, **solve_options, start_basis=start)
+            if probes_of is None:
+                from .solver import ObjectiveProbes
+
+                probes_of = ObjectiveProbes(fixed, start, **solve_options)
+            pr = probes_of.solve(probe)
             probes.append((probe, pr))
             solves += 1
             if pr.status is Status.OPTIMAL:

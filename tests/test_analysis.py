@@ -19,7 +19,7 @@ from exactlp.io import model_from_text
 from exactlp.model import Constraint
 from exactlp.numbers import parse_number
 
-from .conftest import CASES
+from .conftest import CASES, NETLIB, needs_netlib
 from .helpers import scipy_solve, sympy_solve
 
 _REPORT_LIMITS = exactlp.limits.Limits(max_number_chars=200_000)
@@ -480,3 +480,129 @@ def test_sensitivity_report_certificates_equal_the_direct_construction(case):
         for part in ("primal", "activities", "duals", "reduced_costs"):
             assert id(cert[part]) not in seen
             seen.add(id(cert[part]))
+
+
+# -- probes that share one start ---------------------------------------------
+# The probes of allocation ranges differ only in their objective, so their start
+# (the parent's optimal basis plus the held row's logical) is factored and checked
+# once (solver.ObjectiveProbes).  These check that each probe's result is the one
+# a solve of its own from the same start gives, field for field, pivot for pivot.
+
+def _same_but_time(a, b) -> dict:
+    import dataclasses
+
+    return {f.name: (getattr(a, f.name), getattr(b, f.name)) for f in dataclasses.fields(a)
+            if f.name != "seconds" and getattr(a, f.name) != getattr(b, f.name)}
+
+
+def _probe_pairs(model, limit=None):
+    """(probe, shared-start result, own-start result) for each variable and sense."""
+    from exactlp.analysis import fixed_objective_model
+    from exactlp.floatlp import BasisHint
+    from exactlp.model import Sense
+    from exactlp.solver import ObjectiveProbes
+
+    r = exactlp.solve(model, warm_start=False)
+    fixed = fixed_objective_model(model, r.objective)
+    start = BasisHint.of_result(r, len(model.variables), len(model.constraints), added_rows=1)
+    shared = ObjectiveProbes(fixed, start, warm_start=False)
+    for v in model.variables[:limit]:
+        for sense in ("minimize", "maximize"):
+            probe = replace(fixed, sense=Sense(sense), objective=((v.name, F(1)),), objective_constant=F(0))
+            yield probe, shared.solve(probe), exactlp.solve(probe, start_basis=start)
+
+
+@settings(max_examples=120, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@given(lp_models(max_vars=5, max_rows=4))
+def test_probes_from_a_shared_start_are_the_solves_from_their_own(model):
+    if exactlp.solve(model, warm_start=False).status.value != "optimal":
+        return
+    for probe, got, own in _probe_pairs(model):
+        assert _same_but_time(got, own) == {}
+        assert got.warm_start == "accepted: the suggested basis is exactly primal feasible"
+        if got.status.value == "optimal":
+            assert type(got.objective) is F
+        assert exactlp.verify(probe, exactlp.build_certificate(probe, got)).valid
+
+
+def test_probes_that_pivot_leave_the_shared_start_as_it_was():
+    # ALTERNATIVE's probes pivot away from the start (its optimum is not unique);
+    # solving them twice over, in either order, gives the same results, so no
+    # probe's pivots reached the factorisation the next one copies
+    m = model_from_text(ALTERNATIVE)
+    first = [(p, got) for p, got, _ in _probe_pairs(m)]
+    assert any(got.iterations > 0 for _, got in first)
+    from exactlp.analysis import fixed_objective_model
+    from exactlp.floatlp import BasisHint
+    from exactlp.solver import ObjectiveProbes
+
+    r = exactlp.solve(m, warm_start=False)
+    fixed = fixed_objective_model(m, r.objective)
+    shared = ObjectiveProbes(fixed, BasisHint.of_result(r, 2, 1, added_rows=1))
+    for probe, got in reversed(first):  # rebuilt probes share the fixed model's rows
+        again = shared.solve(replace(fixed, sense=probe.sense, objective=probe.objective))
+        assert _same_but_time(again, got) == {}
+    assert {(p.objective[0][0], p.sense.value): got.objective for p, got in first} == {
+        ("x", "minimize"): F(1), ("x", "maximize"): F(3), ("y", "minimize"): F(1), ("y", "maximize"): F(3)}
+
+
+def test_probes_fall_back_to_their_own_solve_when_nothing_can_be_shared():
+    from exactlp.analysis import fixed_objective_model
+    from exactlp.errors import InputError
+    from exactlp.floatlp import BasisHint
+    from exactlp.solver import ObjectiveProbes
+
+    m = model_from_text(ALTERNATIVE)
+    r = exactlp.solve(m, warm_start=False)
+    fixed = fixed_objective_model(m, r.objective)
+    good = BasisHint.of_result(r, 2, 1, added_rows=1)
+    # a probe with other rows is solved on its own, from the same start
+    other = model_from_text(ALTERNATIVE.replace("x + y <= 4", "x + y <= 5"))
+    got = ObjectiveProbes(fixed, good).solve(other)
+    # (the start names the held row's logical, a column this model does not have)
+    assert got.objective == 5 and got.warm_start == "rejected: the suggested basis names a column the model does not have"
+    # a start that is not accepted as it stands: every probe is solved in full
+    short = BasisHint(good.basic[:-1], frozenset(), "test", "exact")
+    probes = ObjectiveProbes(fixed, short)
+    assert probes._state is None
+    got = probes.solve(replace(fixed, objective=(("x", F(1)),)))  # (maximised, as the model is)
+    assert got.objective == 3 and got.warm_start == "rejected: the suggested basis does not have one column per row"
+    with pytest.raises(InputError) as e:
+        ObjectiveProbes(fixed, (0, 1))
+    assert (e.value.field, e.value.message) == ("start_basis", "must be a BasisHint, not tuple")
+    with pytest.raises(InputError) as e:
+        ObjectiveProbes(fixed, good, pricing="fastest")
+    assert e.value.field == "pricing" and e.value.message.startswith("unknown pricing rule 'fastest'")
+
+
+def test_a_basis_copy_is_only_for_one_not_yet_updated():
+    from gmpy2 import mpq
+
+    from exactlp.solver.basis import factor_ft
+
+    cols = [[(0, mpq(2)), (1, mpq(1))], [(0, mpq(1)), (1, mpq(3))], [(0, mpq(-1))], [(1, mpq(-1))]]
+    unit_row = {2: (0, -1), 3: (1, -1)}
+    b, head = factor_ft(2, [0, 1], cols, unit_row)
+    b.make_rows()
+    twin = b.fresh_copy()
+    assert twin.lsteps is b.lsteps and twin._urows is not b._urows and twin._urows == b._urows
+    p = head.index(0)
+    w = twin.ftran(cols[2])
+    twin.replace(p, w, cols[2])  # column 0 leaves for the first logical, in the copy only
+    assert twin.rsteps or twin._dicts
+    assert b.ftran([(0, mpq(1))]) == {head.index(0): mpq(3, 5), head.index(1): mpq(-1, 5)}
+    with pytest.raises(ValueError, match="only a basis not yet updated can be copied"):
+        twin.fresh_copy()
+
+
+@needs_netlib
+def test_shared_start_probes_on_adlittle_match_their_own_solves():
+    # a real model with a degenerate optimum (source of the data: the Netlib LP set)
+    from exactlp.io.mps import read_mps
+
+    m = read_mps(NETLIB / "adlittle.mps.gz")
+    pivoted = 0
+    for probe, got, own in _probe_pairs(m, limit=40):
+        assert _same_but_time(got, own) == {}
+        pivoted += got.iterations > 0
+    assert pivoted > 0

@@ -12,10 +12,13 @@ import gc
 import sys
 import threading
 import time
+from dataclasses import replace
 from fractions import Fraction
 
+from gmpy2 import mpq
+
 from ..errors import InputError
-from ..model import Model
+from ..model import Model, Sense
 from .events import Finish, PhaseEnd, Pivot, Start, WarmStart
 from .form import ZERO, build_form, frac
 from .result import SolveResult, Status, frozen_map
@@ -24,7 +27,7 @@ from .simplex import PRICING_RULES, REFINE_MAX_ROWS, Simplex
 #: the interpreter's switch interval (seconds) while work is done beside HiGHS
 FILL_SWITCH_INTERVAL = 0.0002
 
-__all__ = ["solve", "SolveResult", "Status", "PRICING_RULES", "Start", "Pivot", "PhaseEnd", "Finish"]
+__all__ = ["solve", "ObjectiveProbes", "SolveResult", "Status", "PRICING_RULES", "Start", "Pivot", "PhaseEnd", "Finish"]
 
 
 _gc_lock = threading.Lock()
@@ -211,6 +214,11 @@ def _solve(model, pricing, iteration_limit, time_limit, listener, tableau, shoul
     if pending is not None and hint is None and pending.reason:
         # asked for, but no suggestion came: said in the log and the result, not silently "off"
         sx.warm = WarmStart("highs", pending.float_status, False, pending.reason)
+    return _run(model, form, sx, pricing, time_limit, started)
+
+
+def _run(model, form, sx: Simplex, pricing, time_limit, started) -> SolveResult:
+    """Run the pivot loop and turn its exact outcome into the model's result."""
     if time_limit is not None:
         sx.time_limit = max(time_limit - (time.monotonic() - started), 0.0)
     out = sx.run()
@@ -277,3 +285,54 @@ def _solve(model, pricing, iteration_limit, time_limit, listener, tableau, shoul
     elif status is Status.UNBOUNDED:
         extra["ray"] = frozen_map({vnames[j]: frac(v) for j, v in sorted(out.ray.items()) if j < n and v})
     return SolveResult(status=status, seconds=time.monotonic() - started, **common, **extra)
+
+
+class ObjectiveProbes:
+    """Exact solves of one model's rows and bounds under other objectives, all
+    from one starting basis that is factored and checked once.
+
+    ``solve(probe)`` gives what ``solve(probe, start_basis=start, **options)``
+    gives, pivot for pivot (the start's factorisation, basic values and
+    feasibility do not depend on the costs, so they are worked out once, and
+    each probe pivots on its own copy), for any ``probe`` that shares ``model``'s
+    variables and constraints; a probe that does not, or a start that is not
+    accepted as it stands, is simply solved in full.  Allocation ranges make
+    two such solves per variable (BANDM: 608).
+    """
+
+    def __init__(self, model: Model, start, **options) -> None:
+        from ..floatlp import BasisHint
+
+        if not isinstance(start, BasisHint):
+            raise InputError(f"must be a BasisHint, not {type(start).__name__}", field="start_basis")
+        options.pop("warm_start", None)  # a start is given: no float solve either way
+        _check_options(options.get("pricing", "guarded"), options.get("iteration_limit"), options.get("time_limit"))
+        self.model, self.start, self.options = model, start, options
+        self._state = None
+        self._form = build_form(model)
+        if self._form.crossed is None:
+            sx = Simplex(self._form, pricing=options.get("pricing", "guarded"), hint=start)
+            self._state = sx.start_state()
+
+    def solve(self, probe: Model) -> SolveResult:
+        base, st = self.model, self._state
+        if st is None or probe.variables is not base.variables or probe.constraints is not base.constraints:
+            return solve(probe, start_basis=self.start, **self.options)
+        started = time.monotonic()
+        f = self._form
+        index = {v.name: j for j, v in enumerate(probe.variables)}
+        sign = 1 if probe.sense is Sense.MINIMIZE else -1
+        cost = [ZERO] * f.ncols
+        for name, c in probe.objective:
+            cost[index[name]] = mpq(c.numerator, c.denominator) * sign
+        form = replace(f, cost=cost, sign=sign, constant=mpq(probe.objective_constant.numerator,
+                                                             probe.objective_constant.denominator))
+        o = self.options
+        pricing = o.get("pricing", "guarded")
+        sx = Simplex(form, pricing=pricing, iteration_limit=o.get("iteration_limit"),
+                     time_limit=o.get("time_limit"), listener=o.get("listener"), tableau=o.get("tableau", False),
+                     should_stop=o.get("should_stop"), start=st)
+        try:
+            return _run(probe, form, sx, pricing, o.get("time_limit"), started)
+        finally:
+            sx.keep_caches(st)

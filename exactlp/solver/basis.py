@@ -22,6 +22,7 @@ acceptable pivot, so the order aims purely at sparsity.
 
 from __future__ import annotations
 
+import copy
 import heapq
 from collections import deque
 
@@ -317,6 +318,33 @@ class LUBasis(EtaBasis):
         self.det = det
         self._set_scale()
 
+    def fresh_copy(self) -> "LUBasis":
+        """A copy of this factorisation to pivot on independently of it.
+
+        Only for a basis not yet updated.  The factors are shared: an update
+        never changes ``lsteps`` or the lists of ``ucols`` in place (the first
+        one replaces them, see :meth:`FTBasis._to_dicts`), and the rows of L
+        are only read; U's rows, which an update keeps in step in place, and
+        the lists of updates are the copy's own.  So several solves that start
+        from one basis (the probes of allocation ranges) factor it once.
+        """
+        if self.etas or getattr(self, "rsteps", None) or getattr(self, "_dicts", False):
+            raise ValueError("only a basis not yet updated can be copied")
+        twin = copy.copy(self)
+        twin.signs = list(self.signs)
+        twin.etas = []
+        if self._urows is not None:
+            twin._urows = [dict(row) for row in self._urows]
+        return twin
+
+    def make_rows(self) -> None:
+        """Make the factors' rows now (what the first transposed solve would),
+        so that copies made after this share them (see :meth:`fresh_copy`)."""
+        if self._urows is None:
+            self._urows = _rows_of_upper(self.m, self.ucols)
+        if self._lrows is None:
+            self._lrows = _rows_of_lower(self.m, self.lsteps)
+
     # -- kernels, shared with FTBasis (a column's ``above`` entries are a list
     # here and a dictionary by row there once it has been updated) ---------
     def _lower(self, col) -> dict[int, mpq]:
@@ -455,6 +483,12 @@ class FTBasis(LUBasis):
         # column's entries above the diagonal into a dictionary by row, so that an
         # update finds row p in a column without reading the whole column.
         self._dicts = False
+
+    def fresh_copy(self) -> "FTBasis":
+        twin = LUBasis.fresh_copy(self)
+        twin.rsteps = []
+        twin._last = None
+        return twin
 
     def _to_dicts(self) -> None:
         self.ucols = [(r, ukk, dict(above)) for r, ukk, above in self.ucols]

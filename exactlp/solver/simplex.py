@@ -196,6 +196,23 @@ class Outcome:
     d: list[mpq | None] | None = None
 
 
+@dataclass
+class StartState:
+    """An accepted starting basis, factored once, for solves that differ only in
+    their costs (see :meth:`Simplex.start_state` and :meth:`Simplex._adopt`)."""
+
+    form: Form
+    x: list
+    state: list
+    head: list
+    pos_of: list
+    unit_row: dict
+    basis: object  # never pivoted on: each solve pivots on its own fresh copy
+    warm: WarmStart
+    #: the matrix by rows and as integers, as the first solves make them
+    caches: dict
+
+
 class Simplex(DualPhase, TableauRows):
     #: tests set this to recompute the reduced costs after every update and compare
     check_updates = False
@@ -214,6 +231,7 @@ class Simplex(DualPhase, TableauRows):
         allow_repair: bool = True,
         refine: bool = False,
         integer_columns=None,
+        start: "StartState | None" = None,
     ) -> None:
         if pricing not in PRICING_RULES:
             raise ValueError(pricing)
@@ -258,6 +276,9 @@ class Simplex(DualPhase, TableauRows):
         #: the columns as integers, for refinement (refine.IntegerColumns), made
         #: ahead by the caller if it had the time
         self.integer_columns = integer_columns
+        if start is not None:
+            self._adopt(start)
+            return
         if hint is not None:
             reason = self._setup_warm(hint)
             if reason is None and self.repair:
@@ -337,6 +358,45 @@ class Simplex(DualPhase, TableauRows):
         for p, c in enumerate(head):
             self.pos_of[c] = p
         return None
+
+    _CACHES = ("_rows_cache", "_int_cols_cache", "_frac_cols_cache", "_int_rows_cache", "_np_rows_cache")
+
+    def start_state(self) -> "StartState | None":
+        """This solve's start, for other solves of the same rows and bounds under
+        other costs; None unless it is a suggested basis accepted as it stands
+        (factored, exactly primal feasible, no repair), before any pivot."""
+        if (self.warm is None or not self.warm.accepted or self.repair or self._basis is None
+                or self.artificials or self.iterations or self.dual_cost is not None):
+            return None
+        self._basis.make_rows()
+        return StartState(self.f, list(self.x), list(self.state), list(self.head), list(self.pos_of),
+                          dict(self.unit_row), self._basis, self.warm, {})
+
+    def _adopt(self, st: "StartState") -> None:
+        """Start where ``st`` was taken, under this form's costs (see :class:`StartState`).
+
+        What :meth:`_setup_warm` would find for the same suggestion, since none of
+        it depends on the costs: the same factorisation (a copy), the same basic
+        values.  Dual feasibility is decided by phase 2's pricing as always."""
+        f = self.f
+        if (f.m, f.ncols) != (st.form.m, st.form.ncols) or f.lower != st.form.lower or f.upper != st.form.upper:
+            raise ValueError("a start state is for a form with the same rows, columns and bounds")
+        self.x, self.state, self.head = list(st.x), list(st.state), list(st.head)
+        self.pos_of, self.unit_row = list(st.pos_of), dict(st.unit_row)
+        self.repair = {}
+        self.basis = st.basis.fresh_copy()
+        self.warm = st.warm
+        for name, value in st.caches.items():
+            setattr(self, name, value)
+
+    def keep_caches(self, st: "StartState") -> None:
+        """Hand the matrix's copies this solve made (by rows, as integers) to
+        ``st``, for the next solve that adopts it (the columns are the same)."""
+        ncol = st.form.ncols
+        for name in self._CACHES:
+            got = getattr(self, name)
+            if got is not None and got[0] == ncol and name not in st.caches:
+                st.caches[name] = got
 
     def _setup_refined(self, head: list[int], rhs: dict, x: list, state: list, unit_row: dict):
         """Check a suggested basis without factoring it (see :mod:`.refine`).
