@@ -560,7 +560,7 @@ def _interval(iv) -> dict:
 @app.command()
 def sensitivity(
     model: str = typer.Argument(..., metavar="MODEL", help="Model file (.yaml, .mps or .mps.gz)."),
-    output: Optional[str] = typer.Option(None, "-o", "--output", metavar="REPORT", help="Write a report with a certificate for every claim."),
+    output: Optional[str] = typer.Option(None, "-o", "--output", metavar="REPORT", help="Write a report with the proof of every claim."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
     rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
@@ -575,17 +575,13 @@ def sensitivity(
 
         _check_output(output, model)
         m = _load(model)
-        if output is not None:  # (refused before the analysis, not after it)
-            from .reports import check_report_size
-
-            check_report_size(m)
         with _progress(as_json) as say:
             say("sensitivity: solving the model")
             s = run_sensitivity(m)
             if output is not None:
                 from .reports import sensitivity_report
 
-                say("sensitivity: a certificate for each end of each range")
+                say("sensitivity: the report, each range with its direction")
                 _write_report(model, m, sensitivity_report(m, s), output, say)
         if as_json:
             doc = {

@@ -31,11 +31,10 @@ class Limits:
     #: most characters in one number of a certificate or log (exact solutions are
     #: ratios of basis determinants and legitimately run to thousands of digits)
     max_result_number_chars: int = 200_000
-    #: most exact numbers in a sensitivity report written to a file: it holds a
-    #: whole certificate (2 (n + m) + 2 numbers) for each of the 2 (n + m) range ends,
-    #: so it grows with the square of the model (BANDM, n + m = 777: 2.4 million
-    #: numbers, 228 MB, about 1 GB of memory while written); past this, refused
-    #: before any work rather than run out of memory
+    #: most exact numbers in a sensitivity report written to a file: the optimal
+    #: certificate and each range's direction (dense directions make it grow with
+    #: the square of the model: at most about (n + m) m; BANDM's holds 64,121
+    #: numbers, 13 MB); past this, refused before anything is written
     max_report_numbers: int = 10_000_000
 
 

@@ -1,4 +1,4 @@
-"""Checking reports (conflict, ranges) from the model alone.
+"""Checking reports (conflict, ranges, sensitivity) from the model alone.
 
 Like :mod:`exactlp.verifier`, on which it builds, this imports nothing from the
 solver and works in ``fractions.Fraction``.  Each claim is re-derived:
@@ -18,16 +18,26 @@ ranges
     proven when the equations every optimum must meet (``x_j`` at its bound where
     ``d_j != 0``, row ``i`` at its side where ``y_i != 0``, every equality row, and
     fixed variables) have exactly one solution.
+sensitivity
+    the model's optimal certificate is valid; each end of an objective range
+    is re-proven with the same allocation and the duals moved along the
+    range's ``dual_direction`` (at an infinite end, for ``+-x_j`` alone), and
+    each end of a limit's range with the allocation moved along its
+    ``allocation_direction`` and the same duals (a relaxed row, or a direction
+    the allocation follows without end); each proof checks the verifier's
+    conditions where the variant differs from the verified optimum (see
+    :func:`_sensitivity`).
 """
 
 from __future__ import annotations
 
 from dataclasses import replace
 from fractions import Fraction
+from math import lcm
 
 from .model import Constraint, Model, Sense
 from .numbers import format_number as fmt, parse_number
-from .verifier import Check, Verification, verify
+from .verifier import Check, Verification, _over_common, verify
 
 
 class _Bad(Exception):
@@ -170,72 +180,216 @@ def _ranges(model: Model, rep: dict, checks: list) -> str:
     return "its ranges over the optimal set"
 
 
-def _sensitivity(model: Model, rep: dict, checks: list) -> str:
-    from .reports import only_variable, with_coefficient, with_side
+def _exact(text, where) -> Fraction:
+    got = _n(text, where)
+    if got is None:
+        raise _Bad(f"{where}: expected an exact number as a string, found {text!r}")
+    return got
 
+
+def _direction(raw, names, where: str) -> dict:
+    """A sparse vector, name -> exact number, over ``names``."""
+    if not isinstance(raw, dict):
+        raise _Bad(f"{where}: expected a mapping of names to exact numbers, found {raw!r}")
+    for k in raw:
+        if k not in names:
+            raise _Bad(f"{where}: '{k}' is not in the model")
+    return {k: _exact(v, f"{where}.{k}") for k, v in raw.items()}
+
+
+def _lcm_of(terms) -> int | None:
+    """The least common multiple of the coefficients' denominators, or None if it
+    would be long (many different primes: a hostile model's copy must not grow)."""
+    e, cap = 1, 64 + 2 * max((a.denominator.bit_length() for _, a in terms), default=0)
+    for _, a in terms:
+        if (e := lcm(e, a.denominator)).bit_length() > cap:
+            return None
+    return e
+
+
+def _scaled(terms, scale: dict) -> list:
+    """Each coefficient ``a`` of the entry for ``o`` as the whole ``a scale[o]``
+    (kept as it is where ``o`` has no scale)."""
+    return [(o, a) if scale[o] is None else (o, a.numerator * (scale[o] // a.denominator)) for o, a in terms]
+
+
+def _times(vec: dict, lines: dict, scale: dict) -> dict:
+    """The sparse product ``sum_k vec_k line_k``, entry ``o`` divided by ``scale[o]``
+    (``lines`` from :func:`_scaled`).  Summed over the common denominator ``L`` of
+    ``vec`` as the verifier sums: ``L vec`` is whole, so every product is of
+    integers, and each entry is divided once, by ``L scale[o]``."""
+    vs, big = _over_common(vec)
+    whole = big != 1 or all(vk.denominator == 1 for vk in vs.values())
+    acc: dict = {}
+    for k, vk in vs.items():
+        if vk:
+            if whole:
+                vk = vk.numerator
+            for o, a in lines[k]:
+                acc[o] = acc.get(o, 0) + vk * a
+    return {o: Fraction(t) / (big * (scale[o] or 1)) for o, t in acc.items()}
+
+
+def _term(val: Fraction, lo, hi, s: int, what: str) -> Fraction:
+    """The verifier's dual-objective term: ``val`` times the side its sign selects
+    (minimising, a positive multiplier rests on the lower side), which must be finite."""
+    if not val:
+        return Fraction(0)
+    rests_low = (val > 0) == (s > 0)
+    side = lo if rests_low else hi
+    if side is None:
+        raise _Bad(f"{what} is {fmt(val)}, which needs a finite {'lower' if rests_low else 'upper'} "
+                   f"side, and it has none")
+    return val * side
+
+
+def _sensitivity(model: Model, rep: dict, checks: list) -> str:
+    """Each range end re-proven from the verified optimum and the range's direction.
+
+    The optimal certificate is verified in full first: ``x`` is feasible,
+    ``d = c - A^T y``, every nonzero multiplier rests on a finite side of the
+    right sign, and ``c0 + sum(terms) = c^T x + c0 = z``.  A range end is a
+    variant of the model (one coefficient or one side moved) with a point and
+    duals built from the direction.  Those conditions are then checked again
+    only where the variant differs from the model (the moved coefficient or
+    side, the entries the direction moves); everywhere else the point, the
+    multipliers and the sides are the verified ones, so they still hold.  With
+    the variant's gap recomputed from the changed terms, that is the verifier's
+    proof of optimality for each variant, at the cost of the direction's entries.
+    """
     base = rep.get("certificate") or {}
     if _cert(model, base, "the optimum", checks).status != "optimal":
         raise _Bad("the sensitivity report needs an optimal certificate")
-    x = {k: _n(v, f"primal.{k}") for k, v in (base.get("primal") or {}).items()}
-    y = {k: _n(v, f"duals.{k}") for k, v in (base.get("duals") or {}).items()}
-    z = _n(base.get("objective"), "objective")
-
-    def same_point(cert, what):
-        got = {k: _n(v, k) for k, v in (cert.get("primal") or {}).items()}
-        if got != x:
-            raise _Bad(f"{what}: the certificate is about another allocation")
-
+    # all present and exact: the verifier has just read them
+    x = {k: _exact(v, f"primal.{k}") for k, v in base["primal"].items()}
+    act = {k: _exact(v, f"activities.{k}") for k, v in base["activities"].items()}
+    y = {k: _exact(v, f"duals.{k}") for k, v in base["duals"].items()}
+    d = {k: _exact(v, f"reduced_costs.{k}") for k, v in base["reduced_costs"].items()}
+    z = _exact(base.get("objective"), "objective")
+    if _n(rep.get("objective"), "objective") != z:
+        raise _Bad("objective: the report and its certificate differ")
+    s = 1 if model.sense is Sense.MINIMIZE else -1
+    rows = {c.name: c for c in model.constraints}
+    variables = {v.name: v for v in model.variables}
+    cols: dict = {n: [] for n in variables}
+    for c in model.constraints:
+        for n, a in c.terms:
+            cols[n].append((c.name, a))
+    # A by rows and by columns in whole numbers: for A^T w each entry a_in times
+    # its column's least common denominator, for A v times its row's, so that
+    # the products below are of integers, each sum divided once
+    row_scale = {r: _lcm_of(c.terms) for r, c in rows.items()}
+    col_scale = {n: _lcm_of(col) for n, col in cols.items()}
+    a_t_lines = {r: _scaled(c.terms, col_scale) for r, c in rows.items()}
+    a_lines = {n: _scaled(col, row_scale) for n, col in cols.items()}
+    row_term = {r: _term(y[r], c.lower, c.upper, s, "") for r, c in rows.items()}
+    var_term = {n: _term(d[n], v.lower, v.upper, s, "") for n, v in variables.items()}
+    dual_total = model.objective_constant + sum(row_term.values(), Fraction(0)) + sum(var_term.values(), Fraction(0))
     cost = dict(model.objective)
+
     for name, e in (rep.get("objective_ranges") or {}).items():
-        if name not in {v.name for v in model.variables} or not isinstance(e, dict):
+        if name not in variables or not isinstance(e, dict):
             raise _Bad(f"objective_ranges: '{name}' is not a variable of the model")
-        lo, hi = _n(e.get("lower"), f"{name}.lower"), _n(e.get("upper"), f"{name}.upper")
+        where = f"objective_ranges.{name}"
+        lo, hi = _n(e.get("lower"), f"{where}.lower"), _n(e.get("upper"), f"{where}.upper")
         cj = cost.get(name, Fraction(0))
         if (lo is not None and lo > cj) or (hi is not None and hi < cj):
-            raise _Bad(f"objective_ranges.{name}: the range does not contain the coefficient {fmt(cj)}")
+            raise _Bad(f"{where}: the range does not contain the coefficient {fmt(cj)}")
+        w = _direction(e.get("dual_direction"), rows, f"{where}.dual_direction")
+        u = _times(w, a_t_lines, col_scale)  # A^T w: what the reduced costs lose per unit of t
         for side, end, sign in (("lower", lo, -1), ("upper", hi, 1)):
-            cert = (e.get("certificates") or {}).get(side) or {}
-            probe = with_coefficient(model, name, end) if end is not None else only_variable(model, name, sign)
-            _cert(probe, cert, f"coefficient of {name} at {side} end", [])
-            same_point(cert, f"objective_ranges.{name}.{side}")
+            at = f"{where}.{side}"
+            if end is not None:
+                # c_name = end: the allocation x with duals y + t w, t = end - c_name,
+                # so d_k - t (A^T w)_k, and d_name + t; primal objective z + t x_name
+                t = end - cj
+                if not t:
+                    continue
+                total = dual_total
+                for r, wr in w.items():
+                    if wr:
+                        c = rows[r]
+                        total += _term(y[r] + t * wr, c.lower, c.upper, s, f"{at}: dual of constraint '{r}'") - row_term[r]
+                for k in set(u) | {name}:
+                    v = variables[k]
+                    dk = d[k] - t * u.get(k, 0) + (t if k == name else 0)
+                    total += _term(dk, v.lower, v.upper, s, f"{at}: reduced cost of '{k}'") - var_term[k]
+                primal = z + t * x[name]
+            else:
+                # the objective sign * x_name alone (no constant): duals sign * w,
+                # reduced costs sign * (e_name - A^T w), every other one zero
+                total = Fraction(0)
+                for r, wr in w.items():
+                    c = rows[r]
+                    total += _term(sign * wr, c.lower, c.upper, s, f"{at}: dual of constraint '{r}'")
+                for k in set(u) | {name}:
+                    v = variables[k]
+                    dk = sign * ((1 if k == name else 0) - u.get(k, 0))
+                    total += _term(dk, v.lower, v.upper, s, f"{at}: reduced cost of '{k}'")
+                primal = sign * x[name]
+            if total != primal:
+                raise _Bad(f"{at}: the duals along the direction leave a gap ({fmt(primal)} against "
+                           f"{fmt(total)}): the allocation is not shown optimal there")
+
     for name, e in (rep.get("rhs_ranges") or {}).items():
-        con = next((c for c in model.constraints if c.name == name), None)
+        con = rows.get(name)
         if con is None or not isinstance(e, dict):
             raise _Bad(f"rhs_ranges: '{name}' is not a constraint of the model")
-        which, value, dual = e.get("bound"), _n(e.get("value"), f"{name}.value"), _n(e.get("dual"), f"{name}.dual")
+        where = f"rhs_ranges.{name}"
+        which, value, dual = e.get("bound"), _n(e.get("value"), f"{where}.value"), _n(e.get("dual"), f"{where}.dual")
         if dual != y.get(name):
-            raise _Bad(f"rhs_ranges.{name}: the dual differs from the certificate's")
+            raise _Bad(f"{where}: the dual differs from the certificate's")
         side_value = {"upper": con.upper, "lower": con.lower, "equals": con.lower}.get(which, "?")
-        if side_value != value or (which == "equals" and not con.is_equality):
-            raise _Bad(f"rhs_ranges.{name}: the model's {which} side is not {value}")
-        for side, end, sign in (("lower", _n(e.get("lower"), "lower"), -1), ("upper", _n(e.get("upper"), "upper"), 1)):
-            proof = (e.get("certificates") or {}).get(side) or {}
-            if end is not None:
-                probe = with_side(model, name, which, end)
-                _cert(probe, proof, f"limit of {name} at {side} end", [])
-                if _n(proof.get("objective"), "objective") != z + dual * (end - value):
-                    raise _Bad(f"rhs_ranges.{name}.{side}: the optimum there is not z + dual * change")
-                if _n((proof.get("duals") or {}).get(name), "dual") != dual:
-                    raise _Bad(f"rhs_ranges.{name}.{side}: the dual changes within the range")
-            elif "direction" in proof:
-                w = {k: _n(v, f"direction.{k}") for k, v in (proof.get("direction") or {}).items()}
-                for v in model.variables:
-                    wv = w.get(v.name, 0)
-                    if (wv > 0 and v.upper is not None) or (wv < 0 and v.lower is not None):
-                        raise _Bad(f"rhs_ranges.{name}.{side}: the direction runs into a bound of '{v.name}'")
-                for c in model.constraints:
-                    a = sum((k * w.get(n, 0) for n, k in c.terms), Fraction(0))
-                    if c.name == name:
-                        if a != sign:
-                            raise _Bad(f"rhs_ranges.{name}.{side}: the direction does not follow the limit")
-                    elif (a > 0 and c.upper is not None) or (a < 0 and c.lower is not None):
-                        raise _Bad(f"rhs_ranges.{name}.{side}: the direction leaves constraint '{c.name}'")
-                if sum((k * w.get(n, 0) for n, k in model.objective), Fraction(0)) != sign * dual:
-                    raise _Bad(f"rhs_ranges.{name}.{side}: the objective does not move at the dual's rate")
-            else:
-                _cert(with_side(model, name, which, None), proof, f"limit of {name} relaxed", [])
-                same_point(proof, f"rhs_ranges.{name}.{side}")
-    checks.append(Check("sensitivity", True, "every range end re-derived from its certificate"))
+        if value is None or side_value != value or (which == "equals" and not con.is_equality):
+            raise _Bad(f"{where}: the model's {which} side is not {value}")
+        lo, hi = _n(e.get("lower"), f"{where}.lower"), _n(e.get("upper"), f"{where}.upper")
+        if (lo is not None and lo > value) or (hi is not None and hi < value):
+            raise _Bad(f"{where}: the range does not contain the limit {fmt(value)}")
+        raw = e.get("allocation_direction")
+        v = None if raw is None else _direction(raw, variables, f"{where}.allocation_direction")
+        av = _times(v or {}, a_lines, row_scale)  # A v by row: what the activities gain per unit of t
+        cv = sum((cost.get(n, 0) * vn for n, vn in (v or {}).items()), Fraction(0))
+        for side, end, sign in (("lower", lo, -1), ("upper", hi, 1)):
+            at = f"{where}.{side}"
+            if end is None and v is not None:
+                # the limit moves without end and the allocation follows it along
+                # sign * v: no bound or other row in the way, the row itself moving
+                # at the limit's rate, the objective at the dual's
+                for n, vn in v.items():
+                    wn = sign * vn
+                    if (wn > 0 and variables[n].upper is not None) or (wn < 0 and variables[n].lower is not None):
+                        raise _Bad(f"{at}: the direction runs into a bound of '{n}'")
+                if sign * av.get(name, 0) != sign:
+                    raise _Bad(f"{at}: the direction does not follow the limit")
+                for r, ar in av.items():
+                    a, c = sign * ar, rows[r]
+                    if r != name and ((a > 0 and c.upper is not None) or (a < 0 and c.lower is not None)):
+                        raise _Bad(f"{at}: the direction leaves constraint '{r}'")
+                if cv != dual:
+                    raise _Bad(f"{at}: the objective does not move at the dual's rate")
+                continue
+            # the limit at ``end`` (None: that side removed): the allocation
+            # x + t v (x itself without a direction) with the same duals
+            t = Fraction(0) if end is None or v is None else end - value
+            new_lo = end if which in ("lower", "equals") else con.lower
+            new_hi = end if which in ("upper", "equals") else con.upper
+            if t:
+                for n, vn in v.items():
+                    xn, var = x[n] + t * vn, variables[n]
+                    if (var.lower is not None and xn < var.lower) or (var.upper is not None and xn > var.upper):
+                        raise _Bad(f"{at}: the moved allocation breaks the bounds of '{n}' ({fmt(xn)})")
+            for r in (set(av) if t else set()) | {name}:
+                ar, c = act[r] + t * av.get(r, 0), rows[r]
+                rlo, rhi = (new_lo, new_hi) if r == name else (c.lower, c.upper)
+                if (rlo is not None and ar < rlo) or (rhi is not None and ar > rhi):
+                    raise _Bad(f"{at}: the moved allocation breaks constraint '{r}' ({fmt(ar)})")
+            total = dual_total - row_term[name] + _term(y[name], new_lo, new_hi, s, f"{at}: dual of constraint '{name}'")
+            primal = z + t * cv
+            if total != primal:
+                raise _Bad(f"{at}: the duals leave a gap ({fmt(primal)} against {fmt(total)}) with the limit there")
+            if end is not None and primal != z + dual * (end - value):
+                raise _Bad(f"{at}: the optimum there is not z + dual * change")
+    checks.append(Check("sensitivity", True, "every range end re-derived from the optimum and its direction"))
     return "its sensitivity ranges"
 
 
@@ -243,8 +397,12 @@ def check_report(model: Model, report: dict) -> Verification:
     checks: list = []
     kind = report.get("report")
     try:
-        if report.get("format") != "exactlp-report/1":
-            raise _Bad(f"format: expected 'exactlp-report/1', found {report.get('format')!r}")
+        fmt_ = report.get("format")
+        # 2 changed only the sensitivity report's layout: 1's other reports still read
+        if fmt_ != "exactlp-report/2" and not (fmt_ == "exactlp-report/1" and kind in ("conflict", "ranges")):
+            found = f"{fmt_!r}" + (" (a sensitivity report of an earlier layout: write it again)"
+                                   if fmt_ == "exactlp-report/1" else "")
+            raise _Bad(f"format: expected 'exactlp-report/2', found {found}")
         fp = (report.get("model") or {}).get("fingerprint") if isinstance(report.get("model"), dict) else None
         if fp != model.fingerprint:
             raise _Bad(f"fingerprint: the report is for {fp}, the model given is {model.fingerprint}")

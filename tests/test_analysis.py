@@ -157,32 +157,38 @@ def _number_leaves(doc) -> int:
     return 0
 
 
-def test_a_sensitivity_report_holds_no_more_numbers_than_its_size_says():
-    # k = 2 (n + m) range ends, each with a certificate of k + 2 numbers, the
-    # optimal certificate, the ends, each limit's value and dual, and the
-    # objective: an upper bound, checked on two cases
+def test_a_sensitivity_report_holds_the_numbers_its_size_says():
+    # the optimal certificate (2 (n + m) + 2) and the objective, then each range's
+    # two ends, its direction, and a limit's value and dual; an infinite end is
+    # null, not a number, so the count is the size less those
     from exactlp.reports import sensitivity_report, sensitivity_report_size
 
-    for case in ("grants.yaml", "drought.yaml"):
+    for case in ("grants.yaml", "drought.yaml", "berth.yaml"):
         m = exactlp.load(CASES / case)
-        doc = sensitivity_report(m, sensitivity(m))
-        k = 2 * (len(m.variables) + len(m.constraints))
-        assert sensitivity_report_size(m) == (k + 1) * (k + 3) + k
-        assert k * k < _number_leaves(doc) <= sensitivity_report_size(m)
+        sens = sensitivity(m)
+        doc = sensitivity_report(m, sens)
+        infinite = sum(end is None for iv in (*sens.objective_ranges.values(),
+                                              *(rr.interval for rr in sens.rhs_ranges.values()))
+                       for end in (iv.lower, iv.upper))
+        assert _number_leaves(doc) == sensitivity_report_size(sens) - infinite
+    sens = sensitivity(exactlp.load(CASES / "grants.yaml"))
+    # 5 variables, 3 constraints: 2 * 8 + 3, then 5 * 2 ends and one direction
+    # entry (coast_west's), 3 * 4 and one (fund's)
+    assert sensitivity_report_size(sens) == 19 + 11 + 13 == 43
 
 
-def test_a_sensitivity_report_past_the_limit_is_refused_before_any_work(cli, tmp_path, monkeypatch):
-    # grants.yaml: 5 variables and 3 constraints, so 17 * 19 + 16 = 339 numbers at most
+def test_a_sensitivity_report_past_the_limit_is_refused_before_anything_is_written(cli, tmp_path, monkeypatch):
+    # grants.yaml's report holds 43 numbers
     import exactlp.limits
 
     out = tmp_path / "r.yaml"
-    monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=338))
+    monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=42))
     code, stdout, err = cli("sensitivity", CASES / "grants.yaml", "-o", out)
-    assert (code, stdout) == (2, "") and not out.exists()
+    assert (code, stdout) == (2, "") and not out.exists() and list(tmp_path.iterdir()) == []
     assert err == (f"exactlp: {CASES / 'grants.yaml'}: --output: a sensitivity report of this model (5 variables, "
-                   "3 constraints) would hold about 339 exact numbers, one certificate for each end of each range; "
-                   "the limit is 338 (print the ranges with --json instead)\n")
-    monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=339))
+                   "3 constraints) would hold 43 exact numbers, the ranges' directions included; the limit is 42 "
+                   "(print the ranges with --json instead)\n")
+    monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=43))
     code, _, err = cli("sensitivity", CASES / "grants.yaml", "-o", out)
     assert (code, err) == (0, "") and out.exists()
 
@@ -424,62 +430,205 @@ def test_sensitivity_report_tampering_is_caught():
     assert not check_report(m, bad).valid
 
 
-def _reference_end_certificates(model, sens):
-    # the straightforward construction the report's shortcut must equal: one
-    # optimal_certificate per range end, each recomputed from the whole variant
+def _proven_the_long_way(model, rep) -> bool:
+    """The sensitivity report's claims proven by definition: for each end of each
+    range, the variant model (reports.with_coefficient, only_variable, with_side)
+    and a whole certificate for it (reports.optimal_certificate, from the claimed
+    end and direction), checked by the verifier.  The report check proves the same
+    from the direction's entries alone; the two verdicts must agree."""
+    from exactlp.numbers import parse_number as P
     from exactlp.reports import only_variable, optimal_certificate, with_coefficient, with_side
 
-    r = sens.result
-    x, y, cost, out = dict(r.primal), dict(r.duals), dict(model.objective), {}
-    for name, iv in sens.objective_ranges.items():
-        cj, dy = cost.get(name, F(0)), sens.dual_directions.get(name, {})
-        for side, end, sign in (("lower", iv.lower, -1), ("upper", iv.upper, 1)):
+    def num(text):
+        return None if text is None else P(text)
+
+    base = rep["certificate"]
+    if not exactlp.verify(model, base).valid or base["status"] != "optimal":
+        return False
+    x, y = ({k: P(v) for k, v in base[part].items()} for part in ("primal", "duals"))
+    z = P(base["objective"])
+    if P(rep["objective"]) != z:
+        return False
+    cost = dict(model.objective)
+    for name, e in rep["objective_ranges"].items():
+        lo, hi, cj = num(e["lower"]), num(e["upper"]), cost.get(name, F(0))
+        if (lo is not None and lo > cj) or (hi is not None and hi < cj):
+            return False
+        w = {k: P(v) for k, v in e["dual_direction"].items()}
+        for end, sign in ((lo, -1), (hi, 1)):
             if end is None:
-                probe, duals = only_variable(model, name, sign), {k: sign * v for k, v in dy.items()}
+                probe, duals = only_variable(model, name, sign), {k: sign * v for k, v in w.items()}
             else:
-                probe, duals = with_coefficient(model, name, end), {k: y[k] + (end - cj) * dy.get(k, 0) for k in y}
-            out[("objective", name, side)] = optimal_certificate(probe, x, duals)
-    for name, rr in sens.rhs_ranges.items():
-        for side, end in (("lower", rr.interval.lower), ("upper", rr.interval.upper)):
-            if end is not None:
-                t = end - rr.value
-                moved = {k: x[k] + t * (rr.direction or {}).get(k, 0) for k in x}
-                out[("rhs", name, side)] = optimal_certificate(with_side(model, name, rr.bound, end), moved, y)
-            elif rr.direction is None:
-                out[("rhs", name, side)] = optimal_certificate(with_side(model, name, rr.bound, None), x, y)
+                probe, duals = with_coefficient(model, name, end), {k: y[k] + (end - cj) * w.get(k, 0) for k in y}
+            if not exactlp.verify(probe, optimal_certificate(probe, x, duals)).valid:
+                return False
+    for name, e in rep["rhs_ranges"].items():
+        con = next(c for c in model.constraints if c.name == name)
+        which, value, dual, lo, hi = e["bound"], num(e["value"]), num(e["dual"]), num(e["lower"]), num(e["upper"])
+        side = {"upper": con.upper, "lower": con.lower, "equals": con.lower}[which]
+        if dual != y[name] or side != value or (lo is not None and lo > value) or (hi is not None and hi < value):
+            return False
+        v = None if e["allocation_direction"] is None else {k: P(t) for k, t in e["allocation_direction"].items()}
+        for end, sign in ((lo, -1), (hi, 1)):
+            if end is None and v is not None:  # x + s sign v stays feasible for every s >= 0, at the dual's rate
+                if any((sign * v.get(u.name, 0) > 0 and u.upper is not None)
+                       or (sign * v.get(u.name, 0) < 0 and u.lower is not None) for u in model.variables):
+                    return False
+                for c in model.constraints:
+                    a = sign * sum((k * v.get(n, 0) for n, k in c.terms), F(0))
+                    if (c.name == name and a != sign) or (c.name != name and (
+                            (a > 0 and c.upper is not None) or (a < 0 and c.lower is not None))):
+                        return False
+                if sum((k * v.get(n, 0) for n, k in model.objective), F(0)) != dual:
+                    return False
+                continue
+            t = 0 if end is None or v is None else end - value
+            moved = {k: x[k] + t * (v or {}).get(k, 0) for k in x}
+            probe = with_side(model, name, which, end)
+            cert = optimal_certificate(probe, moved, y)
+            if not exactlp.verify(probe, cert).valid:
+                return False
+            if end is not None and P(cert["objective"]) != z + dual * (end - value):
+                return False
+    return True
+
+
+def _tampered(rep):
+    """Reports with one claim changed each: an end moved in or out, or made
+    infinite or finite, a direction entry moved, dropped or added, a dual changed."""
+    import copy
+
+    from exactlp.numbers import format_number, parse_number as P
+
+    out = []
+
+    def changed(path, value):
+        doc = copy.deepcopy(rep)
+        node = doc
+        for key in path[:-1]:
+            node = node[key]
+        if value is _DROP:
+            del node[path[-1]]
+        else:
+            node[path[-1]] = value
+        out.append(doc)
+
+    rows = list(rep["certificate"]["duals"])
+    variables = list(rep["certificate"]["primal"])
+    for kind, dkey, names in (("objective_ranges", "dual_direction", rows), ("rhs_ranges", "allocation_direction", variables)):
+        for name, e in rep[kind].items():
+            for side in ("lower", "upper"):
+                end = e[side]
+                if end is None:
+                    changed((kind, name, side), e["value"] if "value" in e else "0")
+                else:
+                    changed((kind, name, side), None)
+                    for delta in (F(1, 7), F(-1, 7), F(3), F(-3)):
+                        changed((kind, name, side), format_number(P(end) + delta))
+            direction = e[dkey]
+            if direction is None:
+                changed((kind, name, dkey), {variables[0]: "1"})
+                continue
+            for k, val in list(direction.items())[:3]:
+                changed((kind, name, dkey, k), format_number(P(val) + F(1, 3)))
+                changed((kind, name, dkey, k), _DROP)
+            spare = [k for k in names if k not in direction]
+            if spare:
+                changed((kind, name, dkey, spare[0]), "1/2")
+            if kind == "rhs_ranges":
+                changed((kind, name, dkey), None)
+                changed((kind, name, "dual"), format_number(P(e["dual"]) + 1))
     return out
 
 
-def _report_end_certificates(rep):
-    got = {}
-    for kind, key in (("objective", "objective_ranges"), ("rhs", "rhs_ranges")):
-        for name, entry in rep[key].items():
-            for side, cert in entry["certificates"].items():
-                if "direction" not in cert:
-                    got[(kind, name, side)] = cert
-    return got
+_DROP = object()
+SENSITIVITY_CASES = ["berth", "drought", "drought_minimax", "emissions", "grants", "shares_historic"]
 
 
-@pytest.mark.parametrize("case", ["berth", "drought", "drought_minimax", "emissions", "grants", "shares_historic"])
-def test_sensitivity_report_certificates_equal_the_direct_construction(case):
-    # The report builds each range end's certificate from the shared parts (the
-    # activities, A^T y, the dual objective's terms) and recomputes only what the
-    # variant changes; every one must equal the certificate recomputed from scratch,
-    # value for value and key for key, and no two may share a dictionary (a YAML
-    # writer would turn that into an anchor and alias).
+@pytest.mark.parametrize("case", SENSITIVITY_CASES)
+def test_the_report_check_agrees_with_whole_certificates_for_every_end(case):
+    # The report holds one direction per range, and the check proves each end
+    # from the direction's entries alone; a whole certificate per end, checked by
+    # the verifier, is the definition.  Every honest report passes both; every
+    # report with one claim changed gets the same verdict from both, and the
+    # changes are not all harmless (some moved ends still hold: an end moved
+    # inwards, or a direction entry in a row that does not matter).
+    from exactlp.report_check import check_report
     from exactlp.reports import sensitivity_report
 
     m = exactlp.load(CASES / f"{case}.yaml")
-    sens = sensitivity(m)
-    got = _report_end_certificates(sensitivity_report(m, sens))
-    want = _reference_end_certificates(m, sens)
-    assert got and got == want
-    assert [list(c) for c in got.values()] == [list(c) for c in want.values()]  # same key order
-    seen = set()
-    for cert in got.values():
-        for part in ("primal", "activities", "duals", "reduced_costs"):
-            assert id(cert[part]) not in seen
-            seen.add(id(cert[part]))
+    rep = sensitivity_report(m, sensitivity(m))
+    assert check_report(m, rep).valid and _proven_the_long_way(m, rep)
+    verdicts = []
+    for bad in _tampered(rep):
+        got = check_report(m, bad)
+        assert got.valid == _proven_the_long_way(m, bad), (got.failure, bad)
+        verdicts.append(got.valid)
+    assert verdicts.count(False) > len(verdicts) // 3
+
+
+@settings(max_examples=60, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@given(lp_models(max_vars=4, max_rows=4))
+def test_the_report_check_agrees_with_whole_certificates_on_random_models(model):
+    from exactlp.report_check import check_report
+    from exactlp.reports import sensitivity_report
+
+    if exactlp.solve(model).status.value != "optimal":
+        return
+    rep = sensitivity_report(model, sensitivity(model))
+    assert check_report(model, rep).valid and _proven_the_long_way(model, rep)
+    for bad in _tampered(rep)[:40]:
+        assert check_report(model, bad).valid == _proven_the_long_way(model, bad)
+
+
+def test_the_report_check_names_what_is_wrong_with_a_direction():
+    import copy
+
+    from exactlp.report_check import check_report
+    from exactlp.reports import sensitivity_report
+
+    m = exactlp.load(CASES / "grants.yaml")
+    rep = sensitivity_report(m, sensitivity(m))
+    assert rep["format"] == "exactlp-report/2"
+    assert rep["rhs_ranges"]["fund"]["allocation_direction"] == {"coast_west": "1"}
+    assert rep["objective_ranges"]["coast_west"]["dual_direction"] == {"fund": "1"}
+    cases = [
+        (("rhs_ranges", "fund", "allocation_direction"), {"nowhere": "1"},
+         "rhs_ranges.fund.allocation_direction: 'nowhere' is not in the model"),
+        (("rhs_ranges", "fund", "allocation_direction"), {"coast_west": 1},
+         "rhs_ranges.fund.allocation_direction.coast_west: expected an exact number as a string, found 1"),
+        (("objective_ranges", "coast_west", "dual_direction"), ["fund"],
+         "objective_ranges.coast_west.dual_direction: expected a mapping of names to exact numbers, found ['fund']"),
+        # without the fund's dual moving, at 7.5 (t = -2/5, x = 61/20) the objective is
+        # 9917/100 - 2/5 * 61/20 = 1959/20, and coast_west's reduced cost -2/5 rests on
+        # its lower bound 6/5: the dual objective is 9917/100 - 12/25 = 9869/100
+        (("objective_ranges", "coast_west", "dual_direction"), {},
+         "objective_ranges.coast_west.lower: the duals along the direction leave a gap (1959/20 against 9869/100): "
+         "the allocation is not shown optimal there"),
+        # the fund at 13 (t = 1/2) takes coast_west from 61/20 to 71/20, past its 7/2
+        (("rhs_ranges", "fund", "upper"), "13",
+         "rhs_ranges.fund.upper: the moved allocation breaks the bounds of 'coast_west' (71/20)"),
+    ]
+    for path, value, message in cases:
+        bad = copy.deepcopy(rep)
+        bad[path[0]][path[1]][path[2]] = value
+        assert check_report(m, bad).failure.detail == message
+    old = copy.deepcopy(rep)
+    old["format"] = "exactlp-report/1"
+    assert check_report(m, old).failure.detail == ("format: expected 'exactlp-report/2', found 'exactlp-report/1' "
+                                                   "(a sensitivity report of an earlier layout: write it again)")
+    # the first layout's ranges and conflict reports are the second's, and still check
+    from exactlp.analysis import ranges
+    from exactlp.reports import conflict_report, ranges_report
+
+    for model, rep in ((m, ranges_report(m, ranges(m))),
+                       (exactlp.load(CASES / "grants_overcommitted.yaml"), None)):
+        rep = rep or conflict_report(model, conflict(model))
+        assert rep["format"] == "exactlp-report/2" and check_report(model, rep).valid
+        rep["format"] = "exactlp-report/1"
+        assert check_report(model, rep).valid
+        rep["format"] = "exactlp-report/3"
+        assert check_report(model, rep).failure.detail == "format: expected 'exactlp-report/2', found 'exactlp-report/3'"
 
 
 # -- probes that share one start ---------------------------------------------
@@ -606,3 +755,29 @@ def test_shared_start_probes_on_adlittle_match_their_own_solves():
         assert _same_but_time(got, own) == {}
         pivoted += got.iterations > 0
     assert pivoted > 0
+
+
+DEMAND = "minimize: 2 x + 3 y\nvariables: {x: {lower: 0}, y: {lower: 0}}\nconstraints:\n  demand: x + y >= 5\n"
+
+
+def test_a_limit_without_end_is_proven_by_its_direction():
+    # raising the demand without end, x follows it at the dual's rate 2; a
+    # direction split over x and y also follows the limit upwards and meets no
+    # bound, but moves the objective at 5/2 a unit, not 2: both checks refuse it
+    import copy
+
+    from exactlp.report_check import check_report
+    from exactlp.reports import sensitivity_report
+
+    m = model_from_text(DEMAND)
+    rep = sensitivity_report(m, sensitivity(m))
+    assert rep["rhs_ranges"]["demand"] == {"bound": "lower", "value": "5", "dual": "2", "lower": "0", "upper": None,
+                                           "allocation_direction": {"x": "1"}}
+    assert check_report(m, rep).valid and _proven_the_long_way(m, rep)
+    bad = copy.deepcopy(rep)
+    bad["rhs_ranges"]["demand"]["allocation_direction"] = {"x": "1/2", "y": "1/2"}
+    bad["rhs_ranges"]["demand"]["lower"] = "5"  # (the range narrowed to the limit: that end holds as it is)
+    assert check_report(m, bad).failure.detail == "rhs_ranges.demand.upper: the objective does not move at the dual's rate"
+    assert not _proven_the_long_way(m, bad)
+    for bad in _tampered(rep):
+        assert check_report(m, bad).valid == _proven_the_long_way(m, bad)
