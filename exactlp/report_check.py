@@ -35,7 +35,7 @@ from dataclasses import replace
 from fractions import Fraction
 from math import lcm
 
-from .model import Constraint, Model, Sense
+from .model import Model, Sense
 from .numbers import format_number as fmt, parse_number
 from .verifier import Check, Verification, _over_common, verify
 
@@ -105,8 +105,68 @@ def _conflict(model: Model, rep: dict, checks: list) -> str:
     return "a minimal conflict"
 
 
+#: a prime for the rank test below (2^61 - 1)
+_PRIME = (1 << 61) - 1
+
+
+def _full_rank_mod(rows: list[dict], names: list[str], p: int = _PRIME) -> bool:
+    """Full column rank modulo ``p``, which implies it over the rationals.
+
+    Each row is made whole (times its least common denominator: the same
+    equation) and reduced modulo p.  Every minor modulo p is the exact minor
+    modulo p, so a nonzero n x n minor modulo p is a nonzero minor.  Sparse
+    elimination: rows as dictionaries, the pivot row the shortest."""
+    col = {n: k for k, n in enumerate(names)}
+    work = []
+    for r in rows:
+        e = 1
+        for a in r.values():
+            e = lcm(e, a.denominator)
+        row = {}
+        for n, a in r.items():
+            v = a.numerator * (e // a.denominator) % p
+            if v and n in col:
+                row[col[n]] = v
+        if row:
+            work.append(row)
+    rank = 0
+    by_col: dict = {}
+    for row in work:
+        for k in row:
+            by_col.setdefault(k, set()).add(id(row))
+    live = {id(row): row for row in work}
+    for k in range(len(names)):
+        cands = [row for i in by_col.pop(k, ()) if (row := live.get(i)) is not None and k in row]
+        if not cands:
+            return False
+        piv = min(cands, key=len)
+        del live[id(piv)]
+        inv = pow(piv[k], -1, p)
+        for row in cands:
+            if row is piv:
+                continue
+            f = row.pop(k) * inv % p
+            for j, v in piv.items():
+                if j == k:
+                    continue
+                nv = (row.get(j, 0) - f * v) % p
+                if nv:
+                    if j not in row:
+                        by_col.setdefault(j, set()).add(id(row))
+                    row[j] = nv
+                else:
+                    row.pop(j, None)
+        rank += 1
+    return rank == len(names)
+
+
 def _full_rank(rows: list[dict], names: list[str]) -> bool:
-    """Do these linear equations (name -> coefficient) determine every variable?"""
+    """Do these linear equations (name -> coefficient) determine every variable?
+
+    Decided modulo a prime first (fast, and a yes is exact); a no there is
+    settled by exact elimination, since a prime can divide a nonzero minor."""
+    if _full_rank_mod(rows, names):
+        return True
     M = [[r.get(n, Fraction(0)) for n in names] for r in rows]
     rank, col = 0, 0
     for col in range(len(names)):
@@ -133,8 +193,9 @@ def _ranges(model: Model, rep: dict, checks: list) -> str:
     fo = rep.get("fixed_objective") or {}
     if _n(fo.get("value"), "fixed_objective.value") != z - model.objective_constant:
         raise _Bad("fixed_objective: the held value is not the certified optimum")
-    fixed = replace(model, constraints=model.constraints + (Constraint(
-        str(fo.get("name")), model.objective, z - model.objective_constant, z - model.objective_constant),))
+    if str(fo.get("name")) in {c.name for c in model.constraints}:
+        raise _Bad(f"fixed_objective: the model already has a constraint '{fo.get('name')}'")
+    mat = _Matrix(model)
     x = {k: _n(val, f"primal.{k}") for k, val in (cert.get("primal") or {}).items()}
     d = {k: _n(val, f"reduced_costs.{k}") for k, val in (cert.get("reduced_costs") or {}).items()}
     y = {k: _n(val, f"duals.{k}") for k, val in (cert.get("duals") or {}).items()}
@@ -143,7 +204,12 @@ def _ranges(model: Model, rep: dict, checks: list) -> str:
     eqs = [{vv.name: Fraction(1)} for vv in model.variables
            if d.get(vv.name) or (vv.lower is not None and vv.lower == vv.upper)]
     eqs += [dict(c.terms) for c in model.constraints if y.get(c.name) or c.is_equality]
-    determined = _full_rank(eqs, names)
+    known: list = []
+
+    def determined() -> bool:  # (decided only if a claim needs it: it is the costly part)
+        if not known:
+            known.append(_full_rank(eqs, names))
+        return known[0]
     claimed = rep.get("ranges") or {}
     for name, entry in claimed.items():
         if name not in names or not isinstance(entry, dict):
@@ -151,13 +217,10 @@ def _ranges(model: Model, rep: dict, checks: list) -> str:
         lo, hi, how = _n(entry.get("min"), f"{name}.min"), _n(entry.get("max"), f"{name}.max"), entry.get("method")
         var = model.variable(name)
         if how == "solved":
-            for side, value, sense in (("min", lo, "minimize"), ("max", hi, "maximize")):
-                probe = replace(fixed, sense=Sense(sense), objective=((name, Fraction(1)),), objective_constant=Fraction(0))
-                pc = (entry.get("certificates") or {}).get(side) or {}
-                pv = _cert(probe, pc, f"{side} of {name}", checks)
-                got = _n(pc.get("objective"), f"{name}.{side}") if pv.status == "optimal" else None
-                if pv.status not in ("optimal", "unbounded") or got != value:
-                    raise _Bad(f"ranges.{name}.{side}: the certificate gives {got}, the report {value}")
+            for side, value, sp in (("min", lo, 1), ("max", hi, -1)):
+                proof = (entry.get("proofs") or {}).get(side)
+                _probe_end(mat, x, z - model.objective_constant, str(fo.get("name")), name, sp, value,
+                           proof, f"ranges.{name}.{side}")
         elif how == "reduced cost":
             if not d.get(name) or lo != hi or lo != x.get(name) or x.get(name) not in (var.lower, var.upper):
                 raise _Bad(f"ranges.{name}: not decided by a nonzero reduced cost at a bound")
@@ -165,14 +228,14 @@ def _ranges(model: Model, rep: dict, checks: list) -> str:
             if not (var.lower is not None and var.lower == var.upper == lo == hi):
                 raise _Bad(f"ranges.{name}: the variable is not fixed at {lo}")
         elif how == "unique optimum":
-            if not determined or lo != hi or lo != x.get(name):
+            if not determined() or lo != hi or lo != x.get(name):
                 raise _Bad(f"ranges.{name}: the optimum is not shown to be unique")
         else:
             raise _Bad(f"ranges.{name}: unknown method {how!r}")
     widths = [_n(e.get("min"), "min") != _n(e.get("max"), "max") for e in claimed.values()]
     unique = rep.get("unique")
     if unique is True or unique == "true":
-        if not (determined or (set(claimed) == set(names) and not any(widths))):
+        if not ((set(claimed) == set(names) and not any(widths)) or determined()):
             raise _Bad("unique: neither the duals nor the ranges prove the optimum unique")
     elif any(widths) is False and (unique is False or unique == "false") and set(claimed) == set(names):
         raise _Bad("unique: every range has zero width, so the optimum is unique")
@@ -230,6 +293,33 @@ def _times(vec: dict, lines: dict, scale: dict) -> dict:
     return {o: Fraction(t) / (big * (scale[o] or 1)) for o, t in acc.items()}
 
 
+class _Matrix:
+    """The model's ``A`` by rows and by columns, for sparse products in integers:
+    for ``A^T w`` each entry times its column's least common denominator, for
+    ``A v`` times its row's (see :func:`_times`)."""
+
+    def __init__(self, model: Model) -> None:
+        self.rows = {c.name: c for c in model.constraints}
+        self.variables = {v.name: v for v in model.variables}
+        self.objective = model.objective
+        cols: dict = {n: [] for n in self.variables}
+        for c in model.constraints:
+            for n, a in c.terms:
+                cols[n].append((c.name, a))
+        row_scale = {r: _lcm_of(c.terms) for r, c in self.rows.items()}
+        col_scale = {n: _lcm_of(col) for n, col in cols.items()}
+        self._by_rows = ({r: _scaled(c.terms, col_scale) for r, c in self.rows.items()}, col_scale)
+        self._by_cols = ({n: _scaled(col, row_scale) for n, col in cols.items()}, row_scale)
+
+    def times(self, v: dict) -> dict:
+        """``A v`` by row (the rows ``v`` touches)."""
+        return _times(v, *self._by_cols)
+
+    def t_times(self, w: dict) -> dict:
+        """``A^T w`` by variable (the columns ``w`` touches)."""
+        return _times(w, *self._by_rows)
+
+
 def _term(val: Fraction, lo, hi, s: int, what: str) -> Fraction:
     """The verifier's dual-objective term: ``val`` times the side its sign selects
     (minimising, a positive multiplier rests on the lower side), which must be finite."""
@@ -241,6 +331,75 @@ def _term(val: Fraction, lo, hi, s: int, what: str) -> Fraction:
         raise _Bad(f"{what} is {fmt(val)}, which needs a finite {'lower' if rests_low else 'upper'} "
                    f"side, and it has none")
     return val * side
+
+
+def _probe_end(mat: _Matrix, x: dict, held: Fraction, held_name: str, name: str, sp: int, value, proof,
+               where: str) -> None:
+    """One end of a solved range: ``x_name`` minimised (``sp`` 1) or maximised (-1)
+    over the optimal set, the model with the row ``c^T x = held`` added.
+
+    At an end (``value``): the point is the verified optimum ``x`` with the
+    entries ``moved``, and the duals are the nonzero ones given (the held row's
+    under its name), every other one zero.  The point meets the bounds and rows
+    its moved entries touch, and the held row (``c^T`` of the moves is 0); the
+    reduced costs ``e_name - A^T y - y_held c`` are nonzero only where those rows
+    reach; each nonzero multiplier rests on a finite side of the right sign; and
+    the dual objective (the terms, no constant) equals ``x_name``, the value:
+    the verifier's conditions for the probe, entry by entry where they can fail.
+    With no end (None): a ray from the optimum that meets no bound or row, keeps
+    ``c^T r = 0`` and moves ``x_name`` the improving way without limit.
+    """
+    rows, variables = mat.rows, mat.variables
+    cost = dict(mat.objective)
+    if not isinstance(proof, dict):
+        raise _Bad(f"{where}: no proof of this end")
+    if value is None:
+        if "ray" not in proof:
+            raise _Bad(f"{where}: an infinite end needs a ray")
+        ray = _direction(proof["ray"], variables, f"{where}.ray")
+        for n, rn in ray.items():
+            if (rn > 0 and variables[n].upper is not None) or (rn < 0 and variables[n].lower is not None):
+                raise _Bad(f"{where}: the ray runs into a bound of '{n}'")
+        for r, a in mat.times(ray).items():
+            if (a > 0 and rows[r].upper is not None) or (a < 0 and rows[r].lower is not None):
+                raise _Bad(f"{where}: the ray leaves constraint '{r}'")
+        if sum((cost.get(n, 0) * rn for n, rn in ray.items()), Fraction(0)) != 0:
+            raise _Bad(f"{where}: the ray changes the held objective")
+        if not sp * ray.get(name, 0) < 0:
+            raise _Bad(f"{where}: the ray does not move '{name}' the improving way")
+        return
+    if "ray" in proof:
+        raise _Bad(f"{where}: a ray proves no finite end, and the report gives {fmt(value)}")
+    moved = _direction(proof.get("moved"), variables, f"{where}.moved")
+    y = _direction(proof.get("duals"), set(rows) | {held_name}, f"{where}.duals")
+    dx = {n: v - x[n] for n, v in moved.items()}
+    for n, v in moved.items():
+        var = variables[n]
+        if (var.lower is not None and v < var.lower) or (var.upper is not None and v > var.upper):
+            raise _Bad(f"{where}: '{n}' = {fmt(v)} breaks its bounds")
+    for r, gain in mat.times(dx).items():
+        c = rows[r]
+        act = sum((a * moved.get(n, x[n]) for n, a in c.terms), Fraction(0))
+        if gain and ((c.lower is not None and act < c.lower) or (c.upper is not None and act > c.upper)):
+            raise _Bad(f"{where}: constraint '{r}' fails at the point ({fmt(act)})")
+    if sum((cost.get(n, 0) * v for n, v in dx.items()), Fraction(0)) != 0:
+        raise _Bad(f"{where}: the point leaves the optimal set (the held objective moves)")
+    yh = y.pop(held_name, Fraction(0))
+    d = {n: -g for n, g in mat.t_times(y).items()}
+    for n, cn in cost.items():
+        if yh:
+            d[n] = d.get(n, 0) - yh * cn
+    d[name] = d.get(name, 0) + 1
+    total = _term(yh, held, held, sp, f"{where}: dual of '{held_name}'")
+    for r, yr in y.items():
+        total += _term(yr, rows[r].lower, rows[r].upper, sp, f"{where}: dual of constraint '{r}'")
+    for n, dn in d.items():
+        total += _term(dn, variables[n].lower, variables[n].upper, sp, f"{where}: reduced cost of '{n}'")
+    got = moved.get(name, x[name])
+    if total != got:
+        raise _Bad(f"{where}: the duals leave a gap ({fmt(got)} against {fmt(total)})")
+    if got != value:
+        raise _Bad(f"{where}: the proof gives {fmt(got)}, the report {fmt(value)}")
 
 
 def _sensitivity(model: Model, rep: dict, checks: list) -> str:
@@ -269,19 +428,8 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
     if _n(rep.get("objective"), "objective") != z:
         raise _Bad("objective: the report and its certificate differ")
     s = 1 if model.sense is Sense.MINIMIZE else -1
-    rows = {c.name: c for c in model.constraints}
-    variables = {v.name: v for v in model.variables}
-    cols: dict = {n: [] for n in variables}
-    for c in model.constraints:
-        for n, a in c.terms:
-            cols[n].append((c.name, a))
-    # A by rows and by columns in whole numbers: for A^T w each entry a_in times
-    # its column's least common denominator, for A v times its row's, so that
-    # the products below are of integers, each sum divided once
-    row_scale = {r: _lcm_of(c.terms) for r, c in rows.items()}
-    col_scale = {n: _lcm_of(col) for n, col in cols.items()}
-    a_t_lines = {r: _scaled(c.terms, col_scale) for r, c in rows.items()}
-    a_lines = {n: _scaled(col, row_scale) for n, col in cols.items()}
+    mat = _Matrix(model)
+    rows, variables = mat.rows, mat.variables
     row_term = {r: _term(y[r], c.lower, c.upper, s, "") for r, c in rows.items()}
     var_term = {n: _term(d[n], v.lower, v.upper, s, "") for n, v in variables.items()}
     dual_total = model.objective_constant + sum(row_term.values(), Fraction(0)) + sum(var_term.values(), Fraction(0))
@@ -296,7 +444,7 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
         if (lo is not None and lo > cj) or (hi is not None and hi < cj):
             raise _Bad(f"{where}: the range does not contain the coefficient {fmt(cj)}")
         w = _direction(e.get("dual_direction"), rows, f"{where}.dual_direction")
-        u = _times(w, a_t_lines, col_scale)  # A^T w: what the reduced costs lose per unit of t
+        u = mat.t_times(w)  # A^T w: what the reduced costs lose per unit of t
         for side, end, sign in (("lower", lo, -1), ("upper", hi, 1)):
             at = f"{where}.{side}"
             if end is not None:
@@ -347,7 +495,7 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
             raise _Bad(f"{where}: the range does not contain the limit {fmt(value)}")
         raw = e.get("allocation_direction")
         v = None if raw is None else _direction(raw, variables, f"{where}.allocation_direction")
-        av = _times(v or {}, a_lines, row_scale)  # A v by row: what the activities gain per unit of t
+        av = mat.times(v or {})  # A v by row: what the activities gain per unit of t
         cv = sum((cost.get(n, 0) * vn for n, vn in (v or {}).items()), Fraction(0))
         for side, end, sign in (("lower", lo, -1), ("upper", hi, 1)):
             at = f"{where}.{side}"
@@ -398,9 +546,9 @@ def check_report(model: Model, report: dict) -> Verification:
     kind = report.get("report")
     try:
         fmt_ = report.get("format")
-        # 2 changed only the sensitivity report's layout: 1's other reports still read
-        if fmt_ != "exactlp-report/2" and not (fmt_ == "exactlp-report/1" and kind in ("conflict", "ranges")):
-            found = f"{fmt_!r}" + (" (a sensitivity report of an earlier layout: write it again)"
+        # 2 changed the sensitivity and ranges reports' layout: 1's conflict reports still read
+        if fmt_ != "exactlp-report/2" and not (fmt_ == "exactlp-report/1" and kind == "conflict"):
+            found = f"{fmt_!r}" + (f" (a {kind} report of an earlier layout: write it again)"
                                    if fmt_ == "exactlp-report/1" else "")
             raise _Bad(f"format: expected 'exactlp-report/2', found {found}")
         fp = (report.get("model") or {}).get("fingerprint") if isinstance(report.get("model"), dict) else None
