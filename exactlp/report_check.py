@@ -109,77 +109,65 @@ def _conflict(model: Model, rep: dict, checks: list) -> str:
 _PRIME = (1 << 61) - 1
 
 
-def _full_rank_mod(rows: list[dict], names: list[str], p: int = _PRIME) -> bool:
-    """Full column rank modulo ``p``, which implies it over the rationals.
+def _full_rank_mod(rows: list[dict], names: list[str], p: int | None = _PRIME) -> bool:
+    """Full column rank of these equations (name -> coefficient), modulo the
+    prime ``p``, or exactly in fractions when ``p`` is None.
 
-    Each row is made whole (times its least common denominator: the same
-    equation) and reduced modulo p.  Every minor modulo p is the exact minor
-    modulo p, so a nonzero n x n minor modulo p is a nonzero minor.  Sparse
-    elimination: rows as dictionaries, the pivot row the shortest."""
+    Modulo p, each row is first made whole (times its least common denominator:
+    the same equation) and reduced; every minor modulo p is the exact minor
+    modulo p, so a full rank modulo p is a full rank.  Sparse elimination: rows
+    as dictionaries by column, each column's pivot the shortest row holding it."""
     col = {n: k for k, n in enumerate(names)}
     work = []
     for r in rows:
-        e = 1
-        for a in r.values():
-            e = lcm(e, a.denominator)
-        row = {}
-        for n, a in r.items():
-            v = a.numerator * (e // a.denominator) % p
-            if v and n in col:
-                row[col[n]] = v
+        if p is None:
+            row = {col[n]: a for n, a in r.items() if a and n in col}
+        else:
+            e = 1
+            for a in r.values():
+                e = lcm(e, a.denominator)
+            row = {col[n]: v for n, a in r.items() if n in col and (v := a.numerator * (e // a.denominator) % p)}
         if row:
             work.append(row)
-    rank = 0
+    live = {id(row): row for row in work}
     by_col: dict = {}
     for row in work:
         for k in row:
             by_col.setdefault(k, set()).add(id(row))
-    live = {id(row): row for row in work}
     for k in range(len(names)):
         cands = [row for i in by_col.pop(k, ()) if (row := live.get(i)) is not None and k in row]
         if not cands:
-            return False
+            return False  # no equation left reaches this variable
         piv = min(cands, key=len)
         del live[id(piv)]
-        inv = pow(piv[k], -1, p)
+        inv = pow(piv[k], -1, p) if p is not None else 1 / piv[k]
         for row in cands:
             if row is piv:
                 continue
-            f = row.pop(k) * inv % p
+            f = row.pop(k) * inv
+            if p is not None:
+                f %= p
             for j, v in piv.items():
                 if j == k:
                     continue
-                nv = (row.get(j, 0) - f * v) % p
+                nv = row.get(j, 0) - f * v
+                if p is not None:
+                    nv %= p
                 if nv:
                     if j not in row:
                         by_col.setdefault(j, set()).add(id(row))
                     row[j] = nv
                 else:
                     row.pop(j, None)
-        rank += 1
-    return rank == len(names)
+    return True
 
 
 def _full_rank(rows: list[dict], names: list[str]) -> bool:
     """Do these linear equations (name -> coefficient) determine every variable?
 
-    Decided modulo a prime first (fast, and a yes is exact); a no there is
-    settled by exact elimination, since a prime can divide a nonzero minor."""
-    if _full_rank_mod(rows, names):
-        return True
-    M = [[r.get(n, Fraction(0)) for n in names] for r in rows]
-    rank, col = 0, 0
-    for col in range(len(names)):
-        p = next((i for i in range(rank, len(M)) if M[i][col] != 0), None)
-        if p is None:
-            return False
-        M[rank], M[p] = M[p], M[rank]
-        for i in range(len(M)):
-            if i != rank and M[i][col] != 0:
-                f = M[i][col] / M[rank][col]
-                M[i] = [a - f * b for a, b in zip(M[i], M[rank])]
-        rank += 1
-    return rank == len(names)
+    Decided modulo a prime first (a yes there is exact); a no there is settled
+    in fractions, since the prime might divide a nonzero minor."""
+    return _full_rank_mod(rows, names) or _full_rank_mod(rows, names, None)
 
 
 def _ranges(model: Model, rep: dict, checks: list) -> str:
