@@ -37,7 +37,7 @@ from math import lcm
 
 from .model import Model, Sense
 from .numbers import format_number as fmt, parse_number
-from .verifier import Check, Verification, _over_common, verify
+from .verifier import _LIMITS, Check, Verification, _over_common, verify
 
 
 class _Bad(Exception):
@@ -45,10 +45,12 @@ class _Bad(Exception):
 
 
 def _n(text, where):
+    """An exact number of the report (as long as a certificate's may be), or None."""
     try:
-        return parse_number(text) if isinstance(text, str) else None
+        return parse_number(text, _LIMITS) if isinstance(text, str) else None
     except Exception:
-        raise _Bad(f"{where}: not an exact number: {text!r}") from None
+        shown = repr(text) if len(text) <= 60 else f"{text[:40]!r}... ({len(text):,} characters)"
+        raise _Bad(f"{where}: not an exact number: {shown}") from None
 
 
 def _feasible(model: Model, point: dict) -> str | None:

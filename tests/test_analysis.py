@@ -942,3 +942,32 @@ def test_the_uniqueness_rank_agrees_with_sympy(n, table):
     # a prime that divides a minor says no where the rank is full: the exact step decides
     assert _full_rank([{"a": F(1), "b": F(1)}, {"a": F(1), "b": F(8)}], ["a", "b"])
     assert not _full_rank_mod([{"a": F(1), "b": F(1)}, {"a": F(1), "b": F(8)}], ["a", "b"], p=7)
+
+
+def _chain(n: int):
+    """x_k <= (7/3) x_(k-1), x_0 <= 1, the last maximised: the optimum is
+    (7/3)^k, and its values and directions run to hundreds of digits."""
+    lines = [f"maximize: x{n - 1}", "variables:", "  x0: {lower: 0, upper: 1}"]
+    lines += [f"  x{k}: {{lower: 0}}" for k in range(1, n)] + ["constraints:"]
+    lines += [f"  r{k}: 3 x{k + 1} - 7 x{k} <= 0" for k in range(n - 1)]
+    return model_from_text("\n".join(lines) + "\n")
+
+
+def test_reports_with_numbers_as_long_as_a_certificates_check():
+    # a model's own numbers are capped at 400 characters, a certificate's at
+    # 200,000: a report holds the latter kind, and so does its check
+    import copy
+
+    from exactlp.analysis import ranges
+    from exactlp.report_check import check_report
+    from exactlp.reports import ranges_report, sensitivity_report
+
+    m = _chain(340)
+    rep = sensitivity_report(m, sensitivity(m))
+    assert len(rep["certificate"]["primal"]["x339"]) > 400
+    assert check_report(m, rep).valid
+    assert check_report(m, ranges_report(m, ranges(m))).valid
+    bad = copy.deepcopy(rep)
+    bad["rhs_ranges"]["r0"]["allocation_direction"]["x1"] = "7" * 200_001
+    assert check_report(m, bad).failure.detail == ("rhs_ranges.r0.allocation_direction.x1: not an exact number: "
+                                                   "'7777777777777777777777777777777777777777'... (200,001 characters)")
