@@ -34,8 +34,13 @@ class Limits:
     #: most exact numbers in a sensitivity report written to a file: the optimal
     #: certificate and each range's direction (dense directions make it grow with
     #: the square of the model: at most about (n + m) m; BANDM's holds 64,121
-    #: numbers, 13 MB); past this, refused before anything is written
+    #: numbers, 13 MB); past this, refused before anything is written (a ranges
+    #: report too)
     max_report_numbers: int = 10_000_000
+    #: most digits in all in such a report (or a ranges report), about its size
+    #: in bytes: exact values of thousands of digits (STAIR's) made a sensitivity
+    #: report of 317 MB that took 1.5 GB of memory and 97 s to write
+    max_report_digits: int = 100_000_000
 
 
 DEFAULT_LIMITS = Limits()

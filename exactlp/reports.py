@@ -43,7 +43,8 @@ def conflict_report(model: Model, c) -> dict:
     return doc
 
 
-def ranges_report(model: Model, rg) -> dict:
+def ranges_report(model: Model, rg, limits=None) -> dict:
+    check_report_size(model, "ranges", ranges_report_size(rg), limits)
     doc = _head(model, "ranges")
     doc["objective"] = format_number(rg.result.objective)
     doc["certificate"] = build_certificate(model, rg.result)
@@ -148,30 +149,60 @@ def optimal_certificate(model: Model, primal: dict, duals: dict) -> dict:
     }
 
 
-def sensitivity_report_size(sens) -> int:
-    """The exact numbers a sensitivity report of ``sens`` holds: the optimal
-    certificate (``2 (n + m) + 2``), the objective, and for each range its ends,
-    its direction's entries, and for a limit its value and dual."""
-    r = sens.result
-    size = 2 * (len(r.primal) + len(r.duals)) + 3
+def _digits(values) -> int:
+    """About how many characters these exact numbers take written out, from
+    their bit lengths (a bit is log10(2) = 0.30103 digits), before any is."""
+    return sum(((v.numerator.bit_length() + v.denominator.bit_length()) * 30103) // 100000 + 2 for v in values)
+
+
+def _result_numbers(r) -> list:
+    return [*r.primal.values(), *r.activities.values(), *r.duals.values(), *r.reduced_costs.values()]
+
+
+def sensitivity_report_size(sens) -> tuple[int, int]:
+    """``(numbers, digits)`` of a sensitivity report of ``sens``: the optimal
+    certificate (``2 (n + m) + 2`` numbers), the objective, and for each range
+    its ends, its direction's entries, and for a limit its value and dual."""
+    vals = _result_numbers(sens.result)
+    size = len(vals) + 3
     for name, iv in sens.objective_ranges.items():
-        size += 2 + len(sens.dual_directions.get(name) or ())
+        direction = sens.dual_directions.get(name) or {}
+        size += 2 + len(direction)
+        vals += [v for v in (iv.lower, iv.upper) if v is not None] + list(direction.values())
     for rr in sens.rhs_ranges.values():
         size += 4 + len(rr.direction or ())
-    return size
+        vals += [v for v in (rr.interval.lower, rr.interval.upper) if v is not None] + list((rr.direction or {}).values())
+    return size, _digits(vals)
 
 
-def check_report_size(model: Model, sens, limits=None) -> None:
-    """Refuse a sensitivity report that would pass ``limits.max_report_numbers``."""
+def ranges_report_size(rg) -> tuple[int, int]:
+    """``(numbers, digits)`` of a ranges report of ``rg``: the optimal certificate
+    (``2 (n + m) + 2`` numbers), the objective and its held value, each range's
+    two ends, and each solved end's moved entries and nonzero duals, or ray."""
+    vals = _result_numbers(rg.result)
+    x = rg.result.primal
+    for ends in rg.endpoints.values():
+        for _, r in ends:
+            if r.status.value == "optimal":
+                vals += [v for k, v in r.primal.items() if v != x[k]] + [v for v in r.duals.values() if v]
+            else:
+                vals += [v for v in r.ray.values() if v]
+    ends = [v for rg_ in rg.ranges.values() for v in (rg_.minimum, rg_.maximum) if v is not None]
+    return len(vals) + 4 + 2 * len(rg.ranges), _digits(vals + ends) + 3 * _digits([rg.result.objective])
+
+
+def check_report_size(model: Model, kind: str, size: tuple[int, int], limits=None) -> None:
+    """Refuse a report past ``limits.max_report_numbers`` or ``max_report_digits``."""
     from .errors import LimitError
     from .limits import DEFAULT_LIMITS
 
-    most = (limits or DEFAULT_LIMITS).max_report_numbers
-    size = sensitivity_report_size(sens)
-    if size > most:
+    lim = limits or DEFAULT_LIMITS
+    numbers, digits = size
+    if numbers > lim.max_report_numbers or digits > lim.max_report_digits:
         n, m = len(model.variables), len(model.constraints)
-        raise LimitError(f"a sensitivity report of this model ({n} variables, {m} constraints) would hold "
-                         f"{size:,} exact numbers, the ranges' directions included; the limit is {most:,} "
+        raise LimitError(f"a {kind} report of this model ({n} variables, {m} constraints) would hold {numbers:,} "
+                         f"exact numbers of about {digits:,} digits in all; the limits are "
+                         f"{lim.max_report_numbers:,} numbers and {lim.max_report_digits:,} digits "
                          f"(print the ranges with --json instead)", file=model.source, field="--output")
 
 
@@ -189,7 +220,7 @@ def sensitivity_report(model: Model, sens, limits=None) -> dict:
     and the model; a direction is as long as the entries it moves, so the report
     grows with the model, where a whole certificate per end grew with its square.
     """
-    check_report_size(model, sens, limits)
+    check_report_size(model, "sensitivity", sensitivity_report_size(sens), limits)
     doc = _head(model, "sensitivity")
     r = sens.result
     doc["objective"] = format_number(r.objective)

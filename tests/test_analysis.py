@@ -170,11 +170,37 @@ def test_a_sensitivity_report_holds_the_numbers_its_size_says():
         infinite = sum(end is None for iv in (*sens.objective_ranges.values(),
                                               *(rr.interval for rr in sens.rhs_ranges.values()))
                        for end in (iv.lower, iv.upper))
-        assert _number_leaves(doc) == sensitivity_report_size(sens) - infinite
+        assert _number_leaves(doc) == sensitivity_report_size(sens)[0] - infinite
     sens = sensitivity(exactlp.load(CASES / "grants.yaml"))
     # 5 variables, 3 constraints: 2 * 8 + 3, then 5 * 2 ends and one direction
     # entry (coast_west's), 3 * 4 and one (fund's)
-    assert sensitivity_report_size(sens) == 19 + 11 + 13 == 43
+    assert sensitivity_report_size(sens)[0] == 19 + 11 + 13 == 43
+
+
+def _number_chars(doc) -> int:
+    if isinstance(doc, dict):
+        return sum(_number_chars(v) for v in doc.values())
+    if isinstance(doc, str) and _number_leaves(doc):
+        return len(doc)
+    return 0
+
+
+def test_the_digits_a_report_will_hold_are_known_before_it_is_written():
+    # from the values' bit lengths; on long numbers within a few per cent of the
+    # characters the numbers take written out (the chain's run to 500 digits)
+    from exactlp.analysis import ranges
+    from exactlp.reports import ranges_report, ranges_report_size, sensitivity_report, sensitivity_report_size
+
+    m = _chain(130)
+    sens = sensitivity(m)
+    numbers, digits = sensitivity_report_size(sens)
+    written = _number_chars(sensitivity_report(m, sens))
+    assert 0.97 * written < digits < 1.03 * written
+    for text in (ALTERNATIVE, UNBOUNDED_SET):  # (the second has an end without limit: null)
+        model = model_from_text(text)
+        rg = ranges(model)
+        infinite = sum(end is None for v in rg.ranges.values() for end in (v.minimum, v.maximum))
+        assert _number_leaves(ranges_report(model, rg)) == ranges_report_size(rg)[0] - infinite
 
 
 def test_a_sensitivity_report_past_the_limit_is_refused_before_anything_is_written(cli, tmp_path, monkeypatch):
@@ -182,15 +208,28 @@ def test_a_sensitivity_report_past_the_limit_is_refused_before_anything_is_writt
     import exactlp.limits
 
     out = tmp_path / "r.yaml"
-    monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=42))
-    code, stdout, err = cli("sensitivity", CASES / "grants.yaml", "-o", out)
-    assert (code, stdout) == (2, "") and not out.exists() and list(tmp_path.iterdir()) == []
-    assert err == (f"exactlp: {CASES / 'grants.yaml'}: --output: a sensitivity report of this model (5 variables, "
-                   "3 constraints) would hold 43 exact numbers, the ranges' directions included; the limit is 42 "
-                   "(print the ranges with --json instead)\n")
-    monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=43))
+    from exactlp.reports import sensitivity_report_size
+
+    digits = sensitivity_report_size(sensitivity(exactlp.load(CASES / "grants.yaml")))[1]
+    for limits in (dict(max_report_numbers=42), dict(max_report_digits=digits - 1)):
+        monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(**limits))
+        code, stdout, err = cli("sensitivity", CASES / "grants.yaml", "-o", out)
+        assert (code, stdout) == (2, "") and not out.exists() and list(tmp_path.iterdir()) == []
+        lim = exactlp.limits.DEFAULT_LIMITS
+        assert err == (f"exactlp: {CASES / 'grants.yaml'}: --output: a sensitivity report of this model (5 variables, "
+                       f"3 constraints) would hold 43 exact numbers of about {digits} digits in all; the limits are "
+                       f"{lim.max_report_numbers:,} numbers and {lim.max_report_digits:,} digits "
+                       "(print the ranges with --json instead)\n")
+    monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=43,
+                                                                                max_report_digits=digits))
     code, _, err = cli("sensitivity", CASES / "grants.yaml", "-o", out)
     assert (code, err) == (0, "") and out.exists()
+    out.unlink()
+    monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_digits=10))
+    code, stdout, err = cli("ranges", CASES / "grants.yaml", "-o", out)
+    assert (code, stdout) == (2, "") and not out.exists()
+    assert err.startswith(f"exactlp: {CASES / 'grants.yaml'}: --output: a ranges report of this model (5 variables, "
+                          "3 constraints) would hold ")
 
 
 def test_cli_sensitivity_and_conflict_json(cli):
