@@ -376,8 +376,8 @@ def _probe_end(mat: _Matrix, x: dict, held: Fraction, held_name: str, name: str,
         raise _Bad(f"{where}: the point leaves the optimal set (the held objective moves)")
     yh = y.pop(held_name, Fraction(0))
     d = {n: -g for n, g in mat.t_times(y).items()}
-    for n, cn in cost.items():
-        if yh:
+    if yh:  # the held row's coefficients are the objective's
+        for n, cn in cost.items():
             d[n] = d.get(n, 0) - yh * cn
     d[name] = d.get(name, 0) + 1
     total = _term(yh, held, held, sp, f"{where}: dual of '{held_name}'")
