@@ -607,20 +607,6 @@ def test_the_report_check_agrees_with_whole_certificates_for_every_end(case):
     assert verdicts.count(False) > len(verdicts) // 3
 
 
-@settings(max_examples=60, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
-@given(lp_models(max_vars=4, max_rows=4))
-def test_the_report_check_agrees_with_whole_certificates_on_random_models(model):
-    from exactlp.report_check import check_report
-    from exactlp.reports import sensitivity_report
-
-    if exactlp.solve(model).status.value != "optimal":
-        return
-    rep = sensitivity_report(model, sensitivity(model))
-    assert check_report(model, rep).valid and _proven_the_long_way(model, rep)
-    for bad in _tampered(rep)[:40]:
-        assert check_report(model, bad).valid == _proven_the_long_way(model, bad)
-
-
 def test_the_report_check_names_what_is_wrong_with_a_direction():
     import copy
 
@@ -947,19 +933,29 @@ def test_a_variable_without_end_over_the_optimal_set_is_proven_by_a_ray():
         assert check_report(m, rep).failure.detail == message
 
 
-@settings(max_examples=60, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
-@given(lp_models(max_vars=4, max_rows=4))
-def test_the_ranges_check_agrees_with_whole_certificates_on_random_models(model):
+def _report_kinds():
+    """One row per report whose check works from sparse proofs: how to write it,
+    how to change one claim in it, and the proof by whole certificates."""
     from exactlp.analysis import ranges
+    from exactlp.reports import ranges_report, sensitivity_report
+
+    return {"sensitivity": (lambda m: sensitivity_report(m, sensitivity(m)), _tampered, _proven_the_long_way),
+            "ranges": (lambda m: ranges_report(m, ranges(m)), _ranges_tampered, _ranges_proven_the_long_way)}
+
+
+@pytest.mark.parametrize("kind", ["sensitivity", "ranges"])
+@settings(max_examples=60, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@given(model=lp_models(max_vars=4, max_rows=4))
+def test_report_checks_agree_with_whole_certificates_on_random_models(kind, model):
     from exactlp.report_check import check_report
-    from exactlp.reports import ranges_report
 
     if exactlp.solve(model).status.value != "optimal":
         return
-    rep = ranges_report(model, ranges(model))
-    assert check_report(model, rep).valid and _ranges_proven_the_long_way(model, rep)
-    for bad in _ranges_tampered(rep)[:40]:
-        assert check_report(model, bad).valid == _ranges_proven_the_long_way(model, bad)
+    write, tamper, long_way = _report_kinds()[kind]
+    rep = write(model)
+    assert check_report(model, rep).valid and long_way(model, rep)
+    for bad in tamper(rep)[:40]:
+        assert check_report(model, bad).valid == long_way(model, bad)
 
 
 @settings(max_examples=200, deadline=None, derandomize=True)
