@@ -44,6 +44,18 @@ class _Bad(Exception):
     pass
 
 
+def _part(doc, key: str, kind: type, where: str | None = None):
+    """``doc[key]`` when it is a ``kind`` (dict or list), an empty one when absent;
+    anything else is a malformed report, named by its field."""
+    got = doc.get(key) if isinstance(doc, dict) else None
+    if got is None:
+        return kind()
+    if not isinstance(got, kind):
+        shown = repr(got) if len(repr(got)) <= 60 else repr(got)[:60] + "..."
+        raise _Bad(f"{where or key}: expected a {'mapping' if kind is dict else 'list'}, found {shown}")
+    return got
+
+
 def _n(text, where):
     """An exact number of the report (as long as a certificate's may be), or None."""
     try:
@@ -84,7 +96,7 @@ def _cert(model: Model, cert, what: str, checks: list) -> Verification:
 
 
 def _conflict(model: Model, rep: dict, checks: list) -> str:
-    rows, bounded = set(rep.get("constraints") or []), set(rep.get("bounds") or [])
+    rows, bounded = ({str(k) for k in _part(rep, key, list)} for key in ("constraints", "bounds"))
     names = {c.name for c in model.constraints}
     vnames = {v.name for v in model.variables}
     if not rows <= names or not bounded <= vnames:
@@ -92,8 +104,8 @@ def _conflict(model: Model, rep: dict, checks: list) -> str:
     sub = _subset(model, rows, bounded)
     if _cert(sub, rep.get("certificate"), "the conflict is infeasible", checks).status != "infeasible":
         raise _Bad("the conflict's certificate does not prove infeasibility")
-    given = {(d.get("drop", {}).get("kind"), d.get("drop", {}).get("name")): d.get("point") or {}
-             for d in rep.get("minimality") or [] if isinstance(d, dict)}
+    given = {(_part(d, "drop", dict).get("kind"), _part(d, "drop", dict).get("name")): _part(d, "point", dict)
+             for d in _part(rep, "minimality", list) if isinstance(d, dict)}
     for kind, group in (("constraint", rows), ("bound", bounded)):
         for name in sorted(group):
             if (kind, name) not in given:
@@ -173,14 +185,14 @@ def _full_rank(rows: list[dict], names: list[str]) -> bool:
 
 
 def _ranges(model: Model, rep: dict, checks: list) -> str:
-    cert = rep.get("certificate") or {}
+    cert = _part(rep, "certificate", dict)
     v = _cert(model, cert, "the optimum", checks)
     if v.status != "optimal":
         raise _Bad("the ranges report needs an optimal certificate")
     z = _n(cert.get("objective"), "certificate.objective")
     if _n(rep.get("objective"), "objective") != z:
         raise _Bad("objective: the report and its certificate differ")
-    fo = rep.get("fixed_objective") or {}
+    fo = _part(rep, "fixed_objective", dict)
     if _n(fo.get("value"), "fixed_objective.value") != z - model.objective_constant:
         raise _Bad("fixed_objective: the held value is not the certified optimum")
     if str(fo.get("name")) in {c.name for c in model.constraints}:
@@ -200,7 +212,7 @@ def _ranges(model: Model, rep: dict, checks: list) -> str:
         if not known:
             known.append(_full_rank(eqs, names))
         return known[0]
-    claimed = rep.get("ranges") or {}
+    claimed = _part(rep, "ranges", dict)
     for name, entry in claimed.items():
         if name not in names or not isinstance(entry, dict):
             raise _Bad(f"ranges: '{name}' is not a variable of the model")
@@ -208,7 +220,7 @@ def _ranges(model: Model, rep: dict, checks: list) -> str:
         var = model.variable(name)
         if how == "solved":
             for side, value, sp in (("min", lo, 1), ("max", hi, -1)):
-                proof = (entry.get("proofs") or {}).get(side)
+                proof = _part(entry, "proofs", dict, f"ranges.{name}.proofs").get(side)
                 _probe_end(mat, x, z - model.objective_constant, str(fo.get("name")), name, sp, value,
                            proof, f"ranges.{name}.{side}")
         elif how == "reduced cost":
@@ -222,7 +234,7 @@ def _ranges(model: Model, rep: dict, checks: list) -> str:
                 raise _Bad(f"ranges.{name}: the optimum is not shown to be unique")
         else:
             raise _Bad(f"ranges.{name}: unknown method {how!r}")
-    widths = [_n(e.get("min"), "min") != _n(e.get("max"), "max") for e in claimed.values()]
+    widths = [_n(e.get("min"), "min") != _n(e.get("max"), "max") for e in claimed.values() if isinstance(e, dict)]
     unique = rep.get("unique")
     if unique is True or unique == "true":
         if not ((set(claimed) == set(names) and not any(widths)) or determined()):
@@ -406,7 +418,7 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
     the variant's gap recomputed from the changed terms, that is the verifier's
     proof of optimality for each variant, at the cost of the direction's entries.
     """
-    base = rep.get("certificate") or {}
+    base = _part(rep, "certificate", dict)
     if _cert(model, base, "the optimum", checks).status != "optimal":
         raise _Bad("the sensitivity report needs an optimal certificate")
     # all present and exact: the verifier has just read them
@@ -425,7 +437,7 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
     dual_total = model.objective_constant + sum(row_term.values(), Fraction(0)) + sum(var_term.values(), Fraction(0))
     cost = dict(model.objective)
 
-    for name, e in (rep.get("objective_ranges") or {}).items():
+    for name, e in _part(rep, "objective_ranges", dict).items():
         if name not in variables or not isinstance(e, dict):
             raise _Bad(f"objective_ranges: '{name}' is not a variable of the model")
         where = f"objective_ranges.{name}"
@@ -469,7 +481,7 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
                 raise _Bad(f"{at}: the duals along the direction leave a gap ({fmt(primal)} against "
                            f"{fmt(total)}): the allocation is not shown optimal there")
 
-    for name, e in (rep.get("rhs_ranges") or {}).items():
+    for name, e in _part(rep, "rhs_ranges", dict).items():
         con = rows.get(name)
         if con is None or not isinstance(e, dict):
             raise _Bad(f"rhs_ranges: '{name}' is not a constraint of the model")
@@ -477,7 +489,7 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
         which, value, dual = e.get("bound"), _n(e.get("value"), f"{where}.value"), _n(e.get("dual"), f"{where}.dual")
         if dual != y.get(name):
             raise _Bad(f"{where}: the dual differs from the certificate's")
-        side_value = {"upper": con.upper, "lower": con.lower, "equals": con.lower}.get(which, "?")
+        side_value = {"upper": con.upper, "lower": con.lower, "equals": con.lower}.get(which if isinstance(which, str) else "", "?")
         if value is None or side_value != value or (which == "equals" and not con.is_equality):
             raise _Bad(f"{where}: the model's {which} side is not {value}")
         lo, hi = _n(e.get("lower"), f"{where}.lower"), _n(e.get("upper"), f"{where}.upper")
@@ -533,6 +545,8 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
 
 def check_report(model: Model, report: dict) -> Verification:
     checks: list = []
+    if not isinstance(report, dict):
+        return Verification(False, None, (Check("report", False, "expected a mapping at the top of the report"),))
     kind = report.get("report")
     try:
         fmt_ = report.get("format")
