@@ -297,7 +297,9 @@ class ObjectiveProbes:
     each probe pivots on its own copy), for any ``probe`` that shares ``model``'s
     variables and constraints; a probe that does not, or a start that is not
     accepted as it stands, is simply solved in full.  Allocation ranges make
-    two such solves per variable (BANDM: 608).
+    two such solves per variable (BANDM: 608).  One caller's sequence of
+    probes: the matrix's copies are handed on from probe to probe, so one
+    object is not for solves on several threads at once.
     """
 
     def __init__(self, model: Model, start, **options) -> None:
