@@ -163,7 +163,7 @@ def _clip(lo, hi, value):
     return Interval(None if lo is None else value + lo, None if hi is None else value + hi)
 
 
-def sensitivity(model: Model, **solve_options) -> Sensitivity:
+def sensitivity(model: Model, progress=None, **solve_options) -> Sensitivity:
     """Exact ranges over which the optimal basis stays optimal (costs) or feasible (bounds).
 
     Objective coefficient ``c_j`` (minimising sense ``c``, reduced costs ``d``):
@@ -177,6 +177,9 @@ def sensitivity(model: Model, **solve_options) -> Sensitivity:
     ``t`` moves the basic values by ``t B^-1 e_i``; the range is where all stay
     within their bounds, and the dual ``y_i`` is the objective's rate there.  A
     slack constraint's finite bound may move until it meets the activity.
+
+    ``progress``, if given, is called with a line of text as the ranging goes
+    (a solve of each row of ``B^-1`` or column; STAIR's 800 take about 17 s).
     """
     _single_objective(model)
     from .floatlp import BasisHint
@@ -211,7 +214,10 @@ def sensitivity(model: Model, **solve_options) -> Sensitivity:
 
     obj_ranges = {}
     dual_dirs: dict = {}
+    step = max(1, (n + m) // 100)  # (about a hundred updates of the status line)
     for j, v in enumerate(model.variables):
+        if progress is not None and j % step == 0:
+            progress(f"sensitivity: objective coefficient {j + 1} of {n}")
         cj = form.cost[j]
         dual_dirs[v.name] = {}
         if sx.state[j] != BASIC:
@@ -260,6 +266,8 @@ def sensitivity(model: Model, **solve_options) -> Sensitivity:
 
     rhs_ranges = {}
     for i, c in enumerate(model.constraints):
+        if progress is not None and i % step == 0:
+            progress(f"sensitivity: constraint limit {i + 1} of {m}")
         s = n + i
         act = r.activities[c.name]
         dual = r.duals[c.name]

@@ -577,7 +577,7 @@ def sensitivity(
         m = _load(model)
         with _progress(as_json) as say:
             say("sensitivity: solving the model")
-            s = run_sensitivity(m)
+            s = run_sensitivity(m, progress=say)
             if output is not None:
                 from .reports import sensitivity_report
 

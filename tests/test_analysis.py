@@ -273,6 +273,10 @@ def test_the_analyses_say_what_they_are_doing_before_each_exact_solve():
                     "ranges: 'y', 2 of 2 to solve (two exact solves each)"]
     assert rg.solves == 5
     said.clear()
+    sensitivity(exactlp.load(CASES / "grants.yaml"), progress=said.append)
+    assert said == [f"sensitivity: objective coefficient {k} of 5" for k in range(1, 6)] + [
+        f"sensitivity: constraint limit {k} of 3" for k in range(1, 4)]
+    said.clear()
     c = conflict(exactlp.load(CASES / "grants_overcommitted.yaml"), progress=said.append)
     assert said == [f"conflict: 5 rules left; trying without {kind} '{name}'" for kind, name in (
         ("constraint", "fund"), ("constraint", "uplands_floor"), ("constraint", "metro_floor"),
