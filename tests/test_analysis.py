@@ -274,7 +274,8 @@ def test_the_analyses_say_what_they_are_doing_before_each_exact_solve():
     assert rg.solves == 5
     said.clear()
     sensitivity(exactlp.load(CASES / "grants.yaml"), progress=said.append)
-    assert said == [f"sensitivity: objective coefficient {k} of 5" for k in range(1, 6)] + [
+    assert said == [f"sensitivity: column {k} of 3 of the basis inverse" for k in range(1, 4)] + [
+        f"sensitivity: objective coefficient {k} of 5" for k in range(1, 6)] + [
         f"sensitivity: constraint limit {k} of 3" for k in range(1, 4)]
     said.clear()
     c = conflict(exactlp.load(CASES / "grants_overcommitted.yaml"), progress=said.append)
