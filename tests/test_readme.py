@@ -89,3 +89,15 @@ def test_python_example_runs(scratch):
     for block in code:  # each example runs in its own interpreter, as a user would run it
         r = subprocess.run([sys.executable, "-"], input=block, text=True, capture_output=True, cwd=scratch)
         assert r.returncode == 0, r.stderr
+
+
+def test_report_excerpt_is_real(scratch):
+    # the README's excerpt of a sensitivity report is what the command writes
+    ((cmd, block),) = re.findall(r"In `(exactlp sensitivity [^`]+ -o [^`]+)`.*?```yaml\n(.*?)```", README, re.S)
+    code, _ = run(cmd)
+    assert code == 0
+    written = (scratch / shlex.split(cmd)[-1]).read_text().split("\n")
+    # the README indents the block by two for the list item it sits in
+    excerpt = [line[2:] for line in block.rstrip().split("\n")]
+    starts = [i for i, line in enumerate(written) if line == excerpt[0]]
+    assert any(written[i:i + len(excerpt)] == excerpt for i in starts), excerpt
