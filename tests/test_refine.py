@@ -170,7 +170,93 @@ def test_nonsingular_is_decided_modulo_a_prime():
 def test_the_prime_is_prime():
     import sympy
 
-    assert sympy.isprime(refine.NONSINGULAR_PRIME) and refine.NONSINGULAR_PRIME < 2**30
+    # below 2^26: the dense tail's lazy reduction relies on it (see _dense_mod)
+    assert sympy.isprime(refine.NONSINGULAR_PRIME) and refine.NONSINGULAR_PRIME < 2**26
+
+
+def sparse_triples(rows: list[list[int]]):
+    n = len(rows)
+    got = [(i, j, rows[i][j]) for i in range(n) for j in range(n) if rows[i][j]]
+    return [t[0] for t in got], [t[1] for t in got], [t[2] for t in got]
+
+
+def nonsingular_both_ways(rows: list[list[int]], p: int) -> tuple[bool, bool]:
+    """The check as it runs (dense once the active part fills in) and with the
+    dense tail switched off (sparse steps to the end)."""
+    r, c, v = sparse_triples(rows)
+    n = len(rows)
+    with_tail = refine._nonsingular_mod(n, r, c, v, p, 10**9)
+    old = refine.DENSE_SHARE
+    refine.DENSE_SHARE = 2.0  # more than every entry: never dense
+    try:
+        sparse_only = refine._nonsingular_mod(n, r, c, v, p, 10**9)
+    finally:
+        refine.DENSE_SHARE = old
+    return with_tail, sparse_only
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.integers(24, 40), st.sampled_from([0.25, 0.5, 1.0]), st.integers(0, 2**32 - 1), st.booleans())
+def test_the_dense_tail_agrees_with_sympys_determinant(n, share, seed, dependent):
+    # SymPy's exact determinant (the reference library) taken modulo the prime
+    import random
+
+    import sympy
+
+    rnd = random.Random(seed)
+    rows = [[rnd.randint(-9, 9) if rnd.random() < share else 0 for _ in range(n)] for _ in range(n)]
+    if dependent:  # one row a combination of two others: singular over Q, so modulo p too
+        rows[n - 1] = [3 * a - 2 * b for a, b in zip(rows[0], rows[1])]
+    p = refine.NONSINGULAR_PRIME
+    want = sympy.Matrix(rows).det(method="bareiss") % p != 0
+    assert nonsingular_both_ways(rows, p) == (want, want)
+
+
+def test_the_dense_tail_sees_a_determinant_that_the_prime_divides():
+    # L U with L unit lower and U upper, both full: dense from the first step, and
+    # det = product of U's diagonal = 5 p, nonzero but 0 modulo p; with 7 instead
+    # of p on the diagonal, 35 (nonzero modulo p)
+    import random
+
+    rnd = random.Random(11)
+    n, p = 30, refine.NONSINGULAR_PRIME
+    lower = [[1 if i == j else rnd.randint(-4, 4) if j < i else 0 for j in range(n)] for i in range(n)]
+    for last in (p, 7):
+        upper = [[(5 if i == 0 else last if i == n - 1 else 1) if i == j else rnd.randint(-4, 4) if j > i else 0
+                  for j in range(n)] for i in range(n)]
+        rows = [[sum(lower[i][k] * upper[k][j] for k in range(n)) for j in range(n)] for i in range(n)]
+        assert sum(1 for row in rows for a in row if a) > 0.9 * n * n
+        expected = last != p
+        assert nonsingular_both_ways(rows, p) == (expected, expected)
+
+
+def test_the_dense_tail_stays_exact_with_residues_near_the_prime():
+    # every entry p - 1 - (small): the lazily reduced entries grow by about
+    # p^2 a step over 100 steps, which must neither wrap nor lose a residue; the
+    # sparse steps (all residues reduced at once) give the reference
+    import random
+
+    rnd = random.Random(3)
+    p = refine.NONSINGULAR_PRIME
+    n = 100
+    rows = [[p - 1 - rnd.randint(0, 1000) for _ in range(n)] for _ in range(n)]
+    assert nonsingular_both_ways(rows, p) == (True, True)
+    rows[7] = [(a + b) % p for a, b in zip(rows[3], rows[5])]  # dependent modulo p
+    assert nonsingular_both_ways(rows, p) == (False, False)
+
+
+def test_the_dense_tail_counts_toward_the_budget():
+    # a full 40 x 40 matrix goes dense at once: 40^3 / (3 * 16) = 1,333 updates'
+    # worth; a budget under that gives up (unproven), one over it decides
+    n, p = 40, refine.NONSINGULAR_PRIME
+    rows = [[200 if i == j else (i * 7 + j * 3) % 5 + 1 for j in range(n)] for i in range(n)]  # diagonally dominant
+    r, c, v = sparse_triples(rows)
+    import sympy
+
+    assert sympy.Matrix(rows).det(method="bareiss") % p != 0
+    work = n ** 3 // (3 * refine.DENSE_RATIO)
+    assert not refine._nonsingular_mod(n, r, c, v, p, work - 1)
+    assert refine._nonsingular_mod(n, r, c, v, p, work)
 
 
 @pytest.mark.parametrize("a, s", [(355, 113), (-1, 3), (2**70 + 1, 3**40), (0, 1), (7, 1)])
