@@ -270,6 +270,30 @@ def test_common_denominator_from_a_binary_approximation(a, s):
         assert refine._denominator([x >> (bits - 8)], [2], 8) == (None, 0)
 
 
+@settings(max_examples=200, deadline=None)
+@given(st.lists(st.tuples(st.integers(-10**30, 10**30), st.integers(1, 3)), min_size=1, max_size=6),
+       st.lists(st.integers(1, 60), min_size=1, max_size=3), st.sampled_from([0, 1, 8, 64, 200]),
+       st.integers(-2, 2), st.sampled_from([1, 2, 3]))
+def test_candidate_rounding_is_the_denominator_then_the_nearest_integer(comps, factors, bits, jitter, q0):
+    # _rounded finds the common denominator as _denominator does and rounds each
+    # q x_i / 2^bits under the final q, a half down: the definition, spelled out
+    s = 1
+    for f in factors:
+        s *= f
+    xs = [mpz((mpz(a) << bits) // (s if k == 1 else f) + jitter) for (a, k), f in zip(comps, factors * 6)]
+    errs = [k for _, k in comps]
+    q, failed = refine._denominator(xs, errs, bits, mpz(q0))
+    got = refine._rounded(xs, errs, bits, mpz(q0))
+    if q is None:
+        assert got == (None, failed)
+        return
+    den = 1 << bits
+    # spelled out on Fractions: the nearest integer, a tie (exactly a half) going down
+    want = [int((Fraction(int(q * x), den) + Fraction(1, 2)).__floor__()) if (int(q * x) * 2) % (2 * den) != den
+            else int(q * x) // den for x in xs]
+    assert got[0] == q and got[1] == want
+
+
 def test_too_many_rows_or_long_entries_are_left_to_exact_factorisation(monkeypatch):
     monkeypatch.setattr(refine, "MAX_ROWS", 1)
     with pytest.raises(ArithmeticError, match="too many rows"):

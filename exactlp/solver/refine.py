@@ -549,17 +549,9 @@ def _candidate(m, chunks, total, next_xh, rows, cols, vals, b, q, d):
     # X_i / 2^K is off by about next_xh_i / 2^K (the next step's correction):
     # allow four times that, and one unit
     errs = [int(e) + 1 for e in (abs(next_xh) * 4).tolist()]
-    q, failed = _denominator(x_int, errs, total, q)
+    q, nums = _rounded(x_int, errs, total, q)
     if q is None:
-        return None, failed
-    half = ONE << max(total - 1, 0)
-    nums = []
-    for v in x_int:
-        t = q * v
-        n = t >> total
-        if _f_mod_2exp(t, total) > half:
-            n += 1
-        nums.append(n)
+        return None, nums
     # the exact check: M nums = q b, in integers
     acc = [0] * m
     for i, j, a in zip(rows, cols, vals):
@@ -567,6 +559,45 @@ def _candidate(m, chunks, total, next_xh, rows, cols, vals, b, q, d):
     if any(s != q * bi for s, bi in zip(acc, b)):
         return None, None
     return (nums, q * d), None
+
+
+def _rounded(xs: list, errs: list[int], bits: int, q):
+    """What :func:`_denominator` finds, with each ``q xs_i / 2^bits`` rounded to
+    the nearest integer (a half rounded down) under the final ``q``: ``(q, nums)``,
+    or ``(None, i)`` for the first component ``i`` for which ``2^bits`` is too
+    short.  One product ``q xs_i`` a component serves both the test and the
+    rounding; the components before the last new factor of ``q`` are rounded
+    again at the end."""
+    den = ONE << bits
+    half = den >> 1
+    nums = []
+    grown = 0  # the components before this one were rounded under an earlier q
+    for n, (x, e) in enumerate(zip(xs, errs)):
+        t = q * x
+        rem = _f_mod_2exp(t, bits)
+        k = t >> bits
+        if rem > half:
+            rem -= den
+            k += 1
+        tol = q * e
+        if abs(rem) <= tol:
+            nums.append(k)
+            continue
+        s = _reconstruct(rem % den, den, tol, _isqrt(den // (2 * tol)))
+        if not s:
+            return None, n
+        q *= s
+        nums.append(_round_shift(q * x, bits, half))
+        grown = n
+    for n in range(grown):
+        nums[n] = _round_shift(q * xs[n], bits, half)
+    return q, nums
+
+
+def _round_shift(t, bits: int, half):
+    """``t / 2^bits`` rounded to the nearest integer, a half rounded down."""
+    k = t >> bits
+    return k + 1 if _f_mod_2exp(t, bits) > half else k
 
 
 def _nonsingular_mod(m: int, rows, cols, vals, p: int, budget: int) -> bool:
