@@ -9,7 +9,7 @@ the only other answer allowed, and the tests say where it must not be given.
 from __future__ import annotations
 
 from fractions import Fraction
-from math import comb
+from math import comb, isqrt
 
 import pytest
 from gmpy2 import mpq, mpz
@@ -292,6 +292,77 @@ def test_candidate_rounding_is_the_denominator_then_the_nearest_integer(comps, f
     want = [int((Fraction(int(q * x), den) + Fraction(1, 2)).__floor__()) if (int(q * x) * 2) % (2 * den) != den
             else int(q * x) // den for x in xs]
     assert got[0] == q and got[1] == want
+
+
+def fresh_and_resumed(a: int, s: int, precisions: list[int], tol: int = 2):
+    """``a / s`` to each number of binary places in turn (rounded down), its
+    denominator reconstructed afresh and with one memo carried from call to call."""
+    memo = [None]
+    out = []
+    for bits in precisions:
+        den = mpz(1) << bits
+        value = (mpz(a) << bits) // s % den
+        if not 0 < value < den:
+            continue
+        bound = int(isqrt(den // (2 * tol)))
+        out.append((refine._reconstruct(value, den, tol, bound), refine._reconstruct(value, den, tol, bound, memo)))
+    return out
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.integers(1, 2**400), st.integers(2, 2**200), st.lists(st.integers(8, 1200), min_size=1, max_size=8),
+       st.integers(1, 9))
+def test_resumed_continued_fractions_give_what_fresh_ones_give(a, s, precisions, tol):
+    # the memo only saves work: each call answers exactly as a fresh one, whether
+    # the precisions grow (as the refinement's tries do) or jump about
+    for fresh, resumed in fresh_and_resumed(a, s, sorted(precisions), tol):
+        assert resumed == fresh
+    for fresh, resumed in fresh_and_resumed(a, s, precisions, tol):
+        assert resumed == fresh
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.integers(1, 2**300), st.integers(2, 2**150), st.integers(1, 2**160), st.integers(1, 2**160))
+def test_a_memo_that_is_not_a_pair_of_convergents_is_not_used(a, s, s0, s1):
+    # any pair at all: _resumed accepts it only when it is a pair of consecutive
+    # convergents of value / den, and the answer is the fresh one either way
+    bits = 700
+    den = mpz(1) << bits
+    value = (mpz(a) << bits) // s % den
+    if not 0 < value < den:
+        return
+    bound = int(isqrt(den // 4))
+    assert refine._reconstruct(value, den, 2, bound, [(mpz(s0), mpz(s1))]) == refine._reconstruct(value, den, 2, bound)
+    got = refine._resumed(value, den, mpz(s0), mpz(s1))
+    if got is not None:  # then the two are convergents: h / s0 and h' / s1 from the fraction's own expansion
+        import sympy
+
+        convergents = [c.q for c in sympy.continued_fraction_convergents(
+            sympy.continued_fraction_iterator(sympy.Rational(int(value), int(den))))]
+        assert int(s0) in convergents and int(s1) in convergents
+        assert convergents.index(int(s1)) == convergents.index(int(s0)) + 1
+
+
+def test_the_refinements_tries_resume_their_continued_fractions():
+    # the probes' memos carry over: each try after the first resumes (none
+    # starts afresh), and the answer is the exact solution
+    calls = []
+    original = refine._resumed
+
+    def watch(*args):
+        got = original(*args)
+        calls.append(got is not None)
+        return got
+
+    cols, b, x = bidiagonal(60, Fraction(7, 3), Fraction(-2, 5))
+    fi = refine.FloatInverse(60, ints(cols))
+    refine._resumed = watch
+    try:
+        got = fi.primal(b)
+    finally:
+        refine._resumed = original
+    assert [Fraction(int(v.numerator), int(v.denominator)) for v in got] == x
+    assert len(calls) >= 4 and all(calls)
 
 
 def test_too_many_rows_or_long_entries_are_left_to_exact_factorisation(monkeypatch):

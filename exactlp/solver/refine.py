@@ -73,8 +73,8 @@ STEP_MOST = 48
 #: 1,000 rows have denominators of at most about 8,500 bits: see basis.py)
 MAX_BITS = 40_000
 #: a few components are tried for their denominators at K = this many bits,
-#: then each time K has grown by half (by a fifth after a try in which they
-#: came out but another component did not)
+#: then each time K has grown by a share (TRY_SHARE; by a fifth after a try in
+#: which they came out but another component did not)
 FIRST_TRY = 64
 #: how many components are followed to learn when K suffices: the largest at
 #: the start, and SPREAD_PROBES more spread evenly over the vector (with them,
@@ -82,6 +82,11 @@ FIRST_TRY = 64
 #: try before the rest; STAIR, GROW15 the same; 8 no better)
 PROBES = 4
 SPREAD_PROBES = 4
+#: after a try, the next comes once K has grown by 1 / TRY_SHARE (the continued
+#: fractions resume from one try to the next, so a try costs little; the primal and
+#: dual solves, best of 15 in one process: STAIR 53.7 -> 52.2 ms, PILOT4 89.7 -> 84.5,
+#: GROW22 59.7 -> 52.8, GROW15 38.1 -> 39.1, against 2; 3 and 6 no better)
+TRY_SHARE = 4
 #: bases of at least this many rows are inverted on a thread of their own when
 #: asked (see FloatInverse): below it, the thread's start and the BLAS limit
 #: (about 0.1 ms together) cost more than the overlap saves
@@ -103,7 +108,7 @@ DENSE_FROM = 24
 DENSE_RATIO = 16
 
 
-def _reconstruct(value: int, den: int, tol: int, bound: int) -> int:
+def _reconstruct(value: int, den: int, tol: int, bound: int, memo: list | None = None) -> int:
     """The least ``s <= bound`` with ``|s value - h den| <= s tol`` for an integer
     ``h``, among the convergents ``h / s`` of ``value / den`` (``0 < value < den``);
     0 if there is none.
@@ -113,18 +118,66 @@ def _reconstruct(value: int, den: int, tol: int, bound: int) -> int:
     fraction is one of the convergents.  Along the Euclidean algorithm on
     ``(value, den)``, ``|s value - h den|`` for the convergent just formed is
     the remainder just computed, so no product is needed to test it.
+
+    ``memo``, a one-item list, carries a pair of consecutive convergents'
+    denominators from one call to the next for the same number known more
+    precisely (the refinement's next try): the call resumes there when the
+    pair is still a pair of convergents of the new ``value / den`` (see
+    :func:`_resumed`), and keeps the last pair with ``s <= bound / 4`` for the
+    next (those of an approximation within ``tol / den`` are shared with any
+    closer one: ``s^2 tol / den <= 1/32``).  The answer is the same either way.
     """
     q0, q1 = 1, 0  # the convergents' denominators (their numerators are not needed)
     a, b = value, den
-    while b:
-        t, r = divmod(a, b)
-        q0, q1 = q1, t * q1 + q0
-        if q1 > bound:
-            return 0
-        if r <= q1 * tol:
-            return q1
-        a, b = b, r
-    return 0
+    if memo is not None and memo[0] is not None:
+        got = _resumed(value, den, *memo[0])
+        # resumed only if no earlier convergent would have stopped a fresh run:
+        # the remainders fall and the denominators grow, so the test at the
+        # pair decides for all before it
+        if got is not None and got[1] > memo[0][1] * tol:
+            if memo[0][1] > bound:
+                return 0
+            (a, b), (q0, q1) = got, memo[0]
+    quarter = bound >> 2
+    kept = None
+    try:
+        while b:
+            t, r = divmod(a, b)
+            q0, q1 = q1, t * q1 + q0
+            if q1 > bound:
+                return 0
+            if r <= q1 * tol:
+                return q1
+            a, b = b, r
+            if 0 < q0 < q1 <= quarter:  # (the first pairs, (0, 1) and (1, 1), resume nothing)
+                kept = (q0, q1)
+        return 0
+    finally:
+        if memo is not None and kept is not None:
+            memo[0] = kept
+
+
+def _resumed(value: int, den: int, s0: int, s1: int):
+    """The remainders ``(|s0 value - h0 den|, |s1 value - h1 den|)`` with which the
+    Euclidean algorithm on ``(value, den)`` reaches the convergents ``h0 / s0``,
+    ``h1 / s1`` (each ``h`` the nearest integer to ``s value / den``), or None if
+    they are not consecutive convergents of ``value / den``.  They are when
+    ``0 < s0 < s1``, ``h1 s0 - h0 s1 = +-1``, the two errors have opposite signs
+    and the first is the larger: then ``value / den = (h1 z + h0) / (s1 z + s0)``
+    with ``z`` the ratio of the errors, ``z > 1`` (G. H. Hardy and E. M. Wright,
+    An Introduction to the Theory of Numbers, theorem 172; cited from memory),
+    and the algorithm goes on from there as on ``z``."""
+    if not 0 < s0 < s1:
+        return None
+    half = den >> 1
+    h0 = (s0 * value + half) // den
+    h1 = (s1 * value + half) // den
+    e0 = s0 * value - h0 * den
+    e1 = s1 * value - h1 * den
+    if not e0 or not e1 or (e0 > 0) == (e1 > 0) or abs(h1 * s0 - h0 * s1) != 1:
+        return None
+    a, b = abs(e0), abs(e1)
+    return (a, b) if a > b else None
 
 
 def integer_column(col) -> tuple[mpz, list[tuple[int, int]]] | None:
@@ -373,6 +426,7 @@ class FloatInverse:
             if i not in probes:
                 probes.append(i)
         x_probes = [0] * len(probes)
+        memos: dict = {}  # the probes' continued fractions, from one try to the next
         next_try = FIRST_TRY
         if q0 != 1:  # try q0 as soon as K is past its length and a margin
             next_try = q0.bit_length() + 64
@@ -394,9 +448,9 @@ class FloatInverse:
                 if done and r.any():
                     return None
                 if done or total >= next_try:
-                    next_try = total + total // 2
+                    next_try = total + total // TRY_SHARE
                     q, _ = _denominator([mpz(v) for v in x_probes], [int(abs(xh[i]) * 4) + 1 for i in probes],
-                                        total, q0)
+                                        total, q0, memos)
                     if q is not None:
                         z, failed = _candidate(m, chunks, total, xh, rows, cols, vals, b, q, d)
                         if z is not None:
@@ -487,11 +541,14 @@ def _release_blas() -> None:
             limiter.restore_original_limits()
 
 
-def _denominator(xs: list, errs: list[int], bits: int, q=ONE):
+def _denominator(xs: list, errs: list[int], bits: int, q=ONE, memos: dict | None = None):
     """A common denominator ``q`` with each ``q xs_i / 2^bits`` within ``q errs_i /
     2^bits`` of an integer, grown from ``q`` component by component (see
     :func:`_reconstruct`), and None; or None and the first component for which
-    ``2^bits`` is too short to tell."""
+    ``2^bits`` is too short to tell.  ``memos`` (a dict kept from one call to
+    the next, for the same components known more precisely) lets the
+    continued fractions resume where the last call's left off, for each
+    component whose ``q`` is the same as then."""
     den = ONE << bits
     for n, (x, e) in enumerate(zip(xs, errs)):
         rem = _f_mod_2exp(q * x, bits)
@@ -500,9 +557,15 @@ def _denominator(xs: list, errs: list[int], bits: int, q=ONE):
         tol = q * e
         if abs(rem) <= tol:
             continue  # q x_i is (near) an integer already
+        memo = None
+        if memos is not None:
+            got = memos.get(n)
+            if got is None or got[0] != q:
+                got = memos[n] = (q, [None])
+            memo = got[1]
         # a new factor s of the common denominator: s q x_i near an integer,
         # unique while 2 s^2 tol < 2^bits
-        s = _reconstruct(rem % den, den, tol, _isqrt(den // (2 * tol)))
+        s = _reconstruct(rem % den, den, tol, _isqrt(den // (2 * tol)), memo)
         if not s:
             return None, n
         q *= s
