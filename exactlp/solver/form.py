@@ -69,6 +69,25 @@ def frac(v) -> Fraction:
     return Fraction(int(v.numerator), int(v.denominator))
 
 
+def coprime_fraction(n: int, d: int) -> Fraction:
+    """The Fraction ``n / d`` for integers already in lowest terms with ``d > 0``,
+    without the gcd that the constructor would pay (see :func:`frac`).  The
+    caller proves ``gcd(n, d) = 1``; tests compare with the normalising
+    constructor."""
+    if not n:
+        return _ZERO_FRACTION
+    if _from_coprime is not None:
+        return _from_coprime(n, d)
+    if _SLOTS:
+        f = _new(Fraction)
+        f._numerator = n
+        f._denominator = d
+        return f
+    if _KEYWORD:
+        return Fraction(n, d, _normalize=False)
+    return Fraction(n, d)
+
+
 @dataclass
 class Form:
     n: int  # structural columns

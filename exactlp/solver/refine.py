@@ -54,6 +54,8 @@ from gmpy2 import isqrt as _isqrt
 from gmpy2 import lcm as _lcm
 from gmpy2 import mpq, mpz
 
+from .lowest import lowest_mpq
+
 ONE = mpz(1)
 
 #: the float inverse is dense: bases with more rows than this are factored exactly
@@ -347,7 +349,7 @@ class FloatInverse:
             return None
         nums, den = got
         self.den_hint = den
-        return [mpq(v * e, den) if v else mpq(0) for v, e in zip(nums, self.scales)]
+        return lowest_mpq([v * e for v, e in zip(nums, self.scales)], den)
 
     def dual(self, rhs: list[mpq]):
         """``(y, (Y, D))`` with ``B^T y = rhs`` exactly and ``y = Y / D`` (``Y``
@@ -364,7 +366,7 @@ class FloatInverse:
         if got is None:
             return None
         nums, den = got
-        return [mpq(v, den) if v else mpq(0) for v in nums], (nums, den)
+        return lowest_mpq(nums, den), (nums, den)
 
     def nonsingular(self, p: int = NONSINGULAR_PRIME) -> bool:
         """Whether ``det A != 0``, proven by ``det A mod p != 0`` (False can also
