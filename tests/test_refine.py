@@ -365,6 +365,39 @@ def test_the_refinements_tries_resume_their_continued_fractions():
     assert len(calls) >= 4 and all(calls)
 
 
+@settings(max_examples=150, deadline=None)
+@given(st.integers(1, 10).flatmap(lambda m: st.tuples(
+    st.just(m),
+    st.lists(st.tuples(st.sampled_from([8, 16, 24, 40, 48, 56]),
+                       st.lists(st.one_of(st.integers(-(2**62) + 1, 2**62 - 1),
+                                          st.sampled_from([0, -1, 1, 2**48 - 1, -(2**48), 2**62 - 1, -(2**62) + 1])),
+                                min_size=m, max_size=m)),
+             min_size=1, max_size=12),
+    st.booleans(), st.sampled_from([9, 1, 0]))))
+def test_combined_steps_are_the_sum_of_the_steps(case):
+    # X_i = sum_t xt_t 2^(bits of the later steps), by the offset digits (all
+    # passes, or too few passes and the steps carried in turn instead), against
+    # the sum made in Python integers; a first step of 0 bits included
+    m, steps, zero_first, passes = case
+    if zero_first:
+        steps = [(0, steps[0][1])] + steps[1:]
+    chunks = [(k, np.array(xs, dtype=np.int64)) for k, xs in steps]
+    want = []
+    for i in range(m):
+        x = 0
+        for k, xs in steps:
+            x = (x << k) + xs[i]
+        want.append(x)
+    saved = refine.CARRY_PASSES
+    refine.CARRY_PASSES = passes
+    try:
+        got = refine._combine(m, chunks)
+    finally:
+        refine.CARRY_PASSES = saved
+    assert all(type(v) is type(mpz(0)) for v in got) and [int(v) for v in got] == want
+    assert [int(refine._combine(m, chunks, only=i)) for i in range(m)] == want
+
+
 def test_too_many_rows_or_long_entries_are_left_to_exact_factorisation(monkeypatch):
     monkeypatch.setattr(refine, "MAX_ROWS", 1)
     with pytest.raises(ArithmeticError, match="too many rows"):

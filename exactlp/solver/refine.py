@@ -577,10 +577,17 @@ def _denominator(xs: list, errs: list[int], bits: int, q=ONE, memos: dict | None
 def _combine(m: int, chunks, only: int | None = None):
     """``X = sum_t xt_t 2^(k_(t+1) + ... + k_T)`` (as mpz), or its component ``only``.
 
-    The steps' integers are first brought to digits ``0 <= xt_t < 2^k_t`` by
-    carrying from the last step up (in 64-bit words: every ``|xt| < 2^62``, so
-    no sum overflows); each ``k_t`` is a whole number of bytes, so the digits of
-    a component are then its bytes, read as one integer, plus the last carry.
+    Each step's integers are made nonnegative by an offset, ``u_t = xt_t + 2^62``
+    (below 2^63: every ``|xt| < 2^62``), and brought to digits ``0 <= D_t <
+    2^k_t`` by carrying up, over all the steps at once (:func:`_offset_digits`);
+    each ``k_t`` is a whole number of bytes, so the digits of a component are
+    its bytes, read as one integer, plus the last carry, less the offsets'
+    sum ``C = sum_t 2^62 2^(k_(t+1) + ... + k_T)``, the same for every
+    component.  (Without the offset a negative step borrows, and a borrow runs
+    up through every zero digit above it, one step a pass; nonnegative digits
+    carry on only through digits of all ones.)  Where the passes do not settle,
+    the steps are carried one after another.  STAIR's basic values, 124 steps:
+    3.7 -> 2.6 ms; PILOT4's, 187 steps: 5.3 -> 4.0 ms.
     """
     import numpy as np
 
@@ -589,6 +596,67 @@ def _combine(m: int, chunks, only: int | None = None):
         for k, xt in chunks:
             x = (x << k) + int(xt[only])
         return mpz(x)
+    got = _offset_digits(np, m, chunks)
+    if got is None:
+        return _combine_in_turn(np, m, chunks)
+    body, carry = got
+    blob = body.tobytes()
+    size = len(blob) // m
+    total = 8 * size
+    offsets = 0
+    for k, _ in chunks:
+        offsets = (offsets << k) + OFFSET
+    offsets = mpz(offsets)
+    from_bytes = mpz.from_bytes
+    out = []
+    for i, c in enumerate(carry.tolist()):
+        x = from_bytes(blob[i * size:(i + 1) * size], "little") - offsets
+        out.append(x + (mpz(c) << total) if c else x)
+    return out
+
+
+OFFSET = 1 << 62
+#: carries over all the steps at once, at most this many times (a pass settles
+#: at least 8 bits of every carry: about 62 / 8 passes at worst, 2 or 3 with
+#: steps of 40-48 bits)
+CARRY_PASSES = 9
+
+
+def _offset_digits(np, m: int, chunks):
+    """``(bytes, carry)``: the digits of ``u_t = xt_t + 2^62`` (see :func:`_combine`)
+    as an ``m x (K / 8)`` array of bytes, least significant first, and the carry
+    out of the first step (uint64 per component); or None if the passes did not
+    settle.  A pass takes every row's ``c_t = u_t >> k_t`` (its digit is ``u_t -
+    c_t 2^k_t``) and adds it to the row above, the first row's to the carry.
+    No value wraps: ``u_t < 2^63``; after a pass a row is a digit plus at most
+    ``2^63 >> 8`` from below; the first step may take 0 bits (its whole value is
+    carried), and the carry stays under ``2^63`` plus what later passes add,
+    at most ``2^55`` each."""
+    shifts = np.array([k for k, _ in chunks], dtype=np.uint64)[:, None]
+    u = np.array([xt for _, xt in chunks], dtype=np.int64).view(np.uint64) + np.uint64(OFFSET)
+    carry = np.zeros(m, dtype=np.uint64)
+    for _ in range(CARRY_PASSES):
+        c = u >> shifts
+        if not c.any():
+            break
+        u -= c << shifts
+        carry += c[0]
+        u[:-1] += c[1:]
+    else:
+        return None
+    widths = [k // 8 for k, _ in chunks]
+    # little-endian: the last step's digits first; byte b of step t is kept if b < k_t / 8
+    as_bytes = u[::-1].astype("<u8").view(np.uint8).reshape(len(chunks), m, 8).transpose(1, 0, 2)
+    if min(widths) == max(widths):
+        body = as_bytes[:, :, : widths[0]]
+    else:
+        keep = np.arange(8)[None, :] < np.array(widths[::-1])[:, None]
+        body = as_bytes[:, keep]
+    return np.ascontiguousarray(body), carry
+
+
+def _combine_in_turn(np, m: int, chunks) -> list:
+    """:func:`_combine` by carrying from the last step up, one step at a time."""
     carry = np.zeros(m, dtype=np.int64)
     pieces = []
     total = 0
