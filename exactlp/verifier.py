@@ -114,7 +114,15 @@ class _Checker:
         self.checks.append(Check(name, True, detail))
 
     def activity(self, terms, x: dict[str, Fraction]) -> Fraction:
-        return sum((a * x.get(n, Fraction(0)) for n, a in terms), Fraction(0))
+        """``sum a x_n``; whole products summed as ints, with no gcd a term (D6CUBE's
+        ``A x`` and ``A^T y``, whole after _over_common: 0.55 s -> 0.12 s)."""
+        whole, rest = 0, Fraction(0)
+        for n, a in terms:
+            if (v := x.get(n)) and a.denominator == 1 == v.denominator:
+                whole += a.numerator * v.numerator
+            elif v:
+                rest += a * v
+        return rest + whole
 
     def rows_times(self, x: dict[str, Fraction]) -> dict[str, Fraction]:
         """``A x`` by row, summed over the values' common denominator."""
@@ -123,12 +131,15 @@ class _Checker:
 
     def columns_times(self, y: dict[str, Fraction]) -> dict[str, Fraction]:
         """``A^T y`` by variable, the same way."""
-        (ys, big), g = _over_common(y), {n: Fraction(0) for n in self.vars}
+        (ys, big), g, whole = _over_common(y), {n: Fraction(0) for n in self.vars}, dict.fromkeys(self.vars, 0)
         for c in self.m.constraints:
-            if ys.get(c.name):
+            if yc := ys.get(c.name):
                 for n, a in c.terms:
-                    g[n] += ys[c.name] * a
-        return {n: v / big for n, v in g.items()}
+                    if a.denominator == 1 == yc.denominator:
+                        whole[n] += a.numerator * yc.numerator
+                    else:
+                        g[n] += yc * a
+        return {n: (v + whole[n]) / big for n, v in g.items()}
 
     def primal(self) -> dict[str, Fraction]:
         x = _table(self.c.get("primal"), "primal", self.vars)

@@ -302,5 +302,7 @@ def test_verifier_imports_nothing_from_the_solver():
 
 def test_verifier_is_small():
     # 300 until the twelfth session; the sums over a common denominator (A x and
-    # A^T y, 6-7 times faster on the largest certificates) took it to 314 lines
-    assert len(VERIFIER.read_text().splitlines()) < 320
+    # A^T y, 6-7 times faster on the largest certificates) took it to 314 lines,
+    # and the whole products summed as ints (D6CUBE's check 0.79 -> 0.34 s, which
+    # a slow spell of the machine had brought near its 1 s target) to 325
+    assert len(VERIFIER.read_text().splitlines()) < 330
