@@ -197,3 +197,20 @@ def never_scaled(monkeypatch) -> None:
     import exactlp.solver.basis as basis_module
 
     monkeypatch.setattr(basis_module, "SCALE_BITS", 10**9)
+
+
+def fraction_route(path: str, monkeypatch) -> None:
+    """Make the solver's Fractions without a gcd by one route (form.frac and
+    form.coprime_fraction): "as installed" (whichever this Python offers),
+    "slots" (filled directly) or "constructor" (the keyword that skips
+    normalising up to 3.11, the plain constructor after it); skips the test
+    where "slots" does not exist."""
+    import pytest
+
+    from exactlp.solver import form
+
+    if path != "as installed":
+        monkeypatch.setattr(form, "_from_coprime", None)
+        if path == "slots" and not form._SLOTS:
+            pytest.skip("this Python's Fraction does not keep (_numerator, _denominator) slots")
+        monkeypatch.setattr(form, "_SLOTS", path == "slots")

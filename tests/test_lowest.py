@@ -20,6 +20,8 @@ from hypothesis import strategies as st
 
 from exactlp.solver import form, lowest
 
+from .helpers import fraction_route
+
 BIG_PRIMES = [mpz(65537), mpz(1_000_003), mpz(2**61 - 1), mpz(2**89 - 1)]  # Mersenne primes 2^61-1, 2^89-1
 
 
@@ -147,11 +149,7 @@ def test_the_smooth_split():
 @pytest.mark.parametrize("path", ["as installed", "slots", "constructor"])
 def test_coprime_fraction_is_the_normalising_constructor(path, monkeypatch):
     # each route to a Fraction without a gcd, as for frac() (see test_numbers.py)
-    if path != "as installed":
-        monkeypatch.setattr(form, "_from_coprime", None)
-        if path == "slots" and not form._SLOTS:
-            pytest.skip("this Python's Fraction does not keep (_numerator, _denominator) slots")
-        monkeypatch.setattr(form, "_SLOTS", path == "slots")
+    fraction_route(path, monkeypatch)
     for n, d in [(0, 1), (1, 1), (-3, 2), (10**60 + 1, 3 * 10**40), (-(2**521 - 1), 2**127 - 1)]:
         f = form.coprime_fraction(n, d)
         reference = Fraction(n, d)

@@ -176,11 +176,9 @@ def test_mpq_to_fraction_keeps_type_and_value(path, monkeypatch):
 
     from exactlp.solver import form
 
-    if path != "as installed":
-        monkeypatch.setattr(form, "_from_coprime", None)
-        if path == "slots" and not form._SLOTS:
-            pytest.skip("this Python's Fraction does not keep (_numerator, _denominator) slots")
-        monkeypatch.setattr(form, "_SLOTS", path == "slots")
+    from .helpers import fraction_route
+
+    fraction_route(path, monkeypatch)
     frac = form.frac
     values = [mpq(0), mpq(-0), mpq(1), mpq(-6, 4), mpq(10**60 + 1, 3 * 10**40), mpq(-(2**521 - 1), 2**127 - 1)]
     for v in values:

@@ -50,30 +50,21 @@ def frac(v) -> Fraction:
     """An ``mpq`` as a Fraction, without a second gcd.
 
     An ``mpq`` is always in lowest terms with a positive denominator, which is
-    exactly the form a Fraction keeps, so the pair is taken as it is (through
-    ``_from_coprime_ints`` from Python 3.12; on 3.11 by filling the two slots,
-    or the constructor's ``_normalize=False`` path).  Tests compare the result
-    with the normalising constructor.
+    exactly the form a Fraction keeps, so the pair is taken as it is (see
+    :func:`coprime_fraction`).  Tests compare the result with the normalising
+    constructor.
     """
     if not v:
         return _ZERO_FRACTION  # the commonest value (nonbasic at 0, slack rows' duals)
-    if _from_coprime is not None:
-        return _from_coprime(int(v.numerator), int(v.denominator))
-    if _SLOTS:
-        f = _new(Fraction)
-        f._numerator = int(v.numerator)
-        f._denominator = int(v.denominator)
-        return f
-    if _KEYWORD:
-        return Fraction(int(v.numerator), int(v.denominator), _normalize=False)
-    return Fraction(int(v.numerator), int(v.denominator))
+    return coprime_fraction(int(v.numerator), int(v.denominator))
 
 
 def coprime_fraction(n: int, d: int) -> Fraction:
     """The Fraction ``n / d`` for integers already in lowest terms with ``d > 0``,
-    without the gcd that the constructor would pay (see :func:`frac`).  The
-    caller proves ``gcd(n, d) = 1``; tests compare with the normalising
-    constructor."""
+    without the gcd that the constructor would pay: through
+    ``_from_coprime_ints`` from Python 3.12; on 3.11 by filling the two slots,
+    or the constructor's ``_normalize=False`` path.  The caller proves
+    ``gcd(n, d) = 1``; tests compare with the normalising constructor."""
     if not n:
         return _ZERO_FRACTION
     if _from_coprime is not None:
