@@ -186,12 +186,12 @@ def nonsingular_both_ways(rows: list[list[int]], p: int) -> tuple[bool, bool]:
     r, c, v = sparse_triples(rows)
     n = len(rows)
     with_tail = refine._nonsingular_mod(n, r, c, v, p, 10**9)
-    old = refine.DENSE_SHARE
-    refine.DENSE_SHARE = 2.0  # more than every entry: never dense
+    old = refine.DENSE_FILL
+    refine.DENSE_FILL = 0  # no share filled is enough: never dense
     try:
         sparse_only = refine._nonsingular_mod(n, r, c, v, p, 10**9)
     finally:
-        refine.DENSE_SHARE = old
+        refine.DENSE_FILL = old
     return with_tail, sparse_only
 
 

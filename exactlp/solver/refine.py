@@ -102,10 +102,11 @@ NONSINGULAR_PRIME = (1 << 26) - 5
 #: ... which gives up (unproven) past this many entry updates, about a second
 #: (STAIR's basis needs 32,000)
 NONSINGULAR_BUDGET = 2_000_000
-#: the check turns dense once the active part has this share of its entries
-#: nonzero and at least DENSE_FROM rows; a dense step over an array of residues
-#: is counted as DENSE_RATIO entry updates toward the budget
-DENSE_SHARE = 0.2
+#: the check turns dense once at least one in DENSE_FILL of the active part's
+#: entries is nonzero and DENSE_FROM rows or more are left; the dense tail's
+#: ``n^3 / 3`` element operations count as one entry update per DENSE_RATIO
+#: toward the budget
+DENSE_FILL = 5
 DENSE_FROM = 24
 DENSE_RATIO = 16
 
@@ -373,8 +374,9 @@ class FloatInverse:
         mean that ``p`` divides a nonzero determinant: then the caller factors
         exactly, and learns the truth there).  Gaussian elimination modulo the
         prime ``p`` on sparse rows, each step on the column with the fewest
-        entries left and its shortest row.  False, too, past NONSINGULAR_BUDGET
-        row operations (a dense basis: the exact factorisation decides)."""
+        entries left and its shortest row, and once the rest has filled in, on
+        one dense array (for ``p < 2^26``).  False, too, past NONSINGULAR_BUDGET
+        entry updates (a dense basis: the exact factorisation decides)."""
         return _nonsingular_mod(self.m, self.rows, self.cols, self.vals, p, NONSINGULAR_BUDGET)
 
     # ------------------------------------------------------------------
@@ -737,7 +739,7 @@ def _nonsingular_mod(m: int, rows, cols, vals, p: int, budget: int) -> bool:
     """See :meth:`FloatInverse.nonsingular`.
 
     Sparse elimination while the active part is sparse; once it has filled in
-    (at least DENSE_SHARE of its entries nonzero, DENSE_FROM or more rows), the
+    (one in DENSE_FILL of its entries nonzero, DENSE_FROM or more rows), the
     rest is eliminated as one dense array of residues (:func:`_dense_mod`).
     STAIR's basis: 240 sparse steps take 4,100 entry updates, and the last 115 x
     115, a fifth of it filled, would take 28,000 more one by one (19.5 ms in
@@ -760,7 +762,7 @@ def _nonsingular_mod(m: int, rows, cols, vals, p: int, budget: int) -> bool:
     heapq.heapify(heap)
     for step in range(m):
         left = m - step  # active rows and columns
-        if DENSE_FROM <= left < 2048 and p < 1 << 26 and nnz >= DENSE_SHARE * left * left:
+        if DENSE_FROM <= left < 2048 and p < 1 << 26 and nnz * DENSE_FILL >= left * left:
             work = left * left * left // (3 * DENSE_RATIO)
             if work > budget:
                 return False  # not proven: too big for this check
