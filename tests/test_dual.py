@@ -384,23 +384,30 @@ def test_the_plain_dual_ratio_test_skips_only_what_cannot_win():
 @contextlib.contextmanager
 def rows_both_ways():
     """Make every tableau row by numpy's sums (NUMPY_ROW_NONZEROS = 0) and check
-    each against the Python loops' row for the same basis; yields the counts.
-    (Patched and restored here, per use: a hypothesis example runs many times
-    within one test function, so a fixture's patch would pile up.)"""
+    each against the Python loops' row and the row summed over the columns met
+    (SPARSE_ROW_SHARE = 0) for the same basis; yields the counts.  (Patched and
+    restored here, per use: a hypothesis example runs many times within one
+    test function, so a fixture's patch would pile up.)"""
     pytest.importorskip("numpy")
     original = simplex_module.Simplex._tableau_row
     threshold = rows_module.NUMPY_ROW_NONZEROS
+    share = rows_module.SPARSE_ROW_SHARE
     seen = {"rows": 0, "by_numpy": 0}
 
     def both(self, p):
+        rows_module.SPARSE_ROW_SHARE = 10**9  # (every row meets a column: never by the columns met)
         fast = original(self, p)
         used = self._np_rows_cache is not None and self._np_rows_cache[1] is not None
         saved = self._np_rows_cache
         self._np_rows_cache = (len(self.cols), None)  # the loops, for the same basis
         slow = original(self, p)
         self._np_rows_cache = saved
-        assert fast == slow
+        rows_module.SPARSE_ROW_SHARE = 0  # every row by the columns met
+        met = original(self, p)
+        rows_module.SPARSE_ROW_SHARE = share
+        assert fast == slow == met
         assert all(type(v) in (int, type(mpq(0))) for v in fast[0].values())
+        assert all(type(v) in (int, type(mpq(0))) for v in met[0].values())
         seen["rows"] += 1
         seen["by_numpy"] += used
         return fast
@@ -412,6 +419,7 @@ def rows_both_ways():
     finally:
         simplex_module.Simplex._tableau_row = original
         rows_module.NUMPY_ROW_NONZEROS = threshold
+        rows_module.SPARSE_ROW_SHARE = share
 
 
 @settings(max_examples=80, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
@@ -512,3 +520,52 @@ def limbs_of(bits: int):
         yield cut
     finally:
         rows_module.ROW_LIMB_BITS, rows_module.ROW_LIMBS_MOST, simplex_module.Simplex._np_rows = saved
+
+
+def _network(sources: int, districts: int):
+    """The generated water network of cases/generated at another size (its own script)."""
+    import importlib.util
+
+    from .conftest import CASES
+
+    spec = importlib.util.spec_from_file_location("make_network", CASES / "generated" / "make_network.py")
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    mod.SOURCES, mod.DISTRICTS = sources, districts
+    return model_from_text(mod.build())
+
+
+def test_kept_leaving_keys_choose_as_a_full_scan_on_a_network(monkeypatch):
+    # check_updates compares, before every dual pivot, the row chosen from the
+    # kept keys and their sum of |delta| with a scan of every row
+    # (DualPhase._dual_leaving_scan, _infeasibility_sum); a network is where the
+    # keys matter: hundreds of rows outside their bounds, a few touched a pivot
+    from .helpers import scipy_solve
+
+    monkeypatch.setattr(simplex_module.Simplex, "check_updates", True)
+    m = _network(30, 45)
+    r, events = _events(m)
+    pivots = [e for e in events if isinstance(e, Pivot)]
+    assert _rules(events) == {"dual"} and len(pivots) == r.pivots_phase1 > 50
+    assert sum(len(e.flipped) for e in pivots) == r.bound_flips > 0
+    assert type(r.objective) is F
+    solve_verified(m, warm_start=False)
+    status, obj = scipy_solve(m)  # scipy's HiGHS, in double precision
+    assert status == "optimal" and abs(float(r.objective) - obj) <= 1e-9 * abs(obj)
+
+
+def test_rows_by_the_columns_met_keep_the_dual_path():
+    # the tableau row summed over the columns rho meets (SPARSE_ROW_SHARE), for
+    # every row, for none, and as the rule picks: the same pivots and optimum
+    share = rows_module.SPARSE_ROW_SHARE
+    m = _network(30, 45)
+    runs = []
+    try:
+        for s in (0, share, 10**9):
+            rows_module.SPARSE_ROW_SHARE = s
+            runs.append(_events(m))
+    finally:
+        rows_module.SPARSE_ROW_SHARE = share
+    (r0, e0), (r1, e1), (r2, e2) = runs
+    assert e0 == e1 == e2 and r0.objective == r1.objective == r2.objective
+    assert r0.pivots_phase1 > 50 and r0.status is exactlp.Status.OPTIMAL

@@ -168,7 +168,46 @@ class DualPhase:
         column, see :meth:`_dual_weights_update`), and ``delta_c`` rounded the
         same way; ties to the larger ``|delta|``, then the lower column.  Under
         Bland's choice, the lowest column outside its bounds.
+
+        The keys are kept between pivots (:meth:`_leaving_refresh`): a pivot
+        changes the basic values and weights only where ``alpha = B^-1 a_q`` (or
+        a flip's ftran) is nonzero, which on a sparse model is a few rows of
+        hundreds outside their bounds; every key is the one a full scan
+        (:meth:`_dual_leaving_scan`) would make, so the choice is the same.
         """
+        keys = self._leaving_refresh()
+        if not keys:
+            return -1, ZERO
+        c = min(keys) if bland else -max(k for k, _ in keys.values())[2]
+        return self.pos_of[c], keys[c][1]
+
+    def _leaving_refresh(self) -> dict:
+        """The kept keys ``{c: ((delta^2 / beta, |delta|, -c), delta)}`` of the basic
+        columns outside their bounds, after the columns marked since the last call
+        (``_leave_dirty``: their value, their weight or whether they are basic
+        changed) are looked at again; ``_leave_sum`` stays the sum of ``|delta|``."""
+        keys, dirty = self._leave_keys, self._leave_dirty
+        pos_of, beta = self.pos_of, self.dual_weights
+        total = self._leave_sum
+        for c in dirty:
+            old = keys.pop(c, None)
+            if old is not None:
+                total -= old[0][1]
+            if pos_of[c] < 0:
+                continue  # left the basis
+            delta = self._violation(c)
+            if not delta:
+                continue
+            r = _round(delta.numerator, delta.denominator)
+            mag = -delta if delta < 0 else delta
+            keys[c] = ((r * r / beta[c], mag, -c), delta)
+            total += mag
+        dirty.clear()
+        self._leave_sum = total
+        return keys
+
+    def _dual_leaving_scan(self, bland: bool) -> tuple[int, mpq]:
+        """:meth:`_dual_leaving` by a scan of every row (the tests' check of the kept keys)."""
         best, best_delta, best_key = -1, ZERO, None
         beta = self.dual_weights
         for p, c in enumerate(self.head):
@@ -428,6 +467,9 @@ class DualPhase:
         for i in range(m):
             self.dual_weights[self.f.n + i] = self._row_g[i]
         self._beta_floors: dict[int, mpq] = {}
+        self._leave_keys: dict = {}  # see _leaving_refresh
+        self._leave_dirty: set[int] = set(self.head)
+        self._leave_sum = ZERO
         # any column with two finite bounds that differ (only those can be flipped)
         self._boxed = any(lo is not None and hi is not None and lo != hi
                           for lo, hi in zip(self.lower, self.upper))
@@ -442,6 +484,9 @@ class DualPhase:
             if self.time_limit is not None and self.elapsed() > self.time_limit:
                 return Outcome("time_limit", self._infeasibility_sum(), self._duals(cost))
             p, delta = self._dual_leaving(bland)
+            if self.check_updates:
+                assert (p, delta) == self._dual_leaving_scan(bland), "dual phase: kept leaving keys drifted"
+                assert self._leave_sum == self._infeasibility_sum(), "dual phase: kept infeasibility drifted"
             if p < 0:
                 return Outcome("optimal", ZERO, None)
             if pivots >= budget:
@@ -480,8 +525,12 @@ class DualPhase:
             self.x[q] += theta
             per = theta if ad is None else theta / ad
             head, x = self.head, self.x
+            dirty = self._leave_dirty
             for r, a in alpha.items():
-                x[head[r]] -= per * a
+                c = head[r]
+                x[c] -= per * a
+                dirty.add(c)  # (b among them: its weight goes, its value lands on the bound)
+            dirty.add(q)
             bound = "lower" if s < 0 else "upper"
             x[b] = self.lower[b] if s < 0 else self.upper[b]
             self._update_reduced_costs(d, q, b, p, alpha_pq, row=(row, scale))
@@ -503,6 +552,7 @@ class DualPhase:
                 if run_degenerate > guard_limit:
                     bland = True
             if self.listener:
+                self._leaving_refresh()  # (its sum of |delta| is the infeasibility shown)
                 self.listener(Pivot(
                     iteration=self.iterations,
                     phase=1,
@@ -513,7 +563,7 @@ class DualPhase:
                     leaving_bound=bound,
                     ratio=frac(t_dual),
                     step=frac(abs(theta)),
-                    objective=frac(self._infeasibility_sum()),
+                    objective=frac(self._leave_sum),
                     degenerate=not t_dual,
                     rule=rule,
                     tableau=tab,
@@ -540,8 +590,10 @@ class DualPhase:
             return
         w, wd = self.basis.ftran_scaled(col)
         head = self.head
+        dirty = self._leave_dirty  # (the dual phase's kept keys: these values moved)
         for r, v in w.items():
             x[head[r]] -= v if wd is None else v / wd
+            dirty.add(head[r])
 
     def _start_event(self, phase: int):
         at_up = tuple(self.ref(j) for j in range(len(self.cols)) if self.state[j] == AT_UPPER)

@@ -55,6 +55,9 @@ ROW_LIMBS_MOST = 4
 #: the limbs' size in bits when smaller than the bound allows (None: as it allows;
 #: tests set a few bits to take every row through the limbs)
 ROW_LIMB_BITS = None
+#: the tableau row is summed in a dictionary of the columns it meets when those
+#: entries of A number at most 1 / SPARSE_ROW_SHARE of the columns
+SPARSE_ROW_SHARE = 4
 #: the tableau row's integer sums are made by numpy (when installed) on models
 #: with this many nonzeros or more in integer columns (see Simplex._np_rows)
 NUMPY_ROW_NONZEROS = 20_000
@@ -152,8 +155,36 @@ class TableauRows:
         big, e = ints
         irows, escale, fcols = self._int_rows()
         scale = e if d is None else e * d
-        fast = self._np_rows()
-        out = fast(big, p) if fast is not None else None
+        nz = [i for i, r in enumerate(big) if r]
+        touched = 0
+        for i in nz:
+            plus, minus, other = irows[i]
+            touched += len(plus) + len(minus) + len(other)
+        if touched * SPARSE_ROW_SHARE <= len(self.cols):
+            # rho meets few of A's entries (a network's row of B^-1 holds a few
+            # nonzeros): sums in a dictionary of the columns met, so the pivot costs
+            # nothing for the columns rho does not reach
+            acc: dict[int, int] = {}
+            get = acc.get
+            for i in nz:
+                r = int(big[i])
+                plus, minus, other = irows[i]
+                for j in plus:
+                    acc[j] = get(j, 0) + r
+                for j in minus:
+                    acc[j] = get(j, 0) - r
+                for j, a in other:
+                    acc[j] = get(j, 0) + r * a
+            out = {}
+            for j in sorted(acc):  # (the order of the other forms: by column)
+                v = acc[j]
+                if v and state[j] != BASIC:
+                    ej = escale[j]
+                    out[j] = v if ej == 1 else mpq(v, ej)
+            fast = None
+        else:
+            fast = self._np_rows()
+            out = fast(big, p) if fast is not None else None
         if out is None:  # the loops (no numpy, a narrow model, or sums past 64 bits)
             acc_i = [0] * len(self.cols)
             for i, r in enumerate(big):
