@@ -569,3 +569,74 @@ def test_rows_by_the_columns_met_keep_the_dual_path():
     (r0, e0), (r1, e1), (r2, e2) = runs
     assert e0 == e1 == e2 and r0.objective == r1.objective == r2.objective
     assert r0.pivots_phase1 > 50 and r0.status is exactlp.Status.OPTIMAL
+
+
+def test_the_dual_ratio_test_with_flips_divides_lazily_and_chooses_as_in_full():
+    # reference: every ratio divided, the groups of equal ratios taken in order and
+    # passed while the rate stays positive and every member is boxed (the rule of
+    # DualPhase._dual_entering's docstring, written out with nothing skipped);
+    # ratios straddle powers of two, where a bound off by one would misorder them
+    import heapq
+    import random
+
+    class Fake(dual_module.DualPhase):  # column states and bounds only
+        def __init__(self, state, lower, upper):
+            self.state, self.lower, self.upper, self._boxed = state, lower, upper, True
+
+    def reference(fake, row, d, s, slope):
+        cands = []
+        for j, v in row.items():
+            a = v if s > 0 else -v
+            st = fake.state[j]
+            if d[j] is None or not a or (st == 1 and a <= 0) or (st == 2 and a >= 0):
+                continue
+            t = abs(d[j] / a)
+            cands.append((t, -abs(a), j))
+        if not cands:
+            return -1, []
+        heapq.heapify(cands)
+        flips = []
+        while cands:
+            first = heapq.heappop(cands)
+            group = [first]
+            while cands and cands[0][0] == first[0]:
+                group.append(heapq.heappop(cands))
+            if any(fake.lower[j] is None or fake.upper[j] is None for _, _, j in group):
+                return first[2], flips
+            drop = sum((-na * (fake.upper[j] - fake.lower[j]) for _, na, j in group), mpq(0))
+            if slope - drop <= 0:
+                return first[2], flips
+            slope -= drop
+            flips.extend(j for _, _, j in group)
+        return -1, flips
+
+    rng = random.Random(20261204)
+    picks = [mpq(1), mpq(2), mpq(3), mpq(4), mpq(7, 2), mpq(15, 4), mpq(17, 4), mpq(31, 8), mpq(33, 8),
+             mpq(1, 3), mpq(5, 7), mpq(0), mpq(16), mpq(63, 4), mpq(3, 2), mpq(16, 15), mpq(32, 31),
+             mpq(2**70 + 1, 3), mpq(1, 2**40)]
+    counts = {"flips": 0, "none": 0, "long": 0}
+    for _ in range(1000):
+        n = rng.randint(1, 40)
+        state = [rng.choice([1] * 6 + [2] * 3 + [3]) for _ in range(n)]  # lower, upper, free
+        lower = [mpq(0) if st != 3 else None for st in state]
+        upper = [rng.choice([mpq(1), mpq(5, 2), mpq(1, 8), mpq(1, 64)] * 3 + [None]) if st != 3 else None
+                 for st in state]
+        for j in range(n):
+            if state[j] == 2 and upper[j] is None:
+                upper[j] = mpq(3)
+        d, row = [], {}
+        for j in range(n):
+            mag = rng.choice(picks)
+            d.append(mag if state[j] == 1 else -mag if state[j] == 2 else mpq(0))
+            if rng.random() < 0.85:
+                row[j] = rng.choice([1, -1, 2, -3, mpq(1, 2), mpq(-5, 4), mpq(7, 8), 4, 2**65, mpq(-1, 2**33)])
+        s = rng.choice([1, -1])
+        slope = rng.choice([mpq(1, 4), mpq(1), mpq(6), mpq(40), mpq(10**6), mpq(2**80)])
+        fake = Fake(state, lower, upper)
+        want = reference(fake, row, d, s, slope)
+        got = dual_module.DualPhase._dual_entering(fake, row, d, s, False, slope)
+        assert got == want, (state, lower, upper, d, row, s, slope)
+        counts["flips"] += bool(want[1])
+        counts["none"] += want[0] == -1
+        counts["long"] += len(want[1]) >= 3
+    assert counts["flips"] > 100 and counts["long"] > 40 and counts["none"] > 20

@@ -352,27 +352,62 @@ class DualPhase:
             return self._dual_entering_plain(row, d, s, bland), []
         found: list = []
         self._dual_entering_plain(row, d, s, bland, collect=found)
-        cands = []
-        boxed = False  # any candidate with two finite bounds (that could be flipped)
-        for j, dj, a in found:
-            t = dj / a
-            cands.append((-t if t < 0 else t, -a, j))  # (ratio, -|a_j|, j): the order of choice
-            if boxed is False and lower[j] is not None and upper[j] is not None:
-                boxed = True
-        if not cands:
+        if not found:
             return -1, []
-        if bland:
-            t0 = min(c[0] for c in cands)
-            return min(j for t, _, j in cands if t == t0), []
-        if slope is None or not boxed:  # nothing to flip: the smallest ratio enters
+        # (ratio, -|a_j|, j): the order of choice
+        boxed = any(lower[j] is not None and upper[j] is not None for j, _, _ in found)
+        if bland or not boxed:  # nothing to flip
+            cands = []
+            for j, dj, a in found:
+                t = dj / a
+                cands.append((-t if t < 0 else t, -a, j))
+            if bland:
+                t0 = min(c[0] for c in cands)
+                return min(j for t, _, j in cands if t == t0), []
             return min(cands)[2], []
-        heapq.heapify(cands)  # groups of equal ratios are taken off in order
+        # The groups are taken off in the order of their ratios, and only the first
+        # few are passed (a handful of flips against hundreds of candidates on a
+        # network), so a ratio is divided out only when it could be next: as in
+        # _dual_entering_plain, ``|t_j| > 2^(e_j - 2)`` from bit lengths alone, and a
+        # ratio ``t = n / d`` is below ``2^(bits n - bits d + 1)``; while the least
+        # such bound of the candidates not yet divided lies below that of the
+        # smallest ratio in hand, the smallest of the divided is not yet known to be
+        # the smallest of all, and the next candidate by bound is divided.  Once it
+        # is, no candidate left can equal it either, so its group is whole.
+        pending = []  # (e_j - 2, j, d_j, |a_j|): not divided yet
+        ready = []  # (|t_j|, -|a_j|, j)
+        for j, dj, a in found:
+            if not dj:
+                ready.append((ZERO, -a, j))
+                continue
+            n = dj.numerator
+            e = (n.bit_length() - dj.denominator.bit_length()
+                 - (a.bit_length() - 1 if type(a) is int else a.numerator.bit_length() - a.denominator.bit_length()))
+            pending.append((e - 2, j, dj, a))
+        heapq.heapify(pending)
+        heapq.heapify(ready)
+
+        def settle() -> None:
+            while pending:
+                if ready:
+                    t = ready[0][0]
+                    if not t:
+                        return  # 0 is the least any ratio can be, and those left are not 0
+                    if pending[0][0] >= t.numerator.bit_length() - t.denominator.bit_length() + 1:
+                        return
+                _, j, dj, a = heapq.heappop(pending)
+                t = dj / a
+                heapq.heappush(ready, (-t if t < 0 else t, -a, j))
+
         flips: list[int] = []
-        while cands:
-            first = heapq.heappop(cands)
+        while True:
+            settle()
+            if not ready:
+                return -1, flips  # every candidate passed: the rate never falls to zero
+            first = heapq.heappop(ready)
             group = [first]
-            while cands and cands[0][0] == first[0]:
-                group.append(heapq.heappop(cands))
+            while ready and ready[0][0] == first[0]:
+                group.append(heapq.heappop(ready))
             drop = ZERO
             for _, na, j in group:
                 lo, hi = lower[j], upper[j]
@@ -383,7 +418,6 @@ class DualPhase:
                 return first[2], flips
             slope -= drop
             flips.extend(j for _, _, j in group)
-        return -1, flips  # every candidate passed: the rate never falls to zero
 
     def _dual_entering_plain(self, row: dict, d: list, s: int, bland: bool, collect=None) -> int:
         """The smallest ratio ``d_j / a_j`` (ties as in :meth:`_dual_entering`; under
