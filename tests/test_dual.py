@@ -531,18 +531,30 @@ def _network(sources: int, districts: int):
     spec = importlib.util.spec_from_file_location("make_network", CASES / "generated" / "make_network.py")
     mod = importlib.util.module_from_spec(spec)
     spec.loader.exec_module(mod)
-    mod.SOURCES, mod.DISTRICTS = sources, districts
-    return model_from_text(mod.build())
+    return model_from_text(mod.build(sources, districts))
 
 
-def test_kept_leaving_keys_choose_as_a_full_scan_on_a_network(monkeypatch):
+@pytest.mark.parametrize("slack", [64, 0])
+def test_kept_leaving_keys_choose_as_a_full_scan_on_a_network(monkeypatch, slack):
     # check_updates compares, before every dual pivot, the row chosen from the
     # kept keys and their sum of |delta| with a scan of every row
     # (DualPhase._dual_leaving_scan, _infeasibility_sum); a network is where the
-    # keys matter: hundreds of rows outside their bounds, a few touched a pivot
+    # keys matter: many rows outside their bounds, a few touched a pivot.  The
+    # keys' heap is rebuilt now and then (every pivot or so with no slack).
     from .helpers import scipy_solve
 
     monkeypatch.setattr(simplex_module.Simplex, "check_updates", True)
+    monkeypatch.setattr(dual_module, "LEAVE_HEAP_SLACK", slack)
+    rebuilt = []
+    refresh = dual_module.DualPhase._leaving_refresh
+
+    def counting(self):
+        before = len(self._leave_heap)
+        keys = refresh(self)
+        rebuilt.append(len(self._leave_heap) == len(keys) < before)
+        return keys
+
+    monkeypatch.setattr(dual_module.DualPhase, "_leaving_refresh", counting)
     m = _network(30, 45)
     r, events = _events(m)
     pivots = [e for e in events if isinstance(e, Pivot)]
@@ -552,6 +564,7 @@ def test_kept_leaving_keys_choose_as_a_full_scan_on_a_network(monkeypatch):
     solve_verified(m, warm_start=False)
     status, obj = scipy_solve(m)  # scipy's HiGHS, in double precision
     assert status == "optimal" and abs(float(r.objective) - obj) <= 1e-9 * abs(obj)
+    assert sum(rebuilt) >= (60 if slack == 0 else 20)  # the rebuilt heap chose as the scan too
 
 
 def test_rows_by_the_columns_met_keep_the_dual_path():

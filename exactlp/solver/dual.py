@@ -87,6 +87,9 @@ WEIGHT_BITS = 64
 ROW_SCALED = True
 #: the dual ratio test passes breakpoints of columns with two finite bounds by flipping them
 BOUND_FLIPS = True
+#: the heap of leaving-row keys is rebuilt when it holds more than twice the keys
+#: and this many entries (see DualPhase._leaving_refresh)
+LEAVE_HEAP_SLACK = 64
 
 
 def _round(n, d) -> mpq:
@@ -178,17 +181,32 @@ class DualPhase:
         keys = self._leaving_refresh()
         if not keys:
             return -1, ZERO
-        c = min(keys) if bland else -max(k for k, _ in keys.values())[2]
+        if bland:
+            c = min(keys)
+        else:
+            # the largest key: the top of a heap of (-key) entries, passing over
+            # entries made stale by a later key for the same column
+            heap = self._leave_heap
+            while True:
+                c, serial = heap[0][2], heap[0][3]
+                got = keys.get(c)
+                if got is not None and got[2] == serial:
+                    break
+                heapq.heappop(heap)
         return self.pos_of[c], keys[c][1]
 
     def _leaving_refresh(self) -> dict:
-        """The kept keys ``{c: ((delta^2 / beta, |delta|, -c), delta)}`` of the basic
-        columns outside their bounds, after the columns marked since the last call
-        (``_leave_dirty``: their value, their weight or whether they are basic
-        changed) are looked at again; ``_leave_sum`` stays the sum of ``|delta|``."""
-        keys, dirty = self._leave_keys, self._leave_dirty
+        """The kept keys ``{c: ((delta^2 / beta, |delta|, -c), delta, serial)}`` of the
+        basic columns outside their bounds, after the columns marked since the last
+        call (``_leave_dirty``: their value, their weight or whether they are basic
+        changed) are looked at again; ``_leave_sum`` stays the sum of ``|delta|``,
+        and ``_leave_heap`` holds ``(-key, serial)`` for every key made (the current
+        one of a column is the entry with its serial), rebuilt from the keys when
+        the stale entries pass twice their number."""
+        keys, dirty, heap = self._leave_keys, self._leave_dirty, self._leave_heap
         pos_of, beta = self.pos_of, self.dual_weights
         total = self._leave_sum
+        serial = self._leave_serial
         for c in dirty:
             old = keys.pop(c, None)
             if old is not None:
@@ -200,10 +218,17 @@ class DualPhase:
                 continue
             r = _round(delta.numerator, delta.denominator)
             mag = -delta if delta < 0 else delta
-            keys[c] = ((r * r / beta[c], mag, -c), delta)
+            score = r * r / beta[c]
+            serial += 1
+            keys[c] = ((score, mag, -c), delta, serial)
+            heapq.heappush(heap, (-score, -mag, c, serial))
             total += mag
         dirty.clear()
         self._leave_sum = total
+        self._leave_serial = serial
+        if len(heap) > 2 * len(keys) + LEAVE_HEAP_SLACK:
+            heap[:] = [(-k[0], -k[1], c, n) for c, (k, _, n) in keys.items()]
+            heapq.heapify(heap)
         return keys
 
     def _dual_leaving_scan(self, bland: bool) -> tuple[int, mpq]:
@@ -503,6 +528,8 @@ class DualPhase:
         self._beta_floors: dict[int, mpq] = {}
         self._leave_keys: dict = {}  # see _leaving_refresh
         self._leave_dirty: set[int] = set(self.head)
+        self._leave_heap: list = []
+        self._leave_serial = 0
         self._leave_sum = ZERO
         # any column with two finite bounds that differ (only those can be flipped)
         self._boxed = any(lo is not None and hi is not None and lo != hi
