@@ -22,6 +22,15 @@ from .conftest import NETLIB, needs_netlib, netlib_table
 from .helpers import always_scaled, never_scaled
 from .models import KNOWN, klee_minty
 
+def factor_ft_with_rows(m, head, cols, unit_row, **kw):
+    """:func:`factor_ft` with U's rows made at once, so that every Forrest-Tomlin
+    update clears its row through them (``FTBasis._clear_row``) instead of
+    scanning every later column (what an update does before any btran)."""
+    basis, new_head = factor_ft(m, head, cols, unit_row, **kw)
+    basis.make_rows()
+    return basis, new_head
+
+
 FACTORS = {
     "eta-file": reinvert,
     "sparse-lu": factor_lu,  # the nucleus on integer rows once its numbers are long (here never)
@@ -29,6 +38,8 @@ FACTORS = {
     "sparse-lu-integers": partial(factor_lu, integer_rows=True),
     "sparse-lu-ft": factor_ft,
     "sparse-lu-ft-integers": partial(factor_ft, integer_rows=True),
+    "sparse-lu-ft-rows": factor_ft_with_rows,
+    "sparse-lu-ft-integers-rows": partial(factor_ft_with_rows, integer_rows=True),
 }
 
 
@@ -129,7 +140,7 @@ def test_every_factorisation_agrees_after_updates(scale_bits):
     from fractions import Fraction as F
 
     rng = random.Random(3)
-    updated = row_scaled = between = kept_rows = 0
+    updated = row_scaled = between = kept_rows = cleared = 0
     for m, cols, unit, head in random_bases():
         try:
             group = [f(m, head, cols, unit) for f in FACTORS.values()]
@@ -148,6 +159,14 @@ def test_every_factorisation_agrees_after_updates(scale_bits):
                 b.replace(p, w, cols[q])
                 h[p] = q
             updated += 1
+            # the row etas of an update are the same whether its row was cleared
+            # through U's rows or by the scan of every later column
+            names = list(FACTORS)
+            for plain, rows in (("sparse-lu-ft", "sparse-lu-ft-rows"),
+                                ("sparse-lu-ft-integers", "sparse-lu-ft-integers-rows")):
+                a, b = group[names.index(plain)][0], group[names.index(rows)][0]
+                assert a.rsteps == b.rsteps and a.ucols == b.ucols
+                cleared += b._names is not None and bool(b.rsteps)
             # a btran between updates: the factors' rows (made by the first
             # transposed solve) must be kept in step by each update after it
             if rng.random() < 0.6:
@@ -185,9 +204,15 @@ def test_every_factorisation_agrees_after_updates(scale_bits):
             if getattr(b, "_urows", None) is not None:  # U's rows, kept in step, are U's rows
                 assert b._urows == basis_module._rows_of_upper(m, b.ucols)
                 kept_rows += bool(b.updates)
+            if getattr(b, "_names", None) is not None:  # U's columns by name, in U's order
+                by_name, fc_by_name, stamps, last = b._names
+                assert [by_name[e[0]] for e in b.ucols] == b.ucols and len(by_name) == m
+                assert sorted(stamps, key=stamps.get) == [e[0] for e in b.ucols] and max(stamps.values()) < last
+                if b.fcols is not None:
+                    assert [fc_by_name[e[0]] for e in b.fcols] == b.fcols
     # the integer copy of U is built by the first scaled ftran of a factorisation
     # whose nucleus went to integer rows (here only the forced ones)
-    assert updated > 300 and between > 150 and kept_rows > 100
+    assert updated > 300 and between > 150 and kept_rows > 100 and cleared > 100
     if scale_bits == 0:
         assert row_scaled > 50
 

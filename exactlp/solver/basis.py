@@ -483,6 +483,9 @@ class FTBasis(LUBasis):
         # column's entries above the diagonal into a dictionary by row, so that an
         # update finds row p in a column without reading the whole column.
         self._dicts = False
+        # U's columns by name (pivot row), their order, and the integer copy's,
+        # made at the first update that can use U's rows (see _clear_row)
+        self._names = None
 
     def fresh_copy(self) -> "FTBasis":
         twin = LUBasis.fresh_copy(self)
@@ -549,6 +552,36 @@ class FTBasis(LUBasis):
                     w[rj] -= z * wp
         return self._lower_t(w), d
 
+    def _clear_row(self, p: int, urows, by_name, fc_by_name, stamps) -> dict[int, mpq]:
+        """The multipliers ``z`` (by pivot row) that clear row p from the columns after
+        its own, found from U's rows: a column is looked at only if it has an entry in
+        row p or in the row of a column whose multiplier is nonzero (any other gets
+        ``t = 0`` and changes nothing), in U's column order (``stamps``), so ``z`` is
+        the one the scan of every later column makes, in the same order.  Row p's
+        entries leave those columns (and the integer copy's) on the way."""
+        z: dict[int, mpq] = {}
+        first = urows[p]
+        heap = [(stamps[c], c) for c in first]
+        heapq.heapify(heap)
+        queued = set(first)
+        while heap:
+            c = heapq.heappop(heap)[1]
+            _, ujj, above = by_name[c]
+            t = above.pop(p, None)  # row p leaves this column: R_new makes that entry zero
+            if t is None:
+                t = ZERO  # (reached through z)
+            elif fc_by_name is not None:
+                del fc_by_name[c][2][p]
+            if z:
+                t = _less_z(t, z, above)
+            if t:
+                z[c] = t / ujj
+                for c2 in urows[c]:  # the later columns with an entry in row c
+                    if c2 not in queued:
+                        queued.add(c2)
+                        heapq.heappush(heap, (stamps[c2], c2))
+        return z
+
     def replace(self, p: int, w: dict[int, mpq], col=None, scale=None) -> None:
         if col is None:
             raise ValueError("a Forrest-Tomlin update needs the entering column")
@@ -568,32 +601,33 @@ class FTBasis(LUBasis):
         spike = last[1] if last is not None and last[0] is col else self._spike(col)
         self._last = None
         ucols, fc = self.ucols, self.fcols
-        k = next(i for i, (r, _, _) in enumerate(ucols) if r == p)
-        # multipliers z (by pivot row) that clear row p from the columns after k:
-        # column j's entry in row p, less what the earlier multipliers took, over u_jj
-        z: dict[int, mpq] = {}
-        for j in range(k + 1, len(ucols)):
-            r, ujj, above = ucols[j]
-            t = above.pop(p, None)  # row p leaves this column: R_new makes that entry zero
-            if fc is not None and t is not None:
-                del fc[j][2][p]
-            if t is None:
-                if not z:
-                    continue
-                t = ZERO
-            if z:
-                if len(z) < len(above):
-                    for ri, zi in z.items():
-                        u = above.get(ri)
-                        if u is not None:
-                            t -= zi * u
-                else:
-                    for ri, u in above.items():
-                        zi = z.get(ri)
-                        if zi is not None:
-                            t -= zi * u
-            if t:
-                z[r] = t / ujj
+        urows = self._urows
+        if urows is not None:
+            if self._names is None:
+                self._names = ({e[0]: e for e in ucols},
+                               None if fc is None else {e[0]: e for e in fc},
+                               {e[0]: i for i, e in enumerate(ucols)}, len(ucols))
+            by_name, fc_by_name, stamps, _ = self._names
+            k = ucols.index(by_name[p])
+            z = self._clear_row(p, urows, by_name, fc_by_name, stamps)
+        else:
+            k = next(i for i, (r, _, _) in enumerate(ucols) if r == p)
+            # multipliers z (by pivot row) that clear row p from the columns after k:
+            # column j's entry in row p, less what the earlier multipliers took, over u_jj
+            z = {}
+            for j in range(k + 1, len(ucols)):
+                r, ujj, above = ucols[j]
+                t = above.pop(p, None)  # row p leaves this column: R_new makes that entry zero
+                if fc is not None and t is not None:
+                    del fc[j][2][p]
+                if t is None:
+                    if not z:
+                        continue
+                    t = ZERO
+                if z:
+                    t = _less_z(t, z, above)
+                if t:
+                    z[r] = t / ujj
         d = spike.get(p, ZERO)
         for rj, zj in z.items():
             sj = spike.get(rj)
@@ -619,10 +653,33 @@ class FTBasis(LUBasis):
             del fc[k]
             fc.append((p, d if den[p] == 1 else d * den[p],
                        {i: (v if den[i] == 1 else v * den[i]) for i, v in ucols[-1][2].items()}))
+        names = self._names
+        if names is not None:  # column p is now the last
+            by_name, fc_by_name, stamps, last = names
+            by_name[p] = ucols[-1]
+            if fc_by_name is not None:
+                fc_by_name[p] = fc[-1]
+            stamps[p] = last
+            self._names = (by_name, fc_by_name, stamps, last + 1)
         if z:
             self.rsteps.append((p, list(z.items())))
         self.eta_nonzeros += len(z) + len(ucols[-1][2]) + 1
         self.updates += 1
+
+
+def _less_z(t: mpq, z: dict[int, mpq], above: dict[int, mpq]) -> mpq:
+    """``t - sum_i z_i u_i`` over the rows ``i`` in both ``z`` and the column ``above``."""
+    if len(z) < len(above):
+        for ri, zi in z.items():
+            u = above.get(ri)
+            if u is not None:
+                t -= zi * u
+    else:
+        for ri, u in above.items():
+            zi = z.get(ri)
+            if zi is not None:
+                t -= zi * u
+    return t
 
 
 def _rows_of_upper(m: int, ucols) -> list[dict[int, mpq]]:
