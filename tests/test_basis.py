@@ -460,3 +460,46 @@ def test_row_scaled_copy_gives_up_on_rows_of_many_primes():
     for (r, ukk, above), (fr, fkk, fabove) in zip(ucols, fcols):
         assert fr == r and fkk == ukk * rowden[r]
         assert dict(fabove) == {rj: u * rowden[rj] for rj, u in above}
+
+
+@pytest.mark.parametrize("name", ["sparse-lu", "sparse-lu-integers", "sparse-lu-ft", "sparse-lu-ft-rows",
+                                  "sparse-lu-ft-integers-rows"])
+def test_back_substitution_by_the_columns_reached_is_the_full_one(monkeypatch, name):
+    # the same ftran (values and the order of its entries) by the columns the
+    # vector reaches (SPARSE_SOLVE_SHARE = 1: always) and by every column (never),
+    # on two copies of each factorisation taken through the same updates, scaled
+    # and unscaled; the result also solves B x = a exactly
+    rng = random.Random(11)
+    compared = 0
+    for m, cols, unit, head in random_bases(120, seed=5):
+        try:
+            pair = [FACTORS[name](m, head, cols, unit) for _ in range(2)]
+        except ArithmeticError:
+            continue
+        for step in range(7):
+            j = rng.randrange(len(cols))
+            outs = []
+            for (b, h), share in zip(pair, (1, 10**9)):
+                monkeypatch.setattr(basis_module, "SPARSE_SOLVE_SHARE", share)
+                outs.append(list(b.ftran(cols[j]).items()))
+                scaled = getattr(b, "ftran_scaled", None)
+                if scaled is not None:
+                    w, d = scaled(cols[j])
+                    outs.append((list(w.items()), d))
+            assert outs[: len(outs) // 2] == outs[len(outs) // 2:]
+            x = dict(outs[0])
+            h = pair[0][1]
+            got = {}
+            for p, v in x.items():
+                for i, a in cols[h[p]]:
+                    got[i] = got.get(i, mpq(0)) + a * v
+            assert {i: v for i, v in got.items() if v} == {i: a for i, a in cols[j] if a}
+            compared += 1
+            if step % 2 == 1 and x:  # an update on both, then go on
+                p = min(x)
+                if not x[p]:
+                    break
+                for b, hh in pair:
+                    b.replace(p, dict(x) if not hasattr(b, "rsteps") else b.ftran(cols[j]), cols[j])
+                    hh[p] = j
+    assert compared > 300

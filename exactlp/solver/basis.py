@@ -184,18 +184,54 @@ class EtaBasis:
         self._set_scale()
 
 
-def _back_substitute(ucols, v: dict[int, mpq]) -> dict[int, mpq]:
+#: a back-substitution goes by the columns its vector reaches when they are at
+#: most 1 / SPARSE_SOLVE_SHARE of U's columns (see _back_substitute)
+SPARSE_SOLVE_SHARE = 8
+
+
+def _back_substitute(ucols, v: dict[int, mpq], by_name=None, order=None) -> dict[int, mpq]:
     """``x`` with ``U x = v`` for U given by columns in elimination order,
     ``[(r_k, u_kk, entries above the diagonal by row)]`` (``v`` is used up).
     The kernel of :meth:`LUBasis._upper` (U itself) and of
-    :meth:`LUBasis._upper_scaled` (U with its rows made integers)."""
+    :meth:`LUBasis._upper_scaled` (U with its rows made integers).
+
+    With ``by_name`` and ``order`` (:meth:`LUBasis._name_maps`), the columns that
+    ``v`` can reach are found first (a column's value feeds the rows of its
+    entries, whose columns come earlier), and when they are few only they are
+    visited, latest first: the values are the same, found in the same order,
+    and a sparse vector costs nothing for the columns it never meets (a
+    network's ftran reaches a tenth of U or less)."""
+    if by_name is not None:
+        limit = len(ucols) // SPARSE_SOLVE_SHARE
+        seen = set(v)
+        stack = list(seen)
+        while stack and len(seen) <= limit:
+            above = by_name[stack.pop()][2]
+            for i in (above if type(above) is dict else [i for i, _ in above]):
+                if i not in seen:
+                    seen.add(i)
+                    stack.append(i)
+        if len(seen) <= limit:
+            w = v
+            x: dict[int, mpq] = {}
+            get = w.get
+            for r in sorted(seen, key=order.__getitem__, reverse=True):
+                t = get(r)
+                if not t:
+                    continue
+                _, ukk, above = by_name[r]
+                t = t / ukk
+                x[r] = t
+                for i, e in (above.items() if type(above) is dict else above):
+                    w[i] = get(i, ZERO) - e * t
+            return x
     # the vector dense, by row: U has a column for every row, so the loop below
     # visits every row anyway, and a list entry costs less than a dictionary's
     # (no lookup with a default, no removal of the entries that become zero)
     w = [ZERO] * len(ucols)
     for i, a in v.items():
         w[i] = a
-    x: dict[int, mpq] = {}
+    x = {}
     for r, ukk, above in reversed(ucols):
         t = w[r]
         if not t:
@@ -307,6 +343,9 @@ class LUBasis(EtaBasis):
         # the factors by rows, for the transposed solves (made by the first one)
         self._urows: list[dict[int, mpq]] | None = None
         self._lrows = None
+        # U's columns by name (pivot row), the integer copy's, and their order (see
+        # _name_maps); made when first needed, again after the columns are rebuilt
+        self._names = None
         self.pivots = pivots
         #: nonzeros of L and U (the diagonal included): the cost of one solve with the factors
         self.lu_nonzeros = sum(len(ls) for _, ls in lsteps) + sum(len(above) + 1 for _, _, above in ucols)
@@ -360,7 +399,19 @@ class LUBasis(EtaBasis):
 
     def _upper(self, v: dict[int, mpq]) -> dict[int, mpq]:
         """``U^-1 v`` by back-substitution (``v`` is used up)."""
-        return _back_substitute(self.ucols, v)
+        names = self._name_maps()
+        return _back_substitute(self.ucols, v, names[0], names[2])
+
+    def _name_maps(self):
+        """``(U's columns by name, the integer copy's or None, order, next)``: the
+        name of a column is its pivot row; ``order`` grows along U's columns (an
+        update moves a column to the end with the next number, see FTBasis)."""
+        names = self._names
+        if names is None:
+            ucols, fc = self.ucols, self.fcols
+            names = self._names = ({e[0]: e for e in ucols}, None if fc is None else {e[0]: e for e in fc},
+                                   {e[0]: i for i, e in enumerate(ucols)}, len(ucols))
+        return names
 
     def _upper_scaled(self, v: dict[int, mpq]) -> dict[int, mpq]:
         """``U^-1 v`` for a scaled solve (``v`` is used up), on U's rows made integers.
@@ -382,13 +433,15 @@ class LUBasis(EtaBasis):
             order, scale, uint = self._fsrc
             self._fsrc = None
             self.fcols, self.rowden = _row_scaled(self.m, order, self.ucols, scale, uint)
+            self._names = None  # (now with the integer copy's columns)
             fc = self.fcols
         den = self.rowden
         w: dict[int, mpq] = {}
         for r, a in v.items():
             dr = den[r]
             w[r] = a if dr == 1 else a * dr
-        return _back_substitute(fc, w)
+        names = self._name_maps()
+        return _back_substitute(fc, w, names[1], names[2])
 
     # The transposed solves go by the rows of the factors, so that a zero of the
     # vector costs nothing.  A btran starts from a unit vector (a row of B^-1) or
@@ -483,9 +536,6 @@ class FTBasis(LUBasis):
         # column's entries above the diagonal into a dictionary by row, so that an
         # update finds row p in a column without reading the whole column.
         self._dicts = False
-        # U's columns by name (pivot row), their order, and the integer copy's,
-        # made at the first update that can use U's rows (see _clear_row)
-        self._names = None
 
     def fresh_copy(self) -> "FTBasis":
         twin = LUBasis.fresh_copy(self)
@@ -498,6 +548,7 @@ class FTBasis(LUBasis):
         self._fsrc = None  # the integer copy is built before the first update or not at all
         if self.fcols is not None:
             self.fcols = [(r, ukk, dict(above)) for r, ukk, above in self.fcols]
+        self._names = None  # (new tuples)
         self._dicts = True
 
     def _spike(self, col) -> dict[int, mpq]:
@@ -603,11 +654,7 @@ class FTBasis(LUBasis):
         ucols, fc = self.ucols, self.fcols
         urows = self._urows
         if urows is not None:
-            if self._names is None:
-                self._names = ({e[0]: e for e in ucols},
-                               None if fc is None else {e[0]: e for e in fc},
-                               {e[0]: i for i, e in enumerate(ucols)}, len(ucols))
-            by_name, fc_by_name, stamps, _ = self._names
+            by_name, fc_by_name, stamps, _ = self._name_maps()
             k = ucols.index(by_name[p])
             z = self._clear_row(p, urows, by_name, fc_by_name, stamps)
         else:
