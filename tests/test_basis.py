@@ -503,3 +503,44 @@ def test_back_substitution_by_the_columns_reached_is_the_full_one(monkeypatch, n
                     b.replace(p, dict(x) if not hasattr(b, "rsteps") else b.ftran(cols[j]), cols[j])
                     hh[p] = j
     assert compared > 300
+
+
+@pytest.mark.parametrize("name", FACTORS)
+def test_row_of_the_inverse_by_what_it_reaches_is_the_dense_one(monkeypatch, scale_bits, name):
+    # btran_unit(p) gives the nonzeros of the dense btran of e_p, in increasing
+    # position, by the rows it reaches in U and L (SPARSE_SOLVE_SHARE = 1:
+    # always) and by the dense solves (10**9: never), on two copies of each
+    # factorisation taken through the same updates; and rho B = e_p exactly
+    rng = random.Random(13)
+    compared = sparse_nonzero = 0
+    for m, cols, unit, head in random_bases(120, seed=9):
+        try:
+            pair = [FACTORS[name](m, head, cols, unit) for _ in range(2)]
+        except ArithmeticError:
+            continue
+        for step in range(6):
+            h = pair[0][1]
+            for p in range(m):
+                outs = []
+                for (b, _), share in zip(pair, (1, 10**9)):
+                    monkeypatch.setattr(basis_module, "SPARSE_SOLVE_SHARE", share)
+                    outs.append(b.btran_unit(p))
+                    dense, d = b.btran_scaled({p: mpq(1)})
+                    outs.append(({i: v for i, v in enumerate(dense) if v}, d))
+                assert all(o == outs[0] for o in outs[1:])
+                rho, d = outs[0]
+                assert list(rho) == sorted(rho) and all(type(v) is type(mpq(0)) and v for v in rho.values())
+                for q, c in enumerate(h):
+                    got = sum((rho.get(i, mpq(0)) * a for i, a in cols[c]), mpq(0))
+                    assert got == (0 if q != p else (d if d is not None else 1))
+                compared += 1
+                sparse_nonzero += 0 < len(rho) < m
+            j = rng.randrange(len(cols))
+            ws = [b.ftran(cols[j]) for b, _ in pair]
+            if not ws[0]:
+                break
+            p = min(ws[0])
+            for (b, hh), w in zip(pair, ws):
+                b.replace(p, w, cols[j])
+                hh[p] = j
+    assert compared > 1000 and sparse_nonzero > 200

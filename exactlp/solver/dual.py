@@ -276,9 +276,9 @@ class DualPhase:
         beta, head = self.dual_weights, self.head
         rho, rd = self.last_rho
         g = self._row_g
-        w = [(i, v * g[i]) for i, v in enumerate(rho) if v]
+        w = [(i, v * g[i]) for i, v in rho.items()]  # (rho: its nonzeros, see btran_unit)
         # beta_p = ||rho_p||^2 exactly, with rho_p = rho / rd
-        sq = sum((v * v * g[i] for i, v in enumerate(rho) if v), ZERO)
+        sq = sum((v * v * g[i] for i, v in rho.items()), ZERO)
         if rd is not None:
             sq = sq / (rd * rd)
         bp = _round(sq.numerator, sq.denominator)

@@ -33,12 +33,14 @@ BASIC = 0  # the column state of simplex.py (a test checks)
 DUAL_INTS_SLACK = 64
 
 
-def _dual_ints(y: list[mpq]):
+def _dual_ints(y):
     """``(Y, D)`` with ``y = Y / D``, ``D`` the least common multiple of the
     denominators of ``y`` and ``Y`` integers; or None when ``D`` is long
     (past ``DUAL_INTS_SLACK`` + twice the longest denominator: nested
-    denominators, whose product would make every ``Y_i`` long)."""
-    dens = {v.denominator for v in y if v}  # the distinct ones (the duals share a few)
+    denominators, whose product would make every ``Y_i`` long).  ``y`` is a
+    list, or a dictionary of nonzero entries (then so is ``Y``)."""
+    sparse = type(y) is dict
+    dens = {v.denominator for v in (y.values() if sparse else y) if v}  # the distinct ones (the duals share a few)
     limit = DUAL_INTS_SLACK + 2 * max((d.bit_length() for d in dens), default=0)
     dy = ONE_Z
     for den in dens:
@@ -46,6 +48,8 @@ def _dual_ints(y: list[mpq]):
             dy = _lcm(dy, den)
             if dy.bit_length() > limit:  # (the multiples only grow: the same answer in any order)
                 return None
+    if sparse:
+        return {i: v.numerator * (dy // v.denominator) for i, v in y.items()}, dy
     return [v.numerator * (dy // v.denominator) if v else 0 for v in y], dy
 
 
@@ -132,7 +136,7 @@ class TableauRows:
         # the btran's scaled row ``D rho`` has (nearly) integer entries, so the
         # sums below meet only the short denominators of A; they are left scaled
         # (see basis.EtaBasis._set_scale and _update_reduced_costs)
-        rho, d = self.basis.btran_scaled({p: ONE})
+        rho, d = self.basis.btran_unit(p)  # its nonzeros, by position
         self.last_rho = (rho, d)  # D rho and D (None: unscaled), for the dual's weights
         state = self.state
         ints = _dual_ints(rho)
@@ -140,11 +144,10 @@ class TableauRows:
             rows = self._rows()
             acc: dict[int, mpq] = {}
             get = acc.get
-            for i, r in enumerate(rho):
-                if r:
-                    for j, a in rows[i]:
-                        if state[j] != BASIC:
-                            acc[j] = get(j, ZERO) + r * a
+            for i, r in rho.items():
+                for j, a in rows[i]:
+                    if state[j] != BASIC:
+                        acc[j] = get(j, ZERO) + r * a
             return acc, d
         # On integers: rho = R / E (E the common denominator of the btran's
         # result), and column j of A is its integers over e_j, so
@@ -155,9 +158,8 @@ class TableauRows:
         big, e = ints
         irows, escale, fcols = self._int_rows()
         scale = e if d is None else e * d
-        nz = [i for i, r in enumerate(big) if r]
         touched = 0
-        for i in nz:
+        for i in big:
             plus, minus, other = irows[i]
             touched += len(plus) + len(minus) + len(other)
         if touched * SPARSE_ROW_SHARE <= len(self.cols):
@@ -166,8 +168,8 @@ class TableauRows:
             # nothing for the columns rho does not reach
             acc: dict[int, int] = {}
             get = acc.get
-            for i in nz:
-                r = int(big[i])
+            for i, r in big.items():
+                r = int(r)
                 plus, minus, other = irows[i]
                 for j in plus:
                     acc[j] = get(j, 0) + r
@@ -184,20 +186,25 @@ class TableauRows:
             fast = None
         else:
             fast = self._np_rows()
-            out = fast(big, p) if fast is not None else None
+            if fast is not None:
+                dense = [0] * self.m
+                for i, r in big.items():
+                    dense[i] = r
+                out = fast(dense, p)
+            else:
+                out = None
         if out is None:  # the loops (no numpy, a narrow model, or sums past 64 bits)
             acc_i = [0] * len(self.cols)
-            for i, r in enumerate(big):
-                if r:
-                    r = int(r)
-                    plus, minus, other = irows[i]
-                    # (entries +-1, most of A in many models, need no product)
-                    for j in plus:
-                        acc_i[j] += r
-                    for j in minus:
-                        acc_i[j] -= r
-                    for j, a in other:
-                        acc_i[j] += r * a
+            for i, r in big.items():
+                r = int(r)
+                plus, minus, other = irows[i]
+                # (entries +-1, most of A in many models, need no product)
+                for j in plus:
+                    acc_i[j] += r
+                for j in minus:
+                    acc_i[j] -= r
+                for j, a in other:
+                    acc_i[j] += r * a
             # (a whole entry stays a Python integer: mpq arithmetic takes it as it is,
             # and it has the numerator and denominator that the devex update reads)
             out = {}
@@ -209,8 +216,9 @@ class TableauRows:
             if state[j] != BASIC:
                 v = ZERO
                 for i, a in col:
-                    if big[i]:
-                        v += big[i] * a
+                    r = big.get(i)
+                    if r:
+                        v += r * a
                 if v:
                     out[j] = v
         return out, (None if scale == 1 else scale)

@@ -712,12 +712,11 @@ class Simplex(DualPhase, TableauRows):
     def _update_duals(self, y: list[mpq], dq: mpq, p: int, alpha_pq: mpq) -> None:
         """``y' = y + theta rho`` with ``theta = d_q / alpha_pq`` (see :meth:`_update_reduced_costs`)."""
         theta = dq / alpha_pq
-        rho, d = self.basis.btran_scaled({p: ONE})
+        rho, d = self.basis.btran_unit(p)
         if d is not None:
             theta /= d
-        for i, r in enumerate(rho):
-            if r:
-                y[i] += theta * r
+        for i, r in rho.items():
+            y[i] += theta * r
 
     def _price_partial(self, cost: list[mpq], y: list[mpq], lowest: bool):
         """Partial pricing: reduced costs of a part of the columns, from the duals.
