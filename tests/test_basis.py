@@ -249,6 +249,7 @@ def test_pivot_path_does_not_depend_on_the_factorisation(monkeypatch):
                 monkeypatch.setattr(simplex, "FACTOR", factor)
                 monkeypatch.setattr(simplex, "REINVERT_EVERY", every)
                 monkeypatch.setattr(simplex, "REINVERT_EVERY_SCALED", every)
+                monkeypatch.setattr(simplex, "REINVERT_BY_ROWS", False)
                 always_scaled(monkeypatch) if scaled else never_scaled(monkeypatch)
                 path = []
                 for m in models:
@@ -265,6 +266,7 @@ def test_pivot_path_does_not_depend_on_the_factorisation(monkeypatch):
 def test_solver_reaches_the_same_optimum_with_either(name, monkeypatch):
     monkeypatch.setattr(simplex, "FACTOR", FACTORS[name])
     monkeypatch.setattr(simplex, "REINVERT_EVERY", 3)  # refactor often
+    monkeypatch.setattr(simplex, "REINVERT_BY_ROWS", False)
     from exactlp.io import model_from_text
 
     for _, text, status, objective, _ in KNOWN:
@@ -544,3 +546,32 @@ def test_row_of_the_inverse_by_what_it_reaches_is_the_dense_one(monkeypatch, sca
                 b.replace(p, w, cols[j])
                 hh[p] = j
     assert compared > 1000 and sparse_nonzero > 200
+
+
+def test_refactor_interval_grows_with_the_square_root_of_the_rows():
+    # 16 updates up to 288 rows, then isqrt(m); scaled solves every 8
+    every = simplex.refactor_every
+    assert [every(m, False) for m in (1, 100, 288, 289, 400, 1000, 3000, 6071)] == [16, 16, 16, 17, 20, 31, 54, 77]
+    assert [every(m, True) for m in (1, 289, 3000)] == [8, 8, 8]
+
+
+def test_refactoring_by_the_rows_changes_no_pivot_on_a_network(monkeypatch):
+    # a 320-row network refactors every 17 updates by its rows and every 16
+    # without: the same first 300 pivots and flips, and it did refactor
+    from .test_dual import _network
+    from exactlp.solver.events import Pivot
+
+    model = _network(120, 200)
+    runs, counts = [], []
+    reinvert = simplex.Simplex._reinvert
+    for by_rows in (True, False):
+        monkeypatch.setattr(simplex, "REINVERT_BY_ROWS", by_rows)
+        seen = []
+        monkeypatch.setattr(simplex.Simplex, "_reinvert", lambda self: (seen.append(self.basis.updates), reinvert(self))[1])
+        events = []
+        result = exactlp.solve(model, warm_start=False, listener=events.append, iteration_limit=300)
+        runs.append(([(e.entering, e.leaving, e.rule) for e in events if isinstance(e, Pivot)],
+                     result.status.value, result.pivots_phase1, result.bound_flips))
+        counts.append(seen)
+    assert runs[0] == runs[1] and len(runs[0][0]) == 300 and runs[0][1] == "iteration_limit"
+    assert max(counts[0]) == 17 and max(counts[1]) == 16

@@ -375,21 +375,6 @@ class DualPhase:
         lower, upper = self.lower, self.upper
         if slope is None or not self._boxed:
             return self._dual_entering_plain(row, d, s, bland), []
-        found: list = []
-        self._dual_entering_plain(row, d, s, bland, collect=found)
-        if not found:
-            return -1, []
-        # (ratio, -|a_j|, j): the order of choice
-        boxed = any(lower[j] is not None and upper[j] is not None for j, _, _ in found)
-        if bland or not boxed:  # nothing to flip
-            cands = []
-            for j, dj, a in found:
-                t = dj / a
-                cands.append((-t if t < 0 else t, -a, j))
-            if bland:
-                t0 = min(c[0] for c in cands)
-                return min(j for t, _, j in cands if t == t0), []
-            return min(cands)[2], []
         # The groups are taken off in the order of their ratios, and only the first
         # few are passed (a handful of flips against hundreds of candidates on a
         # network), so a ratio is divided out only when it could be next: as in
@@ -398,17 +383,19 @@ class DualPhase:
         # such bound of the candidates not yet divided lies below that of the
         # smallest ratio in hand, the smallest of the divided is not yet known to be
         # the smallest of all, and the next candidate by bound is divided.  Once it
-        # is, no candidate left can equal it either, so its group is whole.
-        pending = []  # (e_j - 2, j, d_j, |a_j|): not divided yet
-        ready = []  # (|t_j|, -|a_j|, j)
-        for j, dj, a in found:
-            if not dj:
-                ready.append((ZERO, -a, j))
-                continue
-            n = dj.numerator
-            e = (n.bit_length() - dj.denominator.bit_length()
-                 - (a.bit_length() - 1 if type(a) is int else a.numerator.bit_length() - a.denominator.bit_length()))
-            pending.append((e - 2, j, dj, a))
+        # is, no candidate left can equal it either, so its group is whole.  (When
+        # no candidate has two bounds, the first group cannot be passed and its
+        # best enters: the least of all ratios, as without flips.)
+        pending: list = []  # (e_j - 2, j, d_j, |a_j|): not divided yet
+        ready: list = []  # (|t_j|, -|a_j|, j)
+        self._dual_entering_plain(row, d, s, bland, collect=(pending, ready))
+        if not pending and not ready:
+            return -1, []
+        if bland:  # nothing is flipped: the least ratio, ties to the lowest index
+            cands = ready + [((-t if t < 0 else t), -a, j) for t, j, a in
+                             ((dj / a, j, a) for _, j, dj, a in pending)]
+            t0 = min(c[0] for c in cands)
+            return min(j for t, _, j in cands if t == t0), []
         heapq.heapify(pending)
         heapq.heapify(ready)
 
@@ -452,8 +439,10 @@ class DualPhase:
         alpha_pj``): at a lower bound with ``a_j > 0``, at an upper bound with
         ``a_j < 0``, or free (resting at zero with ``d_j = 0``) with ``a_j != 0``;
         fixed columns (``d_j`` None) never.  ``d_j`` has the sign of ``a_j`` or is
-        0, so the ratio is ``|d_j| / |a_j|``.  With ``collect`` (a list), each
-        candidate is appended to it as ``(j, d_j, |a_j|)`` instead, and -1 returned.
+        0, so the ratio is ``|d_j| / |a_j|``.  With ``collect`` (two lists ``pending``
+        and ``ready``), each candidate is appended instead, as ``(e_j - 2, j, d_j,
+        |a_j|)`` to ``pending`` (``e_j`` as below) or, when ``d_j = 0``, as ``(0,
+        -|a_j|, j)`` to ``ready``, and -1 returned.
 
         A positive ``n / d`` lies strictly between ``2^(bits n - bits d - 1)`` and
         ``2^(bits n - bits d + 1)``, so with ``e`` the difference of those bit
@@ -463,6 +452,7 @@ class DualPhase:
         division (the same rule as the primal ratio test, ``Simplex._ratio``).
         """
         best, best_t, best_e, best_a = -1, None, 0, None
+        pending, ready = collect if collect is not None else (None, None)
         state = self.state
         # (the filter in line: this loop meets every entry of the row, about 6,000
         # a pivot on D6CUBE, and a generator's yields were a sixth of its time)
@@ -480,16 +470,19 @@ class DualPhase:
                     continue
             if a < 0:
                 a = -a
-            if collect is not None:
-                collect.append((j, dj, a))
-                continue
             if dj:
                 n = dj.numerator
                 e = (n.bit_length() - dj.denominator.bit_length()  # (bit_length ignores the sign)
                      - (a.bit_length() - 1 if type(a) is int else
                         a.numerator.bit_length() - a.denominator.bit_length()))
+                if pending is not None:
+                    pending.append((e - 2, j, dj, a))
+                    continue
                 if best_t is not None and (not best_t or e >= best_e + 4):
                     continue
+            elif pending is not None:
+                ready.append((ZERO, -a, j))
+                continue
             else:
                 e = 0
             t = dj / a  # (a = |a_j|, and d_j has the sign of a_j or is 0)
