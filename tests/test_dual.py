@@ -534,24 +534,29 @@ def _network(sources: int, districts: int):
     return model_from_text(mod.build(sources, districts))
 
 
-@pytest.mark.parametrize("slack", [64, 0])
-def test_kept_leaving_keys_choose_as_a_full_scan_on_a_network(monkeypatch, slack):
+@pytest.mark.parametrize("slack, share", [(64, 4), (0, 0), (64, 10**9)])
+def test_kept_leaving_keys_choose_as_a_full_scan_on_a_network(monkeypatch, slack, share):
     # check_updates compares, before every dual pivot, the row chosen from the
     # kept keys and their sum of |delta| with a scan of every row
     # (DualPhase._dual_leaving_scan, _infeasibility_sum); a network is where the
     # keys matter: many rows outside their bounds, a few touched a pivot.  The
-    # keys' heap is rebuilt now and then (every pivot or so with no slack).
+    # keys' heap is rebuilt now and then (every pivot or so with no slack), and
+    # set aside when many rows moved (always with a share of 10**9, never with 0)
     from .helpers import scipy_solve
 
     monkeypatch.setattr(simplex_module.Simplex, "check_updates", True)
     monkeypatch.setattr(dual_module, "LEAVE_HEAP_SLACK", slack)
-    rebuilt = []
+    monkeypatch.setattr(dual_module, "LEAVE_SCAN_SHARE", share)
+    rebuilt, aside, back = [], [], []
     refresh = dual_module.DualPhase._leaving_refresh
 
     def counting(self):
-        before = len(self._leave_heap)
+        before = len(self._leave_heap) if self._leave_heap is not None else None
         keys = refresh(self)
-        rebuilt.append(len(self._leave_heap) == len(keys) < before)
+        aside.append(self._leave_heap is None)
+        back.append(before is None and self._leave_heap is not None)  # rebuilt after a scan
+        rebuilt.append(before is not None and self._leave_heap is not None
+                       and len(self._leave_heap) == len(keys) < before)
         return keys
 
     monkeypatch.setattr(dual_module.DualPhase, "_leaving_refresh", counting)
@@ -564,7 +569,12 @@ def test_kept_leaving_keys_choose_as_a_full_scan_on_a_network(monkeypatch, slack
     solve_verified(m, warm_start=False)
     status, obj = scipy_solve(m)  # scipy's HiGHS, in double precision
     assert status == "optimal" and abs(float(r.objective) - obj) <= 1e-9 * abs(obj)
-    assert sum(rebuilt) >= (60 if slack == 0 else 20)  # the rebuilt heap chose as the scan too
+    if share == 10**9:
+        assert all(aside)  # every choice by the scan of the keys
+    elif share == 0:
+        assert not any(aside) and sum(rebuilt) >= 60  # the rebuilt heap chose as the scan too
+    else:  # the default: set aside now and then, and rebuilt after
+        assert 0 < sum(aside) < len(aside) and sum(back) >= 10
 
 
 def test_rows_by_the_columns_met_keep_the_dual_path():

@@ -90,6 +90,10 @@ BOUND_FLIPS = True
 #: the heap of leaving-row keys is rebuilt when it holds more than twice the keys
 #: and this many entries (see DualPhase._leaving_refresh)
 LEAVE_HEAP_SLACK = 64
+#: ... and set aside while the columns marked between two choices number at least
+#: 1 / LEAVE_SCAN_SHARE of the rows (0: never): the largest key is then found by
+#: a scan of the keys (see DualPhase._leaving_refresh)
+LEAVE_SCAN_SHARE = 4
 
 
 def _round(n, d) -> mpq:
@@ -181,12 +185,14 @@ class DualPhase:
         keys = self._leaving_refresh()
         if not keys:
             return -1, ZERO
+        heap = self._leave_heap
         if bland:
             c = min(keys)
+        elif heap is None:  # set aside (most rows moved): the largest key by a scan
+            c = max((k, c) for c, (k, _, _) in keys.items())[1]
         else:
             # the largest key: the top of a heap of (-key) entries, passing over
             # entries made stale by a later key for the same column
-            heap = self._leave_heap
             while True:
                 c, serial = heap[0][2], heap[0][3]
                 got = keys.get(c)
@@ -199,17 +205,30 @@ class DualPhase:
         """The kept keys ``{c: ((delta^2 / beta, |delta|, -c), delta, serial)}`` of the
         basic columns outside their bounds, after the columns marked since the last
         call (``_leave_dirty``: their value, their weight or whether they are basic
-        changed) are looked at again; ``_leave_sum`` stays the sum of ``|delta|``,
+        changed) are looked at again; ``_leave_sum`` stays the sum of ``|delta|``
+        (when ``_leave_track``: a listener or the tests' checks read it),
         and ``_leave_heap`` holds ``(-key, serial)`` for every key made (the current
         one of a column is the entry with its serial), rebuilt from the keys when
-        the stale entries pass twice their number."""
+        the stale entries pass twice their number.
+
+        When most rows moved (a dense ``alpha``: at least ``1 / LEAVE_SCAN_SHARE``
+        of them marked), the heap is set aside (None) and the choice scans the
+        keys, as a heap would then take every key and be rebuilt at nearly every
+        pivot (GROW7, 140 rows: its kept keys with the heap cost about 2.5% of
+        its cold solve more than the scan of every row they replaced); it is
+        rebuilt from the keys once few rows move again."""
         keys, dirty, heap = self._leave_keys, self._leave_dirty, self._leave_heap
+        if not dirty:
+            return keys  # (nothing moved since the last call: the heap or its absence stands)
         pos_of, beta = self.pos_of, self.dual_weights
+        track = self._leave_track
         total = self._leave_sum
         serial = self._leave_serial
+        scan = bool(LEAVE_SCAN_SHARE) and len(dirty) * LEAVE_SCAN_SHARE >= self.m
+        push = heap is not None and not scan
         for c in dirty:
             old = keys.pop(c, None)
-            if old is not None:
+            if old is not None and track:
                 total -= old[0][1]
             if pos_of[c] < 0:
                 continue  # left the basis
@@ -221,14 +240,19 @@ class DualPhase:
             score = r * r / beta[c]
             serial += 1
             keys[c] = ((score, mag, -c), delta, serial)
-            heapq.heappush(heap, (-score, -mag, c, serial))
-            total += mag
+            if push:
+                heapq.heappush(heap, (-score, -mag, c, serial))
+            if track:
+                total += mag
         dirty.clear()
         self._leave_sum = total
         self._leave_serial = serial
-        if len(heap) > 2 * len(keys) + LEAVE_HEAP_SLACK:
-            heap[:] = [(-k[0], -k[1], c, n) for c, (k, _, n) in keys.items()]
+        if scan:
+            self._leave_heap = None
+        elif heap is None or len(heap) > 2 * len(keys) + LEAVE_HEAP_SLACK:
+            heap = [(-k[0], -k[1], c, n) for c, (k, _, n) in keys.items()]
             heapq.heapify(heap)
+            self._leave_heap = heap
         return keys
 
     def _dual_leaving_scan(self, bland: bool) -> tuple[int, mpq]:
@@ -524,6 +548,10 @@ class DualPhase:
         self._leave_heap: list = []
         self._leave_serial = 0
         self._leave_sum = ZERO
+        # the sum of |delta| is kept only where it is read: in the log's events and
+        # the tests' checks (on long numbers each term costs a gcd: GROW7's cold
+        # solve took 3-4% longer keeping it)
+        self._leave_track = bool(self.listener) or self.check_updates
         # any column with two finite bounds that differ (only those can be flipped)
         self._boxed = any(lo is not None and hi is not None and lo != hi
                           for lo, hi in zip(self.lower, self.upper))
