@@ -659,6 +659,15 @@ def test_the_dual_ratio_test_with_flips_divides_lazily_and_chooses_as_in_full():
         want = reference(fake, row, d, s, slope)
         got = dual_module.DualPhase._dual_entering(fake, row, d, s, False, slope)
         assert got == want, (state, lower, upper, d, row, s, slope)
+        # under Bland's choice nothing is flipped: the least ratio, ties to the lowest column
+        ratios = {}
+        for j, v in row.items():
+            a = v if s > 0 else -v
+            if d[j] is not None and a and not (state[j] == 1 and a <= 0) and not (state[j] == 2 and a >= 0):
+                ratios[j] = abs(d[j] / a)
+        least = min(ratios.values(), default=None)
+        bland = min((j for j, t in ratios.items() if t == least), default=-1)
+        assert dual_module.DualPhase._dual_entering(fake, row, d, s, True, slope) == (bland, [])
         counts["flips"] += bool(want[1])
         counts["none"] += want[0] == -1
         counts["long"] += len(want[1]) >= 3
