@@ -89,8 +89,8 @@ the unboundedness certificate.
 from __future__ import annotations
 
 import time
-from math import isqrt
 from dataclasses import dataclass
+from math import isqrt
 from operator import mul as _mul
 
 from gmpy2 import mpq, mpz
@@ -178,12 +178,12 @@ REFINE_MAX_ROWS = 500
 
 #: rebuild the eta file after this many updates
 REINVERT_EVERY = 16
-#: ... or, unscaled, after the square root of the number of rows when that is
-#: more (see Simplex._refactor_due)
-REINVERT_BY_ROWS = True
 #: ... and after this many when the solves are scaled (long numbers: each update
 #: then costs more against a fresh factorisation; GROW7 cold 4.9 -> 4.0 s)
 REINVERT_EVERY_SCALED = 8
+#: unscaled, after the square root of the number of rows when that is more than
+#: REINVERT_EVERY (see refactor_every)
+REINVERT_BY_ROWS = True
 ETA_BUDGET = 1
 #: largest model (rows x columns) for which the full tableau can be recorded
 TABLEAU_LIMIT = 20_000
