@@ -25,6 +25,7 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass
 from fractions import Fraction
+from typing import NamedTuple
 
 from .errors import ExpressionError
 from .limits import DEFAULT_LIMITS, Limits
@@ -43,11 +44,16 @@ _TOKEN = re.compile(
 )
 
 
-@dataclass(frozen=True)
-class Token:
+class Token(NamedTuple):
+    """One token (a tuple: a model's formulas make hundreds of thousands)."""
+
     kind: str  # "number", "name", "op", "end"
     text: str
     offset: int
+
+
+_ONE = Fraction(1)
+_MINUS_ONE = Fraction(-1)
 
 
 FUNCTIONS = ("abs", "max", "min")
@@ -127,14 +133,12 @@ class _Parser:
         self.limits = limits
         self.tokens = tokenize(text, limits)
         self.i = 0
-
-    @property
-    def tok(self) -> Token:
-        return self.tokens[self.i]
+        self.tok = self.tokens[0]  # the current token, tokens[i] (kept by advance)
 
     def advance(self) -> Token:
-        t = self.tokens[self.i]
+        t = self.tok
         self.i += 1
+        self.tok = self.tokens[self.i] if self.i < len(self.tokens) else t
         return t
 
     def number(self, tok: Token) -> Fraction:
@@ -187,7 +191,9 @@ class _Parser:
             tok = self.tok
             if tok.kind == "number":
                 self.advance()
-                coef = sign * self.number(tok)
+                coef = self.number(tok)
+                if sign < 0:
+                    coef = -coef
                 star = False
                 while self.tok.kind == "op" and self.tok.text == "*":
                     at = self.advance().offset
@@ -203,7 +209,8 @@ class _Parser:
                     name_tok = self.advance()
                     if self.tok.kind == "op" and self.tok.text == "*":
                         raise self._after_name(name_tok)
-                    terms[name_tok.text] = terms.get(name_tok.text, Fraction(0)) + coef
+                    name = name_tok.text
+                    terms[name] = terms[name] + coef if name in terms else coef
                 elif star:
                     raise self.expected("a variable name after '*'")
                 else:
@@ -214,7 +221,9 @@ class _Parser:
                 self.advance()
                 if self.tok.kind == "op" and self.tok.text == "*":
                     raise self._after_name(tok)
-                terms[tok.text] = terms.get(tok.text, Fraction(0)) + sign
+                name = tok.text
+                unit = _ONE if sign > 0 else _MINUS_ONE
+                terms[name] = terms[name] + unit if name in terms else unit
             else:
                 if first and not saw_sign and tok.kind == "end":
                     raise _error("empty expression", tok.offset)

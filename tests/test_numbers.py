@@ -244,3 +244,33 @@ def test_float_calls_are_only_the_listed_ones_and_the_exact_modules_have_none():
     for name in EXACT_MODULES:
         calls, literals = _float_uses(root / name)
         assert (name, calls, literals) == (name, [], [])
+
+
+def test_short_texts_read_through_the_cache_as_without_it(monkeypatch):
+    # numbers of at most _CACHED_CHARS characters are read through a cache keyed
+    # by the text and the limits: the same values, types and errors as uncached,
+    # and a text read under other limits is read again under those
+    import dataclasses
+
+    from exactlp import numbers
+    from exactlp.limits import DEFAULT_LIMITS
+
+    texts = ["0.1", "3/4", "-3/4", " 42 ", "1e3", "1.5e-3", "6/4", "1e401", "1/0", "abc", "1_000", "2" * 40]
+    tight = dataclasses.replace(DEFAULT_LIMITS, max_exponent=2)
+
+    def read(text, limits):
+        try:
+            got = parse_number(text, limits)
+            return type(got), got
+        except NumberError as e:
+            return "error", e.message
+
+    cached = [read(t, lim) for _ in range(2) for lim in (DEFAULT_LIMITS, tight) for t in texts]
+    assert numbers._parse_short.cache_info().hits > 0
+    monkeypatch.setattr(numbers, "_CACHED_CHARS", 0)
+    numbers._parse_short.cache_clear()
+    plain = [read(t, lim) for _ in range(2) for lim in (DEFAULT_LIMITS, tight) for t in texts]
+    assert numbers._parse_short.cache_info().currsize == 0
+    assert cached == plain
+    assert read("1e3", tight) == ("error", "'1e3' has exponent 3, beyond the limit of ±2")
+    assert read("1e3", DEFAULT_LIMITS) == (Fraction, Fraction(1000))
