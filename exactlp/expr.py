@@ -33,15 +33,22 @@ from .numbers import parse_number
 
 NAME_RE = re.compile(r"[A-Za-z_][A-Za-z0-9_.]*")
 
+#: one token and the white space before it.  Every match is a token: the last
+#: alternative takes any other character, and the text is scanned with its
+#: trailing white space cut, so every run of white space is followed by a
+#: character some alternative takes, and the scan is linear (no run of ``\s*``
+#: is ever given back and tried again).
 _TOKEN = re.compile(
     r"""
-    (?P<ws>\s+)
-  | (?P<number>[0-9]+/[0-9]+|(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)
+    \s*(?:
+    (?P<number>[0-9]+/[0-9]+|(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)
   | (?P<name>[A-Za-z_][A-Za-z0-9_.]*)
   | (?P<op><=|>=|==|=|<|>|\+|-|\*|/|\(|\)|,)
+  | (?P<bad>\S))
     """,
     re.VERBOSE,
 )
+_TOKENS = _TOKEN.finditer
 
 
 class Token(NamedTuple):
@@ -52,6 +59,7 @@ class Token(NamedTuple):
     offset: int
 
 
+_new_tuple = tuple.__new__
 _ONE = Fraction(1)
 _MINUS_ONE = Fraction(-1)
 
@@ -112,17 +120,18 @@ def tokenize(text: str, limits: Limits = DEFAULT_LIMITS) -> list[Token]:
             f"{limits.max_expression_chars}",
             0,
         )
+    # one pass of the pattern over the text; the tokens are made as tuples
+    # directly (a NamedTuple's own constructor is a Python function: a model of
+    # 3,000 formulas makes about 140,000 tokens)
     tokens: list[Token] = []
-    pos = 0
-    n = len(text)
-    while pos < n:
-        m = _TOKEN.match(text, pos)
-        if m is None:
-            raise _error(f"unexpected character {text[pos]!r}", pos)
+    add = tokens.append
+    for m in _TOKENS(text.rstrip()):
         kind = m.lastgroup
-        if kind != "ws":
-            tokens.append(Token(kind, m.group(), pos))  # type: ignore[arg-type]
-        pos = m.end()
+        add(_new_tuple(Token, (kind, m.group(kind), m.start(kind))))
+    for t in tokens:
+        if t.kind == "bad":  # the first character no token takes
+            raise _error(f"unexpected character {t.text!r}", t.offset)
+    n = len(text)
     tokens.append(Token("end", "", n))
     return tokens
 
@@ -232,8 +241,8 @@ class _Parser:
             if self.tok.kind in ("number", "name"):
                 raise self.expected("'+', '-' or a comparison")
         # drop terms that cancelled; keep first-appearance order
-        kept = tuple((k, v) for k, v in terms.items() if v != 0)
-        return Linear(kept, constant, tuple(c for c in calls if c.coefficient != 0))
+        kept = tuple((k, v) for k, v in terms.items() if v)  # (a Fraction is true unless 0)
+        return Linear(kept, constant, tuple(c for c in calls if c.coefficient))
 
     def _after_name(self, name_tok: Token) -> ExpressionError:
         """The error for ``name *`` (``self.tok`` is the ``*``): a linear term is
@@ -327,10 +336,13 @@ def parse_comparison(text: str, limits: Limits = DEFAULT_LIMITS) -> Comparison:
     if len(ops) == 1:
         (lhs, _), (rhs, _) = parts
         # lhs op rhs  <=>  (lhs - rhs) op 0  <=>  terms op (rhs.c - lhs.c)
-        terms: dict[str, Fraction] = dict(lhs.terms)
-        for k, v in rhs.terms:
-            terms[k] = terms.get(k, Fraction(0)) - v
-        kept = tuple((k, v) for k, v in terms.items() if v != 0)
+        if rhs.terms:
+            terms: dict[str, Fraction] = dict(lhs.terms)
+            for k, v in rhs.terms:
+                terms[k] = terms[k] - v if k in terms else -v
+            kept = tuple((k, v) for k, v in terms.items() if v)
+        else:  # (the usual 'terms <= number': lhs.terms are nonzero already)
+            kept = lhs.terms
         bound = rhs.constant - lhs.constant
         calls = lhs.calls + tuple(Call(-c.coefficient, c.function, c.args, c.offset, c.text) for c in rhs.calls)
         op = ops[0].text

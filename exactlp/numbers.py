@@ -78,9 +78,11 @@ def parse_number(text: str, limits: Limits = DEFAULT_LIMITS) -> Fraction:
     """
     if not isinstance(text, str):
         raise NumberError(f"expected the text of a number, got {type(text).__name__}")
+    # (keyed by the two limits read, not by the Limits object: a frozen
+    # dataclass's hash is a Python function, a third of a cached read's time)
     if len(text) <= _CACHED_CHARS:
-        return _parse_short(text, limits)
-    return _parse(text, limits)
+        return _parse_short(text, limits.max_number_chars, limits.max_exponent)
+    return _parse(text, limits.max_number_chars, limits.max_exponent)
 
 
 #: texts of at most this many characters are read through a cache (a model
@@ -90,11 +92,11 @@ def parse_number(text: str, limits: Limits = DEFAULT_LIMITS) -> Fraction:
 _CACHED_CHARS = 32
 
 
-def _parse(text: str, limits: Limits) -> Fraction:
+def _parse(text: str, max_chars: int, max_exponent: int) -> Fraction:
     s = text.strip()
-    if len(s) > limits.max_number_chars:
+    if len(s) > max_chars:
         raise NumberError(
-            f"number has {len(s)} characters, more than the limit of {limits.max_number_chars}"
+            f"number has {len(s)} characters, more than the limit of {max_chars}"
         )
     low = s.lower()
     if low in _INF_WORDS or low in _NEG_INF_WORDS:
@@ -115,9 +117,9 @@ def _parse(text: str, limits: Limits) -> Fraction:
     int_part = m.group("int") or ""
     frac_part = m.group("frac") or ""
     exp = int(m.group("exp")) if m.group("exp") is not None else 0
-    if abs(exp) > limits.max_exponent:
+    if abs(exp) > max_exponent:
         raise NumberError(
-            f"'{s}' has exponent {exp}, beyond the limit of ±{limits.max_exponent}"
+            f"'{s}' has exponent {exp}, beyond the limit of ±{max_exponent}"
         )
     # digits * 10**(exp - len(frac)) is the exact value of the decimal text.
     mantissa = int_from_digits(int_part + frac_part or "0")

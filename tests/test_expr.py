@@ -102,6 +102,73 @@ def test_formula_errors(text, message, offset):
     assert exc.value.offset == offset
 
 
+def test_tokens_and_their_offsets():
+    # each token with the 0-based offset of its first character: white space
+    # (spaces, tabs, newlines) between tokens and at either end is skipped, and
+    # the closing "end" token sits at the length of the whole text
+    from exactlp.expr import tokenize
+
+    got = [tuple(t) for t in tokenize(" \t3/4 x.1+\n2.5e-1*y<=  7 \n ")]
+    assert got == [("number", "3/4", 2), ("name", "x.1", 6), ("op", "+", 9), ("number", "2.5e-1", 11),
+                   ("op", "*", 17), ("name", "y", 18), ("op", "<=", 19), ("number", "7", 23),
+                   ("end", "", 27)]
+    assert [tuple(t) for t in tokenize("   ")] == [("end", "", 3)]
+
+
+@pytest.mark.parametrize(
+    "text, message, offset",
+    [
+        # a character no token takes is reported before any error of the grammar,
+        # wherever it stands
+        ("x y <= 1 $", "unexpected character '$'", 9),
+        ("x + . y <= 1", "unexpected character '.'", 4),
+        ("x <= 1e5.", "unexpected character '.'", 8),
+        ("x <= 1/2.", "unexpected character '.'", 8),
+        ("x <= 1 \u20ac", "unexpected character '\u20ac'", 7),
+    ],
+)
+def test_characters_no_token_takes(text, message, offset):
+    with pytest.raises(InputError) as exc:
+        parse_comparison(text)
+    assert (exc.value.message, exc.value.offset) == (message, offset)
+
+
+_TOKEN_ALPHABET = st.sampled_from(list("xe_.019/+-*<>=(),$ \t\n") + ["\u00a0", "\u20ac", "E"])
+
+
+@given(st.lists(_TOKEN_ALPHABET, max_size=30).map("".join))
+@settings(max_examples=400, deadline=None)
+def test_tokenizer_matches_a_scan_one_token_at_a_time(text):
+    # the tokenizer scans the text in one pass of a pattern that takes the white
+    # space before each token; the reference here is the plain scan, a match at
+    # each position with white space as a token of its own, stopping at the
+    # first character no token takes
+    from exactlp.errors import ExpressionError
+    from exactlp.expr import tokenize
+
+    one = re.compile(r"""
+        (?P<ws>\s+)
+      | (?P<number>[0-9]+/[0-9]+|(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)
+      | (?P<name>[A-Za-z_][A-Za-z0-9_.]*)
+      | (?P<op><=|>=|==|=|<|>|\+|-|\*|/|\(|\)|,)""", re.VERBOSE)
+    want, pos = [], 0
+    while pos < len(text):
+        m = one.match(text, pos)
+        if m is None:
+            want = ("error", f"unexpected character {text[pos]!r}", pos)
+            break
+        if m.lastgroup != "ws":
+            want.append((m.lastgroup, m.group(), pos))
+        pos = m.end()
+    else:
+        want.append(("end", "", len(text)))
+    try:
+        got = [tuple(t) for t in tokenize(text)]
+    except ExpressionError as e:
+        got = ("error", e.message, e.offset)
+    assert got == want
+
+
 def test_objective_refuses_comparison():
     with pytest.raises(InputError) as exc:
         parse_expression("x <= 3")

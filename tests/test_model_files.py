@@ -179,6 +179,42 @@ def test_model_errors_through_cli(cli, write, text, tail):
     assert "Traceback" not in err
 
 
+def test_both_yaml_parsers_give_the_same_tree_and_errors(monkeypatch):
+    # the reader takes PyYAML's events from its C parser when built with one,
+    # else from the pure-Python parser: every bundled case and every document of
+    # the error table above gives the same tree (lines and columns included) or
+    # the same error through both
+    import pathlib
+
+    import yaml
+
+    from exactlp.io import yamltree
+
+    texts = [p.read_text(encoding="utf-8") for p in sorted(pathlib.Path(__file__).parent.parent.joinpath("cases").glob("*.yaml"))]
+    texts += [t for t, _ in ERRORS] + [CONTRACT]
+    assert len(texts) > len(ERRORS) + 5
+
+    def read_all():
+        out = []
+        for text in texts:
+            try:
+                out.append(yamltree.parse_yaml(text, "m.yaml"))
+            except InputError as e:
+                # (the wording of a syntax error is the parser's own and differs
+                # between the two: "did not find expected ..." against "expected
+                # ..., but got ..."; its place does not)
+                message = "invalid YAML" if e.message.startswith("invalid YAML: ") else e.message
+                out.append(("error", type(e).__name__, message, e.line, e.column, e.field))
+        return out
+
+    with_c = read_all()
+    monkeypatch.setattr(yamltree, "_Loader", yaml.SafeLoader)
+    assert read_all() == with_c
+    # (the errors of the reader itself: a key twice, a tag, an anchor, an alias,
+    # the depth, a syntax error, two documents)
+    assert sum(type(t) is tuple for t in with_c) == 7
+
+
 @pytest.mark.parametrize(
     "content, tail",
     [

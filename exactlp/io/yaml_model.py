@@ -31,6 +31,8 @@ from ..numbers import format_number, parse_bound, parse_number
 from ..reform import WHY, Expander, convex
 from .yamltree import Mapping, Node, Scalar, Sequence, kind_name, load_tree, parse_yaml
 
+_ZERO = Fraction(0)
+
 TOP_KEYS = ("name", "description", "maximize", "minimize", "objectives", "variables", "constraints")
 STAGE_KEYS = ("name", "maximize", "minimize")
 VARIABLE_KEYS = ("lower", "upper", "fixed", "unit", "note")
@@ -106,6 +108,8 @@ class _Reader:
             value = parse_bound(node.text, self.limits)
         except NumberError as e:
             raise self.fail(e.message, node, field, NumberError) from None
+        if type(value) is not str:  # (a number: the usual case, tested first)
+            return value  # type: ignore[return-value]
         if value == "+inf":
             if side == "lower":
                 raise self.fail("a lower bound cannot be +inf", node, field)
@@ -273,24 +277,26 @@ class _Reader:
         if not isinstance(spec, Mapping):
             raise self.fail(f"expected a mapping of bounds, found {kind_name(spec)}", spec, field)
         self.check_keys(spec, VARIABLE_KEYS, field, BOUND_HINTS)
+        # (the keys are known and each is given once: the reader refuses a key twice)
+        got = {k.text: v for k, v in spec.items}
         unit = note = None
-        if (u := spec.get("unit")) is not None:
+        if (u := got.get("unit")) is not None:
             unit = self.text(u, f"{field}.unit")
-        if (n := spec.get("note")) is not None:
+        if (n := got.get("note")) is not None:
             note = self.text(n, f"{field}.note")
-        if (fx := spec.get("fixed")) is not None:
+        if (fx := got.get("fixed")) is not None:
             for other in ("lower", "upper"):
-                if spec.get(other) is not None:
+                if got.get(other) is not None:
                     raise self.fail(
                         f"give either fixed: or {other}:, not both", spec.key_node(other), f"{field}.{other}"
                     )
             v = self.number(fx, f"{field}.fixed")
             return Variable(name, v, v, unit, note)
-        lower: Fraction | None = Fraction(0)
+        lower: Fraction | None = _ZERO
         upper: Fraction | None = None
-        if (lo := spec.get("lower")) is not None:
+        if (lo := got.get("lower")) is not None:
             lower = self.bound(lo, f"{field}.lower", "lower")
-        if (hi := spec.get("upper")) is not None:
+        if (hi := got.get("upper")) is not None:
             upper = self.bound(hi, f"{field}.upper", "upper")
         return Variable(name, lower, upper, unit, note)
 
