@@ -127,10 +127,9 @@ def tokenize(text: str, limits: Limits = DEFAULT_LIMITS) -> list[Token]:
     add = tokens.append
     for m in _TOKENS(text.rstrip()):
         kind = m.lastgroup
+        if kind == "bad":  # the first character no token takes
+            raise _error(f"unexpected character {m.group(kind)!r}", m.start(kind))
         add(_new_tuple(Token, (kind, m.group(kind), m.start(kind))))
-    for t in tokens:
-        if t.kind == "bad":  # the first character no token takes
-            raise _error(f"unexpected character {t.text!r}", t.offset)
     n = len(text)
     tokens.append(Token("end", "", n))
     return tokens
