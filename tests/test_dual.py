@@ -577,6 +577,70 @@ def test_kept_leaving_keys_choose_as_a_full_scan_on_a_network(monkeypatch, slack
         assert 0 < sum(aside) < len(aside) and sum(back) >= 10
 
 
+def _dense_dual_feasible(m: int, n: int, seed: int):
+    """A dense model with fractional entries whose slack basis is dual feasible:
+    minimise positive costs over ``x >= 0`` subject to ``>=`` rows (invented numbers)."""
+    import random
+
+    rnd = random.Random(seed)
+    frac = lambda: f"{rnd.randint(1, 40)}/{rnd.randint(1, 13)}"  # noqa: E731
+    cols = [f"x{j}" for j in range(n)]
+    lines = ["minimize: " + " + ".join(f"{frac()} {c}" for c in cols), "variables:"]
+    lines += [f"  {c}: {{}}" for c in cols] + ["constraints:"]
+    for i in range(m):
+        terms = " + ".join(f"{frac()} {c}" for c in cols if rnd.random() < 0.6) or cols[0]
+        lines.append(f"  r{i}: {terms} >= {rnd.randint(5, 90)}")
+    return model_from_text("\n".join(lines) + "\n")
+
+
+@pytest.mark.parametrize("scaled, floors_raised", [(False, False), (True, False), (False, True)])
+def test_weights_on_integers_are_the_weights_in_fractions(monkeypatch, scaled, floors_raised):
+    # DualPhase._weights_on_integers against the loop in fractions through
+    # _round that it replaces (WEIGHTS_ON_INTEGERS off): the same weight of every
+    # column, value and type, at every choice of a leaving row, so the same
+    # pivots; on a network with bound flips and on a small model, with the solves
+    # unscaled and scaled, and with the floors of a third of the columns raised
+    # fourfold (still powers of two times the true floor), so that more updated
+    # weights fall below their floor and are put back to it
+    if scaled:
+        always_scaled(monkeypatch)
+    if floors_raised:
+        floor = dual_module.DualPhase._beta_floor
+        monkeypatch.setattr(dual_module.DualPhase, "_beta_floor",
+                            lambda self, c: floor(self, c) * 4 if c % 3 == 0 else floor(self, c))
+    seen = {}
+    leaving = dual_module.DualPhase._dual_leaving
+    weights = dual_module.DualPhase._weights_on_integers
+    at_floor = []
+
+    def recording(self, bland):
+        seen[dual_module.WEIGHTS_ON_INTEGERS].append([(type(w), w) for w in self.dual_weights])
+        return leaving(self, bland)
+
+    def counting(self, alpha, p, *rest):
+        weights(self, alpha, p, *rest)
+        at_floor.extend(self.dual_weights[self.head[i]] == self._beta_floor(self.head[i])
+                        for i in alpha if i != p)
+
+    monkeypatch.setattr(dual_module.DualPhase, "_dual_leaving", recording)
+    monkeypatch.setattr(dual_module.DualPhase, "_weights_on_integers", counting)
+    rounded = []
+    for m in (_network(20, 30), model_from_text(DUAL_FEASIBLE), _dense_dual_feasible(30, 40, seed=7)):
+        runs = []
+        for on in (True, False):
+            monkeypatch.setattr(dual_module, "WEIGHTS_ON_INTEGERS", on)
+            seen[on] = []
+            runs.append(_events(m))
+        assert runs[0][1] == runs[1][1] and runs[0][0].objective == runs[1][0].objective
+        assert len(seen[True]) > 3 and seen[True] == seen[False]
+        rounded.append(any(w.denominator.bit_length() > 60 for record in seen[True] for _, w in record))
+    # (the network's weights are short, as its entries are +-1; the others'
+    # were rounded, their exact values being longer)
+    assert rounded == [False, True, True]
+    assert len(at_floor) > 700
+    assert (sum(at_floor) >= 20) if floors_raised else (sum(at_floor) < 10)
+
+
 def test_rows_by_the_columns_met_keep_the_dual_path():
     # the tableau row summed over the columns rho meets (SPARSE_ROW_SHARE), for
     # every row, for none, and as the rule picks: the same pivots and optimum
