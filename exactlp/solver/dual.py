@@ -96,20 +96,27 @@ LEAVE_HEAP_SLACK = 64
 LEAVE_SCAN_SHARE = 4
 
 
-def _round(n, d) -> mpq:
-    """``n / d`` (``d > 0``) truncated towards zero to ``WEIGHT_BITS`` significant bits,
-    as an exact rational with a power of two for denominator; 0 stays 0.  Integer
+def _round_bits(n, d) -> tuple[int, int]:
+    """``(m, e)`` with ``m 2^e`` the quotient ``n / d`` (``d > 0``) truncated
+    towards zero to ``WEIGHT_BITS`` significant bits (``(0, 0)`` for 0).  Integer
     arithmetic only: one division with a short quotient."""
     if not n:
-        return ZERO
+        return 0, 0
     neg = n < 0
     if neg:
         n = -n
     k = WEIGHT_BITS - (n.bit_length() - d.bit_length())
     m = (n << k) // d if k >= 0 else n // (d << -k)
-    if neg:
-        m = -m
-    return mpq(m, 1 << k) if k >= 0 else mpq(m << -k)
+    return (-m if neg else m), -k
+
+
+def _round(n, d) -> mpq:
+    """:func:`_round_bits` as an exact rational with a power of two for
+    denominator; 0 stays 0."""
+    if not n:
+        return ZERO
+    m, e = _round_bits(n, d)
+    return mpq(m, 1 << -e) if e <= 0 else mpq(m << e)
 
 
 _OWN_ROUND = _round  # (tests replace _round by the exact quotient, to keep the weights exact)
@@ -353,6 +360,7 @@ class DualPhase:
         the fractions; the kept weights are the same, see tests/test_dual.py.)
         """
         beta, head, floor = self.dual_weights, self.head, self._beta_floor
+        rounded = _round_bits
         keep = WEIGHT_BITS + 1
         bpm = bp.numerator
         bpe = 1 - bp.denominator.bit_length()  # bp = bpm 2^bpe
@@ -360,16 +368,7 @@ class DualPhase:
             if i == p or not a:
                 continue
             c = head[i]
-            # r = _round(a.numerator * apd, a.denominator * apn) = rm 2^re
-            n, d = a.numerator * apd, a.denominator * apn
-            neg = n < 0
-            if neg:
-                n = -n
-            k = WEIGHT_BITS - (n.bit_length() - d.bit_length())
-            rm = (n << k) // d if k >= 0 else n // (d << -k)
-            if neg:
-                rm = -rm
-            re = -k
+            rm, re = rounded(a.numerator * apd, a.denominator * apn)  # r = rm 2^re
             bc = beta[c]
             # beta_c = bm 2^be, r^2 bp = (rm^2 bpm) 2^(2 re + bpe)
             bm, be = bc.numerator, 1 - bc.denominator.bit_length()
@@ -377,15 +376,8 @@ class DualPhase:
             t = tau.get(i)
             if t:
                 # 2 r _round(t.numerator, t.denominator * tscale) = (2 rm tm) 2^(re + te)
-                n, d = t.numerator, t.denominator * tscale
-                neg = n < 0
-                if neg:
-                    n = -n
-                k = WEIGHT_BITS - (n.bit_length() - d.bit_length())
-                tm = (n << k) // d if k >= 0 else n // (d << -k)
-                if neg:
-                    tm = -tm
-                e3 = re - k
+                tm, te = rounded(t.numerator, t.denominator * tscale)
+                e3 = re + te
                 e0 = min(be, e2, e3)
                 big = (bm << (be - e0)) + ((rm * rm * bpm) << (e2 - e0)) - ((rm * tm) << (e3 - e0 + 1))
             else:
