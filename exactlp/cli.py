@@ -367,6 +367,20 @@ def _check_output(out: str | None, source: str | None) -> None:
         raise OutputError(f"{out}: is a folder; give a file name")
 
 
+def _warm_note(m, warm_start, result) -> str | None:
+    """The screen's word on a warm start left off only because the float extra is
+    missing (on a model it would have been used for); None otherwise.  Only the
+    screen says it: the result, the log and the certificate are those of any cold solve."""
+    if warm_start is not None or result.warm_start != "off" or m.stages:
+        return None
+    from .floatlp import WARM_START_MIN_ROWS, highs_available
+
+    if len(m.constraints) < WARM_START_MIN_ROWS or highs_available():
+        return None
+    return (f"off: the exactlp[fast] extra is not installed; with it, models of {WARM_START_MIN_ROWS} rows "
+            f"or more start from a basis a floating-point solver suggests, re-proven exactly")
+
+
 def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, time_limit, tableau,
                    as_json, cert_format, digits, timestamps, warm_start=None, rows=SCREEN_ROWS):
     from .audit import AuditLog
@@ -471,7 +485,8 @@ def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, ti
         if staged_box:
             stages_report(_console(), m, staged_box[-1])
         solve_report(_console(), shown, result, digits=digits, certificate=certificate if cert else None,
-                     verified=verified, log=log, cert=cert, rows=rows)
+                     verified=verified, log=log, cert=cert, rows=rows,
+                     warm_note=_warm_note(m, warm_start, result))
     if not result.status.is_proven:
         raise typer.Exit(EXIT_LIMIT)
 

@@ -167,7 +167,7 @@ def caution(console: Console) -> None:
 
 def solve_report(console: Console, model: Model, result, *, digits: int, certificate: str | None,
                  verified: bool | None, log: str | None, cert: dict | None = None,
-                 rows: int | None = ROWS) -> None:
+                 rows: int | None = ROWS, warm_note: str | None = None) -> None:
     from .solver.result import Status
 
     st = result.status
@@ -187,6 +187,8 @@ def solve_report(console: Console, model: Model, result, *, digits: int, certifi
         how = ("a suggested starting basis, re-proven exactly" if result.warm_start.startswith("accepted")
                else "the exact solve started from its own slack basis")
         head.append(("warm start", f"{result.warm_start} ({how})"))
+    elif warm_note:
+        head.append(("warm start", warm_note))
     if verified is not None:
         head.append(("check", "the certificate passed the independent verifier" if verified else "the certificate FAILED verification"))
     if certificate:

@@ -215,6 +215,33 @@ def test_no_colour_codes_when_piped(cli):
     assert "\x1b[" not in out
 
 
+def test_solve_screen_says_the_warm_start_needs_the_extra(cli, write, tmp_path, monkeypatch):
+    # pinned width, no colour: on a model of 50 rows or more, with the warm start
+    # left to its default, a missing float extra is said on the screen (and only
+    # there: the certificate is that of the cold solve asked for by name); not
+    # on a smaller model, nor when the cold solve is asked for
+    import exactlp.floatlp as floatlp
+
+    rows = "\n".join(f"  r{i}: x{i} + x{i + 1} <= {i + 3}" for i in range(50))
+    text = ("maximize: " + " + ".join(f"x{i}" for i in range(51)) + "\nvariables:\n"
+            + "\n".join(f"  x{i}: {{upper: 2}}" for i in range(51)) + "\nconstraints:\n" + rows + "\n")
+    path = write("fifty.yaml", text)
+    monkeypatch.setattr(floatlp, "highs_available", lambda: False)
+
+    def warm_line(*args):
+        code, out, _ = cli("solve", *args)
+        assert code == 0
+        lines = [x.split(None, 2)[2] for x in out.splitlines() if x.lstrip().startswith("warm start")]
+        return lines[0] if lines else None
+
+    assert warm_line(path, "-c", tmp_path / "auto.cert") == (
+        "off: the exactlp[fast] extra is not installed; with it, models of 50 rows or more start "
+        "from a basis a floating-point solver suggests, re-proven exactly")
+    assert warm_line(path, "--no-warm-start", "-c", tmp_path / "cold.cert") is None
+    assert (tmp_path / "auto.cert").read_bytes() == (tmp_path / "cold.cert").read_bytes()
+    assert warm_line(CASES / "berth.yaml") is None  # (fewer than 50 rows)
+
+
 def test_solve_screen_says_what_became_of_the_warm_start(cli, write, tmp_path):
     # pinned width, no colour: the "warm start" line of the solve summary, for a
     # suggestion accepted and for one asked for that never came
