@@ -12,7 +12,7 @@ import contextlib
 from fractions import Fraction as F
 
 import pytest
-from gmpy2 import mpq
+from gmpy2 import mpq, mpz
 from hypothesis import HealthCheck, given, settings
 
 import exactlp
@@ -601,7 +601,9 @@ def test_weights_on_integers_are_the_weights_in_fractions(monkeypatch, scaled, f
     # pivots; on a network with bound flips and on a small model, with the solves
     # unscaled and scaled, and with the floors of a third of the columns raised
     # fourfold (still powers of two times the true floor), so that more updated
-    # weights fall below their floor and are put back to it
+    # weights fall below their floor and are put back to it; tau exact in both
+    # (the short copies are compared with it in the tests below)
+    monkeypatch.setattr(dual_module, "TAU_SHORT", False)
     if scaled:
         always_scaled(monkeypatch)
     if floors_raised:
@@ -736,3 +738,142 @@ def test_the_dual_ratio_test_with_flips_divides_lazily_and_chooses_as_in_full():
         counts["none"] += want[0] == -1
         counts["long"] += len(want[1]) >= 3
     assert counts["flips"] > 100 and counts["long"] > 40 and counts["none"] > 20
+
+
+def test_fixed_point_is_the_floor_of_the_exact_value():
+    # shadow.fixed and shadow.fixed_dyadic: floor(x 2^SHIFT), derived by hand
+    from exactlp.solver import shadow
+
+    one = 1 << shadow.SHIFT
+    assert shadow.fixed(1, 3) == one // 3 and type(shadow.fixed(1, 3)) is int
+    assert type(shadow.fixed(mpz(1), mpz(3))) is type(mpz(0))  # (from an mpq's parts)
+    assert shadow.fixed(-1, 3) == -(one // 3) - 1  # the floor, not towards zero
+    assert shadow.fixed(1, -3) == shadow.fixed(-1, 3)
+    assert shadow.fixed(mpq(7, 2).numerator, mpq(7, 2).denominator) == 7 * one // 2
+    assert shadow.fixed_dyadic(3, -1) == 3 * one // 2
+    assert shadow.fixed_dyadic(-3, -shadow.SHIFT - 1) == -2  # floor(-3/2)
+    assert shadow.fixed_dyadic(5, 4) == 80 * one
+
+
+def _tau_checked(monkeypatch):
+    """Make a short copy for every LU factorisation (TAU_SHORT_BITS 0), and at
+    every dual pivot that uses one compare its ``tau`` with the exact ftran's;
+    returns the list of (largest error, largest |tau_i|) per pivot and of the
+    copies' eta counts."""
+    from exactlp.solver import shadow
+
+    monkeypatch.setattr(dual_module, "TAU_SHORT_BITS", 0)
+    seen: list = []
+    solve = shadow.ShortFactors.solve
+
+    def checking(self, v):
+        got = solve(self, dict(v))
+        unit = mpq(1, 1 << shadow.SHIFT)
+        exact = self.basis.ftran([(i, a * unit) for i, a in sorted(v.items())])
+        err = max((abs(mpq(got.get(i, 0)) * unit - exact.get(i, mpq(0))) for i in set(got) | set(exact)),
+                  default=mpq(0))
+        seen.append((err, max((abs(t) for t in exact.values()), default=mpq(0)), len(self.etas)))
+        assert all(type(t) in (int, type(mpz(0))) for t in got.values())  # integers, no float
+        return got
+
+    monkeypatch.setattr(shadow.ShortFactors, "solve", checking)
+    return seen
+
+
+def test_short_tau_is_the_exact_tau_to_many_bits(monkeypatch):
+    # shadow.ShortFactors against the exact ftran of the same vector, from
+    # the basis it copies: the LU's solve and each pivot's eta after it.  The
+    # input is already rounded to 2^-SHIFT; each operation loses at most one
+    # unit of 2^-SHIFT, so the error stays far under the 64 bits kept
+    always_scaled(monkeypatch)
+    seen = _tau_checked(monkeypatch)
+    for m in (_dense_dual_feasible(30, 40, seed=7), _network(20, 30)):
+        r = solve_verified(m, warm_start=False)
+        assert r.status is exactlp.Status.OPTIMAL
+    assert len(seen) > 40 and max(e for _, _, e in seen) >= 5  # copies followed several pivots
+    for err, top, _ in seen:
+        assert err <= (1 + top) / 2**120
+
+
+@pytest.mark.parametrize("short", [True, False])
+def test_short_tau_keeps_the_choices(monkeypatch, short):
+    # the weights from the short tau and from the exact one, at every choice of
+    # a leaving row: the same kept weights (64 bits of an error under 2^-120),
+    # so the same pivots and optimum; without a copy (TAU_SHORT off) too
+    monkeypatch.setattr(dual_module, "TAU_SHORT_BITS", 0)
+    used = []
+    for m in (_dense_dual_feasible(60, 80, seed=3), _network(20, 30)):
+        (r, events), (r0, events0) = _short_then_exact(monkeypatch, m, short, used)
+        assert events == events0 and r.objective == r0.objective and type(r.objective) is F
+    assert (sum(used) > 40) if short else not used
+
+
+def _short_then_exact(monkeypatch, model, short: bool, used: list):
+    """Solve ``model`` with TAU_SHORT set to ``short``, then with it off; ``used``
+    gets, at each dual pivot of the first solve, whether a short copy served."""
+    plain = dual_module.DualPhase._short_factors
+
+    def counting(self):
+        got = plain(self)
+        used.append(got is not None)
+        return got
+
+    runs = []
+    for on in (short, False):
+        monkeypatch.setattr(dual_module, "TAU_SHORT", on)
+        monkeypatch.setattr(dual_module.DualPhase, "_short_factors", counting if on else plain)
+        runs.append(_events(model))
+    return runs
+
+
+def test_short_copy_out_of_step_is_not_used(monkeypatch):
+    # a copy follows its basis only through the weights' own updates: an update
+    # it did not see (here, counted by hand) ends its use until the next
+    # factorisation, which makes a new one
+    from exactlp.solver import shadow
+
+    monkeypatch.setattr(dual_module, "TAU_SHORT_BITS", 0)
+    made = []
+    of = shadow.ShortFactors.of
+
+    def making(basis, bits):
+        made.append(of(basis, bits))
+        return made[-1]
+
+    monkeypatch.setattr(shadow.ShortFactors, "of", making)
+    plain = dual_module.DualPhase._short_factors
+    dropped = []
+
+    def skewing(self):
+        got = plain(self)
+        if got is not None and got.updates == 2:
+            self.basis.updates += 1  # as if a pivot had bypassed the copy
+            dropped.append(plain(self))
+            self.basis.updates -= 1
+            return None
+        return got
+
+    monkeypatch.setattr(dual_module.DualPhase, "_short_factors", skewing)
+    r = solve_verified(_network(20, 30), warm_start=False)
+    assert r.status is exactlp.Status.OPTIMAL
+    assert dropped and all(d is None for d in dropped) and sum(x is not None for x in made) >= 2
+
+
+@needs_netlib
+def test_short_tau_on_a_basis_of_long_numbers():
+    # GROW7, whose bases carry numbers of hundreds to thousands of bits: the
+    # copies are made at the default rule (entries of 32 bits on average or
+    # more) after most factorisations, and the solve takes the same pivots,
+    # flips and optimum as with the exact tau
+    from exactlp.io import read_mps
+
+    from .conftest import NETLIB, netlib_table
+
+    m = read_mps(NETLIB / netlib_table()["GROW7"]["file"])
+    used: list = []
+    with pytest.MonkeyPatch.context() as mp:
+        runs = _short_then_exact(mp, m, True, used)
+    (r, events), (r0, events0) = runs
+    assert events == events0 and r.objective == r0.objective and type(r.objective) is F
+    assert r.pivots_phase1 == r0.pivots_phase1 > 250 and r.bound_flips == r0.bound_flips > 100
+    assert sum(used) > 150 and len(used) == r.pivots_phase1
