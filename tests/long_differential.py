@@ -2,7 +2,8 @@
 (N random models against scipy HiGHS).
 
 --forced: the nucleus of every factorisation on integer rows from its first
-step, every basis solve scaled, and every reduced-cost and dual update checked
+step, every basis solve scaled, every factorisation copied for the dual weights'
+short tau (solver/shadow.py), and every reduced-cost and dual update checked
 against a recomputation (the paths the Netlib problems take only on long numbers).
 --partial: partial pricing on every model (the wide models' rule; its scans on
 integers or, with nested denominators, on fractions).
@@ -27,6 +28,9 @@ if "--forced" in sys.argv[2:]:
     basis_module.SCALE_BITS = basis_module.SCALE_MIN_SEEN = basis_module.SCALE_SPREAD = 0
     basis_module.SCALE_RATIO = basis_module.SCALE_MAX_BITS = 10**9
     simplex_module.Simplex.check_updates = True
+    import exactlp.solver.dual as dual_module
+
+    dual_module.TAU_SHORT_BITS = 0
 if "--partial" in sys.argv[2:]:
     import exactlp.solver.simplex as simplex_module
 
