@@ -741,7 +741,7 @@ def test_the_dual_ratio_test_with_flips_divides_lazily_and_chooses_as_in_full():
 
 
 def test_fixed_point_is_the_floor_of_the_exact_value():
-    # shadow.fixed and shadow.fixed_dyadic: floor(x 2^SHIFT), derived by hand
+    # shadow.fixed: floor(x 2^SHIFT), derived by hand
     from exactlp.solver import shadow
 
     one = 1 << shadow.SHIFT
@@ -750,9 +750,8 @@ def test_fixed_point_is_the_floor_of_the_exact_value():
     assert shadow.fixed(-1, 3) == -(one // 3) - 1  # the floor, not towards zero
     assert shadow.fixed(1, -3) == shadow.fixed(-1, 3)
     assert shadow.fixed(mpq(7, 2).numerator, mpq(7, 2).denominator) == 7 * one // 2
-    assert shadow.fixed_dyadic(3, -1) == 3 * one // 2
-    assert shadow.fixed_dyadic(-3, -shadow.SHIFT - 1) == -2  # floor(-3/2)
-    assert shadow.fixed_dyadic(5, 4) == 80 * one
+    assert shadow.fixed(-3, 2 << shadow.SHIFT) == -2  # floor(-3/2), past the last place
+    assert shadow.fixed(80, 1) == 80 * one
 
 
 def _tau_checked(monkeypatch):
