@@ -331,7 +331,8 @@ class DualPhase:
         bp = _round(sq.numerator, sq.denominator)
         short = self._short_factors() if TAU_SHORT and WEIGHTS_ON_INTEGERS and _round is _OWN_ROUND else None
         if short is not None:
-            # tau = B^-1 G rho_p to about 64 bits, on the short copies (see shadow.py)
+            # tau = B^-1 G rho_p in fixed point, on the short copies (see shadow.py):
+            # its error is far under the 64 bits the weights keep
             big = rd if rd is not None else 1
             tau = short.solve({i: shadow.fixed(v.numerator, v.denominator * big) for i, v in w})
             tscale = None
