@@ -208,7 +208,7 @@ EXACT_MODULES = [
     "numbers.py", "expr.py", "model.py", "reform.py", "stages.py", "io/__init__.py", "io/mps.py",
     "io/yaml_model.py", "io/yamltree.py", "certificate.py", "verifier.py", "audit.py", "report_check.py",
     "reports.py", "analysis.py", "solver/form.py", "solver/basis.py", "solver/simplex.py", "solver/dual.py",
-    "solver/pricing.py", "solver/events.py", "solver/rows.py", "solver/lowest.py",
+    "solver/pricing.py", "solver/events.py", "solver/rows.py", "solver/lowest.py", "solver/shadow.py",
 ]
 
 
