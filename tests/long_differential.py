@@ -3,7 +3,8 @@
 
 --forced: the nucleus of every factorisation on integer rows from its first
 step, every basis solve scaled, every factorisation copied for the dual weights'
-short tau (solver/shadow.py), and every reduced-cost and dual update checked
+short tau (solver/shadow.py) and the primal's steered pricing (solver/steer.py),
+and every reduced-cost and dual update checked
 against a recomputation (the paths the Netlib problems take only on long numbers).
 --partial: partial pricing on every model (the wide models' rule; its scans on
 integers or, with nested denominators, on fractions).
@@ -31,6 +32,9 @@ if "--forced" in sys.argv[2:]:
     import exactlp.solver.dual as dual_module
 
     dual_module.TAU_SHORT_BITS = 0
+    import exactlp.solver.steer as steer_module
+
+    steer_module.STEER_BITS = 0
 if "--partial" in sys.argv[2:]:
     import exactlp.solver.simplex as simplex_module
 

@@ -423,15 +423,15 @@ class DualPhase:
                 e0 += nb
             beta[c] = mpq(big, 1 << -e0) if e0 < 0 else mpq(big << e0)
 
-    def _short_factors(self):
+    def _short_factors(self, min_bits: int | None = None):
         """The short copy of the factors that follows ``self.basis`` (shadow.py),
         decided once after each factorisation: made where the factors' entries
-        average ``TAU_SHORT_BITS`` bits or more; else, or once the copy is out
-        of step with the basis, None (the exact ftran)."""
+        average ``min_bits`` (``TAU_SHORT_BITS``) bits or more; else, or once the
+        copy is out of step with the basis, None (the exact solve)."""
         basis = self.basis
         if self._short_of is not basis:
             self._short_of = basis
-            self._short = shadow.ShortFactors.of(basis, TAU_SHORT_BITS)
+            self._short = shadow.ShortFactors.of(basis, TAU_SHORT_BITS if min_bits is None else min_bits)
         short = self._short
         if short is not None and short.updates != basis.updates:
             short = self._short = None

@@ -1,4 +1,8 @@
-"""Short copies of the basis factors in fixed point, for the dual weights' ``tau``.
+"""Short copies of the basis factors in fixed point, for what only steers.
+
+Two readers: the dual weights' ``tau`` (:meth:`ShortFactors.solve`, below) and
+the primal pricing's ``rho_p = e_p^T B^-1`` (:meth:`ShortFactors.solve_t`, see
+:mod:`.steer`).
 
 The dual steepest-edge update needs ``tau = B^-1 G rho_p^T`` at every pivot
 (:meth:`DualPhase._dual_weights_update`), but only to choose the leaving row:
@@ -109,3 +113,40 @@ class ShortFactors:
                 for i, r in rest:
                     w[i] -= (r * t) >> k
         return {i: t for i, t in enumerate(w) if t}
+
+    def solve_t(self, v: dict[int, int]) -> dict[int, int]:
+        """``v^T B^-1`` for ``v`` in fixed point, by position in, by row out.
+
+        The transposes of :meth:`solve`'s steps in reverse order: the etas last
+        to first (``E^-T`` changes entry ``p`` only, ``w_p' = w_p / alpha_p -
+        sum_i (alpha_i / alpha_p) w_i``), then ``w^T U = v^T`` forward by the
+        columns of U, then L's row operations undone in reverse (``w_r -= sum_i
+        l_i w_i``).
+        """
+        k = SHIFT
+        w = [0] * self.m
+        for i, a in v.items():
+            w[i] = a
+        for p, inv, rest in reversed(self.etas):
+            t = (w[p] * inv) >> k
+            for i, r in rest:
+                wi = w[i]
+                if wi:
+                    t -= (r * wi) >> k
+            w[p] = t
+        for r, inv, above in self.ucols:
+            t = w[r]
+            for i, u in above:
+                wi = w[i]
+                if wi:
+                    t -= (u * wi) >> k
+            w[r] = (t * inv) >> k if t else 0
+        for r, ls in reversed(self.lsteps):
+            t = w[r]
+            for i, l in ls:
+                wi = w[i]
+                if wi:
+                    t -= (l * wi) >> k
+            w[r] = t
+        return {i: t for i, t in enumerate(w) if t}
+

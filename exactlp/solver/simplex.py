@@ -99,6 +99,8 @@ from .basis import EtaBasis, LongNumbers, factor_ft
 from .dual import DualPhase
 from .pricing import _log16, _log16_of
 from .rows import TableauRows, _dual_ints
+from . import steer as steer_mod
+from .steer import SteeredPricing
 
 #: the exact factorisation used to (re)build the basis: sparse LU (Markowitz),
 #: with Forrest-Tomlin updates between refactorisations
@@ -241,7 +243,7 @@ class StartState:
     caches: dict
 
 
-class Simplex(DualPhase, TableauRows):
+class Simplex(DualPhase, SteeredPricing, TableauRows):
     #: tests set this to recompute the reduced costs after every update and compare
     check_updates = False
 
@@ -292,6 +294,8 @@ class Simplex(DualPhase, TableauRows):
         self._np_rows_cache = None
         self.weights: list[int] = []
         self.scores: list[int] | None = None
+        self.steer_scores: list[int] = []
+        self._short_of = self._short = None  # the short copy of the factors (dual._short_factors)
         self._partial_start = 0
         self.partial_seen: dict[int, mpq] = {}  # reduced costs of the last full partial-pricing scan
         self.partial_looked = 0  # columns looked at by the last partial-pricing scan
@@ -1246,8 +1250,22 @@ class Simplex(DualPhase, TableauRows):
                    and not (self.warm is not None and self.warm.accepted))
         y: list[mpq] | None = None
         fresh = None  # (D y, D) while d holds reduced costs priced afresh from it (no pivot since)
+        # steered: while the factors are long, the reduced costs kept short (sd, in
+        # fixed point) instead of exact (see steer.py); never under Bland's rule,
+        # partial pricing or the tableau's display
+        steer = (steer_mod.STEER_SHORT and pricing == "guarded" and not partial and not self.tableau
+                 and not bland_mode)
+        sd: list | None = None
+        self._short_of = self._short = None
         while True:
-            if partial:
+            if sd is not None:
+                if self.check_updates:
+                    exact = self._reduced_costs(cost, self._duals(cost))
+                    k = steer_mod.shadow.SHIFT
+                    assert all((v is None) == (e is None) for v, e in zip(sd, exact)) and all(
+                        abs(v - (e.numerator << k) // e.denominator) <= (1 << 80) * (1 + abs(e))
+                        for v, e in zip(sd, exact) if v is not None), "steered reduced costs drifted"
+            elif partial:
                 if y is None:
                     y = self._duals(cost)
                 elif self.check_updates:
@@ -1272,7 +1290,11 @@ class Simplex(DualPhase, TableauRows):
                 return Outcome("iteration_limit", z, self._duals(cost))
             if self.time_limit is not None and self.elapsed() > self.time_limit:
                 return Outcome("time_limit", z, self._duals(cost))
-            if partial:
+            if steer and sd is None and d is not None and not bland_mode and self._steer_ready():
+                sd = self._steer_enter(d)  # the factors have grown long: steer from here
+            if sd is not None:
+                first = best = self._steer_price(sd)
+            elif partial:
                 d, first, best = self._price_partial(cost, y, lowest=bland_mode)
                 if first >= 0 and self.partial_looked * PARTIAL_SWITCH >= len(self.cols):
                     # The end game: 1 / PARTIAL_SWITCH of the columns (half) had to be
@@ -1285,6 +1307,13 @@ class Simplex(DualPhase, TableauRows):
                     first, best = self._price(d, weighted=pricing == "guarded")
             else:
                 first, best = self._price(d, weighted=pricing == "guarded")
+            if first < 0 and sd is not None:
+                # the short values find no improving column: the proof is exact,
+                # from reduced costs computed afresh (and should one improve after
+                # all, under the dead zone, the phase ends on exact values)
+                sd = d = None
+                steer = False
+                continue
             if first < 0:
                 if partial:  # the last scan priced every movable column, from these same duals
                     d = [None] * len(self.cols)
@@ -1301,10 +1330,23 @@ class Simplex(DualPhase, TableauRows):
                 q, rule = best, ("partial dantzig" if partial else "devex" if pricing == "guarded" else "dantzig")
             else:
                 q, rule = first, "bland"
-            direction = self._eligible(q, d[q])  # type: ignore[arg-type]
+            if sd is not None:
+                v = sd[q]
+                direction = self._eligible(q, mpq(v))  # (its sign: outside the dead zone)
+            else:
+                direction = self._eligible(q, d[q])  # type: ignore[arg-type]
             # alpha = B^-1 a_q, possibly as (D alpha, D): the ratio test and the step
             # of the basic values take it scaled (see _ratio), and only alpha_p is divided
             alpha, ad = self.basis.ftran_scaled(self.cols[q])
+            if sd is not None:
+                # the entering column's reduced cost exactly, from its exact column:
+                # the step and the log use it, and if its sign does not make the
+                # column improving the short values were wrong, and are given up
+                dq = self._steer_dq(cost, q, alpha, ad)
+                if self._eligible(q, dq) != direction:
+                    sd = d = None
+                    steer = False
+                    continue
             guarded = pricing == "guarded" and not bland_mode
             t, b, bound = self._ratio(q, direction, alpha, rank if guarded else None, prefer_large=guarded,
                                       scale=ad)
@@ -1337,7 +1379,8 @@ class Simplex(DualPhase, TableauRows):
                 tab = self._tableau(self._reduced_costs(cost, yy) if partial else d, yy, z, phase)
             else:
                 tab = None
-            dq = d[q]
+            if sd is None:
+                dq = d[q]
             # --- apply the step -------------------------------------------------
             self.iterations += 1
             if t:
@@ -1355,11 +1398,16 @@ class Simplex(DualPhase, TableauRows):
                 self.pivots[phase] += 1
                 p = self.pos_of[b]
                 alpha_p = alpha[p] if ad is None else alpha[p] / ad
-                if partial:
+                if sd is not None:
+                    self._steer_update(sd, q, b, p, alpha_p, dq)
+                    y = None
+                elif partial:
                     self._update_duals(y, d[q], p, alpha_p)
                 else:
                     self._update_reduced_costs(d, q, b, p, alpha_p)
                     y = None  # no longer current
+                if steer:
+                    self._steer_follow(p, alpha, alpha_p)
                 self.x[b] = self.lower[b] if bound == "lower" else self.upper[b]
                 self.state[b] = AT_LOWER if bound == "lower" else AT_UPPER
                 self.state[q] = BASIC
@@ -1381,6 +1429,9 @@ class Simplex(DualPhase, TableauRows):
                 run_degenerate += 1
                 if run_degenerate > guard_limit:
                     bland_mode = True  # last resort: Bland's rule for the rest of this run
+                    if sd is not None:  # ... which reads exact signs
+                        sd = d = None
+                    steer = False
             if self.listener:
                 shown = (self._infeasibility() if self._after_step is not None else z) if phase == 1 \
                     else f.sign * z + f.constant
