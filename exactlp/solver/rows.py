@@ -53,6 +53,23 @@ def _dual_ints(y):
     return [v.numerator * (dy // v.denominator) if v else 0 for v in y], dy
 
 
+def _row_sums(irows, rho) -> dict[int, int]:
+    """``sum_i r_i (e_j a_ij)`` by column ``j``, over the pairs ``(i, r_i)`` of
+    ``rho`` (Python integers) and the integer rows of :meth:`TableauRows._int_rows`;
+    only the columns met are keys."""
+    acc: dict[int, int] = {}
+    get = acc.get
+    for i, r in rho:
+        plus, minus, other = irows[i]
+        for j in plus:
+            acc[j] = get(j, 0) + r
+        for j in minus:
+            acc[j] = get(j, 0) - r
+        for j, a in other:
+            acc[j] = get(j, 0) + r * a
+    return acc
+
+
 #: a tableau row whose btran integers R pass the 64-bit bound of _np_rows is summed
 #: in limbs of R, at most this many (past it, by the Python loops)
 ROW_LIMBS_MOST = 4
@@ -166,17 +183,7 @@ class TableauRows:
             # rho meets few of A's entries (a network's row of B^-1 holds a few
             # nonzeros): sums in a dictionary of the columns met, so the pivot costs
             # nothing for the columns rho does not reach
-            acc: dict[int, int] = {}
-            get = acc.get
-            for i, r in big.items():
-                r = int(r)
-                plus, minus, other = irows[i]
-                for j in plus:
-                    acc[j] = get(j, 0) + r
-                for j in minus:
-                    acc[j] = get(j, 0) - r
-                for j, a in other:
-                    acc[j] = get(j, 0) + r * a
+            acc = _row_sums(irows, ((i, int(r)) for i, r in big.items()))
             out = {}
             for j in sorted(acc):  # (the order of the other forms: by column)
                 v = acc[j]

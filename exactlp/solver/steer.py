@@ -41,6 +41,7 @@ from gmpy2 import mpq
 
 from . import shadow
 from .pricing import _log16, _log16_of
+from .rows import _row_sums
 
 BASIC, AT_LOWER, AT_UPPER, AT_ZERO = 0, 1, 2, 3
 
@@ -155,16 +156,7 @@ class SteeredPricing:
         th = (theta.numerator << k) // theta.denominator
         rho = self._steer_rho(p)
         irows, escale, fcols = self._int_rows()
-        acc: dict[int, int] = {}
-        get = acc.get
-        for i, r in rho.items():
-            plus, minus, other = irows[i]
-            for j in plus:
-                acc[j] = get(j, 0) + r
-            for j in minus:
-                acc[j] = get(j, 0) - r
-            for j, a in other:
-                acc[j] = get(j, 0) + r * a
+        acc = _row_sums(irows, rho.items())
         for j, col in fcols:  # columns kept in fractions (a long common denominator)
             s = 0
             for i, a in col:
