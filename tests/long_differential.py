@@ -4,6 +4,7 @@
 --forced: the nucleus of every factorisation on integer rows from its first
 step, every basis solve scaled, every factorisation copied for the dual weights'
 short tau (solver/shadow.py) and the primal's steered pricing (solver/steer.py),
+a factorisation every 3 updates (so that small models reach those paths),
 and every reduced-cost and dual update checked
 against a recomputation (the paths the Netlib problems take only on long numbers).
 --partial: partial pricing on every model (the wide models' rule; its scans on
@@ -35,6 +36,9 @@ if "--forced" in sys.argv[2:]:
     import exactlp.solver.steer as steer_module
 
     steer_module.STEER_BITS = 0
+    # and a factorisation every 3 updates, so that small models get their
+    # copies (and the steered pricing) after a few pivots
+    simplex_module.refactor_every = lambda m, scaled: 3
 if "--partial" in sys.argv[2:]:
     import exactlp.solver.simplex as simplex_module
 
