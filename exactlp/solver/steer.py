@@ -30,9 +30,11 @@ the pivot does stays exact:
 A degenerate run long enough to call Bland's rule goes back to exact
 reduced costs too, since Bland's choice reads the signs of values that may
 be zero.  The only thing the short values decide is which improving column
-enters, and they are right to about 2^-140 of the values: apart from exact
-ties of the devex scores, which exact values broke by ``|d_j|`` and short
-values may break the other way, the path is the exact rule's.
+enters, and they are right to about 2^-140 of the values.  They are read on
+a grid of ``2^-128`` (``SNAP``), so that an exact whole or dyadic value reads
+as itself and its devex score and ties are the exact rule's; apart from ties
+of values off that grid, which the last bits of the error may break the
+other way, the path is the exact rule's (STAIR's and FORPLAN's are).
 """
 
 from __future__ import annotations
