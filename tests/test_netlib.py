@@ -59,11 +59,15 @@ def test_netlib_by_the_dual_phase(name, flips):
 
 @needs_netlib
 @pytest.mark.parametrize("name", ["FIT1D", "SCSD1"])
-def test_netlib_tableau_rows_by_numpy_are_the_loops_rows(name):
+def test_netlib_tableau_rows_by_numpy_are_the_loops_rows(monkeypatch, name):
     # every tableau row of the dual phase made both ways (see test_dual.py), on
     # models wide enough for the numpy sums to matter; the same path and optimum
+    # (the exact rows throughout: no steering by short rows, see steer.py)
+    from exactlp.solver import steer
+
     from .test_dual import rows_both_ways
 
+    monkeypatch.setattr(steer, "STEER_DUAL", False)
     row = netlib_table()[name]
     m = read_mps(NETLIB / row["file"])
     with rows_both_ways() as seen:

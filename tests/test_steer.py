@@ -209,3 +209,134 @@ def test_dead_zone_is_not_improving():
     # 3 units and a half snaps to 4, and wins
     assert fake._steer_price([-3 * unit, None, 3 * unit - unit // 4, None]) == 0
     assert fake._steer_price([-3 * unit, None, 3 * unit + unit // 2, None]) == 2
+
+
+# --- the dual phase ---------------------------------------------------------
+
+
+def _dense_dual_feasible(m: int, n: int, seed: int, infeasible: bool = False):
+    """Minimise positive costs over ``0 <= x <= u`` subject to ``>=`` rows with
+    fractional entries (invented numbers): the slack basis is dual feasible, so
+    phase 1 is the dual simplex's, with bound flips.  With ``infeasible``, two
+    rows more that cannot both hold (the first half of the columns at most
+    ``cap``, and at least ``cap + 1`` plus the last column), which the dual
+    phase finds after some pivots."""
+    rnd = random.Random(seed)
+    frac = lambda: F(rnd.randint(1, 40), rnd.randint(1, 13))  # noqa: E731
+    cols = [f"x{j}" for j in range(n)]
+    ub = [rnd.randint(2, 9) for _ in cols]
+    lines = ["minimize: " + " + ".join(f"{frac()} {c}" for c in cols), "variables:"]
+    lines += [f"  {c}: {{upper: {u}}}" for c, u in zip(cols, ub)] + ["constraints:"]
+    for i in range(m):
+        coef = {j: frac() for j in range(n) if rnd.random() < 0.6 or j == i % n}
+        terms = " + ".join(f"{a} {cols[j]}" for j, a in coef.items())
+        lines.append(f"  r{i}: {terms} >= {sum(coef.values())}")
+    if infeasible:
+        half, cap = cols[: n // 2], sum(ub[: n // 2]) // 3
+        lines.append(f"  cap: {' + '.join(half)} <= {cap}")
+        lines.append(f"  need: {' + '.join(half)} - {cols[-1]} >= {cap + 1}")
+    return model_from_text("\n".join(lines) + "\n")
+
+
+def _events(model):
+    from exactlp.solver.events import Pivot
+
+    events: list = []
+    r = solve_verified(model, warm_start=False, listener=events.append)
+    return r, [(e.entering, e.leaving, e.flipped, e.ratio, e.reduced_cost) for e in events if isinstance(e, Pivot)]
+
+
+DUAL_MODELS = [_dense_dual_feasible(20, 30, seed=1), _dense_dual_feasible(40, 50, seed=4)]
+
+
+def _short_everywhere(monkeypatch) -> None:
+    """A short copy of every factorisation (STEER_BITS 0), and a factorisation
+    every 3 updates, so that small models are steered after a few pivots."""
+    monkeypatch.setattr(steer_module, "STEER_BITS", 0)
+    monkeypatch.setattr(simplex_module, "refactor_every", lambda m, scaled: 3)
+
+
+@pytest.mark.parametrize("model", DUAL_MODELS)
+def test_steered_dual_phase_takes_the_exact_path(monkeypatch, model):
+    # a short copy of every factorisation (STEER_BITS 0) and the short values
+    # checked against the exact ones before every dual pivot: the same pivots,
+    # flips, ratios and reduced costs in the log as the exact dual phase (the
+    # ratios and |alpha_pj| read rounded keep the exact ties), the same optimum
+    _short_everywhere(monkeypatch)
+    monkeypatch.setattr(simplex_module.Simplex, "check_updates", True)
+    rows = _count(monkeypatch, "_steer_dual_row")
+    r, steered = _events(model)
+    monkeypatch.setattr(steer_module, "STEER_DUAL", False)
+    r0, exact = _events(model)
+    assert len(rows) > 5 and r.bound_flips > 0
+    assert steered == exact and r.objective == r0.objective and type(r.objective) is F
+
+
+def test_steered_dual_phase_proves_infeasibility_exactly(monkeypatch):
+    # the short row finds no entering column only where the exact one does not
+    # either; the Farkas row comes from the exact values, and the verifier
+    # accepts it (solve_verified)
+    _short_everywhere(monkeypatch)
+    model = _dense_dual_feasible(20, 30, seed=1, infeasible=True)
+    returns = []
+    plain = steer_module.SteeredPricing._unsteered
+
+    def counting(self, cost):
+        returns.append(1)
+        return plain(self, cost)
+
+    monkeypatch.setattr(steer_module.SteeredPricing, "_unsteered", counting)
+    r = solve_verified(model, warm_start=False)
+    assert r.status is exactlp.Status.INFEASIBLE and r.farkas_rows
+    assert returns  # (the last pivot, by the short row, was made again exactly)
+    status, _ = scipy_solve(model)
+    assert status == "infeasible"
+
+
+@pytest.mark.parametrize("spoil", ["wrong sign", "none enters"])
+def test_wrong_short_choice_goes_back_to_exact(monkeypatch, spoil):
+    # the ratio test on short values made to answer wrongly at one pivot: a
+    # column whose pivot has the wrong sign for its bound to enter, or none at
+    # all; the exact check refuses the first, the exact row is asked about the
+    # second, the short values are given up either way, and the phase ends on
+    # the exact optimum
+    from exactlp.solver import dual as dual_module
+
+    _short_everywhere(monkeypatch)
+    plain = dual_module.DualPhase._dual_entering
+    done: list = []
+
+    def spoiling(self, row, d, s, bland, slope=None, near=None):
+        got = plain(self, row, d, s, bland, slope, near)
+        if near is not None:
+            done.append(1)
+            if len(done) == 4:
+                if spoil == "none enters":
+                    return -1, []
+                lo, up = steer_module.AT_LOWER, steer_module.AT_UPPER
+                return next(j for j, v in row.items() if (self.state[j] == lo and s * v < 0)
+                            or (self.state[j] == up and s * v > 0)), []
+        return got
+
+    monkeypatch.setattr(dual_module.DualPhase, "_dual_entering", spoiling)
+    returns = _count(monkeypatch, "_unsteered")
+    model = DUAL_MODELS[0]
+    r = solve_verified(model, warm_start=False)
+    assert len(done) == 4 and len(returns) == 1  # spoiled once, then unsteered to the end
+    assert r.status is exactlp.Status.OPTIMAL and r.objective == _exact_path(model).objective
+
+
+def test_near_ratio_rounds_to_the_bits_of_the_value():
+    # derived by hand: 1/3 lies in [2^-2, 2^-1), so 64 bits of it are
+    # round(2^65 / 3) / 2^65; a value on the grid reads as itself; two values
+    # 2^-200 apart (relative) read the same; the sign is kept
+    near = steer_module.near_ratio
+    assert steer_module.RATIO_BITS == 64
+    m = ((1 << 66) // 3 + 1) >> 1
+    assert near(mpq(1, 3)) == mpq(m, 1 << 65) and m.bit_length() == 64
+    assert near(mpq(-1, 3)) == -mpq(m, 1 << 65)
+    assert near(mpq(5, 4)) == mpq(5, 4) and near(mpq(0)) == 0 and near(mpq(3 << 200)) == 3 << 200
+    t = mpq(10**30 + 7, 3**50)
+    assert near(t * (1 + mpq(1, 1 << 200))) == near(t) == near(t * (1 - mpq(1, 1 << 200)))
+    top = near(mpq((1 << 80) - 1))  # rounds up to the next power of two
+    assert top == 1 << 80 and type(top) is type(mpq(0))

@@ -71,6 +71,7 @@ import heapq
 from gmpy2 import mpq
 
 from . import shadow
+from . import steer as steer_mod
 from .basis import EtaBasis
 from .events import Pivot, Start
 from .form import frac
@@ -425,17 +426,23 @@ class DualPhase:
 
     def _short_factors(self, min_bits: int | None = None):
         """The short copy of the factors that follows ``self.basis`` (shadow.py),
-        decided once after each factorisation: made where the factors' entries
-        average ``min_bits`` (``TAU_SHORT_BITS``) bits or more; else, or once the
-        copy is out of step with the basis, None (the exact solve)."""
+        for a reader that wants factors whose entries average ``min_bits``
+        (``TAU_SHORT_BITS``) bits or more; else, or once the copy is out of step
+        with the basis, None (the exact solve).  Decided once after each
+        factorisation, at the least length any reader wants (the weights' rule
+        or the steered pricing's), so the order of the readers' first calls
+        does not matter."""
         basis = self.basis
         if self._short_of is not basis:
             self._short_of = basis
-            self._short = shadow.ShortFactors.of(basis, TAU_SHORT_BITS if min_bits is None else min_bits)
+            self._short = shadow.ShortFactors.of(basis, min(TAU_SHORT_BITS, steer_mod.STEER_BITS))
         short = self._short
-        if short is not None and short.updates != basis.updates:
-            short = self._short = None
-        return short
+        if short is None:
+            return None
+        if short.updates != basis.updates:
+            self._short = None
+            return None
+        return short if short.long_enough(TAU_SHORT_BITS if min_bits is None else min_bits) else None
 
     def _row_weights(self) -> list:
         """``g_k = 4^e_k``: the steepest-edge lengths are those of the model with
@@ -481,7 +488,8 @@ class DualPhase:
             got = self._beta_floors[c] = _round(sq.denominator, sq.numerator)
         return got
 
-    def _dual_entering(self, row: dict, d: list, s: int, bland: bool, slope=None) -> tuple[int, list[int]]:
+    def _dual_entering(self, row: dict, d: list, s: int, bland: bool, slope=None,
+                       near=None) -> tuple[int, list[int]]:
         """The dual ratio test over the tableau row ``row`` (``S alpha_pj`` by column,
         ``S > 0`` the row's scale): ``(entering column, columns to flip)``, or
         ``(-1, flips)`` when no column can enter (the model is infeasible once the
@@ -506,7 +514,7 @@ class DualPhase:
         """
         lower, upper = self.lower, self.upper
         if slope is None or not self._boxed:
-            return self._dual_entering_plain(row, d, s, bland), []
+            return self._dual_entering_plain(row, d, s, bland, near=near), []
         # The groups are taken off in the order of their ratios, and only the first
         # few are passed (a handful of flips against hundreds of candidates on a
         # network), so a ratio is divided out only when it could be next: as in
@@ -520,12 +528,12 @@ class DualPhase:
         # best enters: the least of all ratios, as without flips.)
         pending: list = []  # (e_j - 2, j, d_j, |a_j|): not divided yet
         ready: list = []  # (|t_j|, -|a_j|, j)
-        self._dual_entering_plain(row, d, s, bland, collect=(pending, ready))
+        self._dual_entering_plain(row, d, s, bland, collect=(pending, ready), near=near)
         if not pending and not ready:
             return -1, []
         if bland:  # nothing is flipped: the least ratio, ties to the lowest index
             cands = ready + [((-t if t < 0 else t), -a, j) for t, j, a in
-                             ((dj / a, j, a) for _, j, dj, a in pending)]
+                             ((dj / a if near is None else near(dj / a), j, a) for _, j, dj, a in pending)]
             t0 = min(c[0] for c in cands)
             return min(j for t, _, j in cands if t == t0), []
         heapq.heapify(pending)
@@ -540,10 +548,17 @@ class DualPhase:
                     if pending[0][0] >= t.numerator.bit_length() - t.denominator.bit_length() + 1:
                         return
                 _, j, dj, a = heapq.heappop(pending)
-                t = dj / a
+                if near is None:
+                    t = dj / a
+                else:  # (the ratio from the whole |a_j|, both read rounded)
+                    t, a = near(dj / a), near(a)
                 heapq.heappush(ready, (-t if t < 0 else t, -a, j))
 
         flips: list[int] = []
+        # (from short values, near is set: a rate left within 2^-(RATIO_BITS - 8)
+        # of the first counts as none left, since an exact zero comes out as the
+        # error, here the rounding of each |a_j| to RATIO_BITS bits, summed)
+        slack = ZERO if near is None else slope / (1 << (steer_mod.RATIO_BITS - 8))
         while True:
             settle()
             if not ready:
@@ -558,12 +573,12 @@ class DualPhase:
                 if lo is None or hi is None:
                     return first[2], flips  # cannot be passed: the best of the group enters
                 drop += -na * (hi - lo)
-            if slope - drop <= 0:
+            if slope - drop <= slack:
                 return first[2], flips
             slope -= drop
             flips.extend(j for _, _, j in group)
 
-    def _dual_entering_plain(self, row: dict, d: list, s: int, bland: bool, collect=None) -> int:
+    def _dual_entering_plain(self, row: dict, d: list, s: int, bland: bool, collect=None, near=None) -> int:
         """The smallest ratio ``d_j / a_j`` (ties as in :meth:`_dual_entering`; under
         Bland's choice to the lowest index), with nothing to flip; -1 if none.
 
@@ -613,11 +628,13 @@ class DualPhase:
                 if best_t is not None and (not best_t or e >= best_e + 4):
                     continue
             elif pending is not None:
-                ready.append((ZERO, -a, j))
+                ready.append((ZERO, -a if near is None else -near(a), j))
                 continue
             else:
                 e = 0
             t = dj / a  # (a = |a_j|, and d_j has the sign of a_j or is 0)
+            if near is not None:  # (the ratio from the whole |a_j|, both read rounded)
+                t, a = near(t), near(a)
             if t < 0:
                 t = -t
             if best_t is None or t < best_t:
@@ -664,10 +681,19 @@ class DualPhase:
         # any column with two finite bounds that differ (only those can be flipped)
         self._boxed = any(lo is not None and hi is not None and lo != hi
                           for lo, hi in zip(self.lower, self.upper))
+        # steered: while the factors are long, the reduced costs kept short (sd)
+        # and the ratio test run on them and a short row (see steer.py and the
+        # checks below); never under Bland's choice or the tableau's display
+        steer = steer_mod.STEER_SHORT and steer_mod.STEER_DUAL and not self.tableau
+        sd: list | None = None
+        unit = 1 << shadow.SHIFT  # the short row's scale
         while True:
             if self.check_updates:
-                y = self._duals(cost)
-                assert d == self._reduced_costs(cost, y), "dual phase: reduced-cost update drifted"
+                if sd is not None:
+                    self._steer_check(cost, sd)
+                else:
+                    y = self._duals(cost)
+                    assert d == self._reduced_costs(cost, y), "dual phase: reduced-cost update drifted"
             if self.should_stop is not None and self.should_stop():
                 return Outcome("interrupted", self._infeasibility_sum(), self._duals(cost))
             if self.iteration_limit is not None and self.iterations >= self.iteration_limit:
@@ -683,16 +709,40 @@ class DualPhase:
             if pivots >= budget:
                 return Outcome("restart")
             s = -1 if delta < 0 else 1
-            row, scale = self._tableau_row(p)
+            if steer and sd is None and not bland and self._steer_ready():
+                sd = self._steer_enter(d, devex=False)  # the factors have grown long
+            if sd is not None:
+                rho_s, sums = self._steer_sums(p)
+                self.last_rho = (rho_s, 1 << shadow.SHIFT)  # (for the weights: rho = rho_s / 2^SHIFT)
+                row, din = self._steer_dual_row(sums, sd)
+                scale = unit
+            else:
+                row, scale = self._tableau_row(p)
+                din = d
             slope = None
             if not bland and BOUND_FLIPS:
                 slope = -delta if s < 0 else delta
                 if scale is not None:
                     slope = slope * scale
-            q, flips = self._dual_entering(row, d, s, bland, slope)
+            q, flips = self._dual_entering(row, din, s, bland, slope,
+                                           near=None if sd is None else steer_mod.near_ratio)
+            if sd is not None and q < 0:
+                # no column enters by the short row: the proof of infeasibility is
+                # made on exact values (the pivot again, unsteered)
+                sd, steer = None, False
+                d = self._unsteered(cost)
+                continue
             if flips:
                 self._flip(flips)
-                delta = self._violation(self.head[p])  # same sign, closer to its bound
+                was, delta = delta, self._violation(self.head[p])  # same sign, closer to its bound
+                if sd is not None and (not delta or (delta < 0) != (was < 0)):
+                    # the short row passed too many (exactly, x_b came back within
+                    # its bound): the flips undone, the pivot again unsteered
+                    self._flip(flips)
+                    self.flips -= 2 * len(flips)
+                    sd, steer = None, False
+                    d = self._unsteered(cost)
+                    continue
             if q < 0:
                 # no column can bring x_b back: s rho is a Farkas certificate
                 rho = self.basis.btran({p: ONE})
@@ -700,10 +750,30 @@ class DualPhase:
                 return Outcome("infeasible", self._infeasibility_sum(), y)
             b = self.head[p]
             alpha, ad = self.basis.ftran_scaled(self.cols[q])
+            if sd is not None and p not in alpha:  # (its exact pivot is 0: see below)
+                alpha[p] = ZERO
             alpha_pq = alpha[p] if ad is None else alpha[p] / ad
-            if self.check_updates:
-                assert alpha_pq == (mpq(row[q]) if scale is None else mpq(row[q]) / scale), "dual phase: pivot mismatch"
-            dq = d[q]
+            if sd is not None:
+                # the entering column's exact pivot and reduced cost, from its exact
+                # column: it must be a candidate of the exact ratio test (its pivot
+                # of the sign its bound needs) and keep the dual step nonnegative,
+                # else the short values are given up and the pivot made again
+                dq = self._steer_dq(cost, q, alpha, ad)
+                a = alpha_pq if s > 0 else -alpha_pq
+                st = self.state[q]
+                if not ((a > 0 if st == AT_LOWER else a < 0 if st == AT_UPPER else a != 0)
+                        and dq / alpha_pq * s >= 0):
+                    if flips:
+                        self._flip(flips)
+                        self.flips -= 2 * len(flips)
+                    sd, steer = None, False
+                    d = self._unsteered(cost)
+                    continue
+            else:
+                if self.check_updates:
+                    assert alpha_pq == (mpq(row[q]) if scale is None else mpq(row[q]) / scale), \
+                        "dual phase: pivot mismatch"
+                dq = d[q]
             t_dual = dq / alpha_pq * s  # = d_q / a_q >= 0 (see the module's notes)
             theta = delta / alpha_pq  # the entering column's move: puts x_b on its bound
             tab = None
@@ -724,7 +794,10 @@ class DualPhase:
             dirty.add(q)
             bound = "lower" if s < 0 else "upper"
             x[b] = self.lower[b] if s < 0 else self.upper[b]
-            self._update_reduced_costs(d, q, b, p, alpha_pq, row=(row, scale))
+            if sd is not None:
+                self._steer_update(sd, q, b, p, alpha_pq, dq, sums=sums)
+            else:
+                self._update_reduced_costs(d, q, b, p, alpha_pq, row=(row, scale))
             self._dual_weights_update(alpha, alpha_pq, p, q, b)
             self.state[b] = AT_LOWER if s < 0 else AT_UPPER
             self.state[q] = BASIC
@@ -742,6 +815,9 @@ class DualPhase:
                 run_degenerate += 1
                 if run_degenerate > guard_limit:
                     bland = True
+                    if sd is not None:  # Bland's choice reads exact values
+                        sd, steer = None, False
+                        d = self._unsteered(cost)
             if self.listener:
                 self._leaving_refresh()  # (its sum of |delta| is the infeasibility shown)
                 self.listener(Pivot(

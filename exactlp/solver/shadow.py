@@ -1,8 +1,8 @@
 """Short copies of the basis factors in fixed point, for what only steers.
 
-Two readers: the dual weights' ``tau`` (:meth:`ShortFactors.solve`, below) and
-the primal pricing's ``rho_p = e_p^T B^-1`` (:meth:`ShortFactors.solve_t`, see
-:mod:`.steer`).
+The readers: the dual weights' ``tau`` (:meth:`ShortFactors.solve`, below),
+and ``rho_p = e_p^T B^-1`` (:meth:`ShortFactors.solve_t`) for the primal
+pricing and the dual ratio test steered by short values (:mod:`.steer`).
 
 The dual steepest-edge update needs ``tau = B^-1 G rho_p^T`` at every pivot
 (:meth:`DualPhase._dual_weights_update`), but only to choose the leaving row:
@@ -26,8 +26,11 @@ from the weights' own 64-bit rounding left an error near ``2^-58`` in ``tau``.)
 
 from __future__ import annotations
 
-#: the fixed point's binary places
-SHIFT = 192
+#: the fixed point's binary places (192 for the weights alone, in the eighteenth
+#: session; the steered ratio test divides small reduced costs by small row
+#: entries, and each must keep its own bits: GROW7's lie down to 2^-60 of the
+#: row's largest, with an error of the solve near 2^-147 of it at 192 places)
+SHIFT = 320
 
 
 def fixed(n, d) -> int:
@@ -40,15 +43,21 @@ def fixed(n, d) -> int:
 class ShortFactors:
     """``B^-1 v`` in fixed point, on copies of the factors of ``B``."""
 
-    __slots__ = ("basis", "updates", "m", "lsteps", "ucols", "etas")
+    __slots__ = ("basis", "updates", "m", "lsteps", "ucols", "etas", "size")
 
-    def __init__(self, basis, lsteps, ucols) -> None:
+    def __init__(self, basis, lsteps, ucols, size=(0, 0)) -> None:
         self.basis = basis  # the exact factorisation this copy follows
         self.updates = basis.updates  # ... and its count of updates, kept in step
         self.m = basis.m
         self.lsteps = lsteps
         self.ucols = ucols
         self.etas: list = []
+        self.size = size  # (bits, entries) of the factors copied
+
+    def long_enough(self, min_bits: int) -> bool:
+        """Do the copied factors' entries average ``min_bits`` bits or more?"""
+        bits, count = self.size
+        return bits >= min_bits * count
 
     @classmethod
     def of(cls, basis, min_bits: int) -> "ShortFactors | None":
@@ -75,7 +84,7 @@ class ShortFactors:
         ls = [(r, [(i, fixed(x.numerator, x.denominator)) for i, x in steps]) for r, steps in lsteps]
         us = [(r, fixed(ukk.denominator, ukk.numerator), [(i, fixed(x.numerator, x.denominator)) for i, x in above])
               for r, ukk, above in ucols]
-        return cls(basis, ls, us)
+        return cls(basis, ls, us, (bits, count))
 
     def add_eta(self, p: int, inv_p: int, ratios: list) -> None:
         """The pivot at position ``p``, ``inv_p`` the fixed ``1 / alpha_p`` and

@@ -295,6 +295,7 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
         self.weights: list[int] = []
         self.scores: list[int] | None = None
         self.steer_scores: list[int] = []
+        self.steer_returns = 0  # times the short reduced costs were given up (steer.py)
         self._short_of = self._short = None  # the short copy of the factors (dual._short_factors)
         self._partial_start = 0
         self.partial_seen: dict[int, mpq] = {}  # reduced costs of the last full partial-pricing scan
@@ -1260,11 +1261,7 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
         while True:
             if sd is not None:
                 if self.check_updates:
-                    exact = self._reduced_costs(cost, self._duals(cost))
-                    k = steer_mod.shadow.SHIFT
-                    assert all((v is None) == (e is None) for v, e in zip(sd, exact)) and all(
-                        abs(v - (e.numerator << k) // e.denominator) <= (1 << 80) * (1 + abs(e))
-                        for v, e in zip(sd, exact) if v is not None), "steered reduced costs drifted"
+                    self._steer_check(cost, sd)
             elif partial:
                 if y is None:
                     y = self._duals(cost)
@@ -1346,6 +1343,7 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
                 if self._eligible(q, dq) != direction:
                     sd = d = None
                     steer = False
+                    self.steer_returns += 1
                     continue
             guarded = pricing == "guarded" and not bland_mode
             t, b, bound = self._ratio(q, direction, alpha, rank if guarded else None, prefer_large=guarded,
