@@ -78,9 +78,13 @@ STEER_BITS = 32
 #: the short values are read (by the scores, their ties and the test for zero)
 #: rounded to the nearest multiple of 2^-(SHIFT - SNAP): an exact value on that
 #: grid, as the whole and dyadic reduced costs of many models are, then reads as
-#: itself, so its devex score and its ties are the exact rule's
-SNAP = 64
-#: a short reduced cost that rounds to zero so is not improving (under 2^-129)
+#: itself, so its devex score and its ties are the exact rule's.  The grid is
+#: 2^-128: the error of the short values grows with the numbers of the basis
+#: (on GROW22 from 2^-266 to 2^-216 of a unit over its first 1,070 dual pivots,
+#: its least nonzero reduced cost then 2^-45)
+SNAP = shadow.SHIFT - 128
+#: a short reduced cost that rounds to zero so is not improving, nor a ratio's
+#: numerator (under 2^-129)
 DEAD_ZONE = 1 << (SNAP - 1)
 _HALF = 1 << (SNAP - 1)
 #: the dual ratio test's short row reads an entry under 2^-ROW_ZONE of its
