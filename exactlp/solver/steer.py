@@ -99,7 +99,7 @@ def _snap(v: int) -> int:
     return ((-v if v < 0 else v) + _HALF) >> SNAP
 
 
-#: the dual ratio test on short values compares ratios cut to this many
+#: the dual ratio test on short values compares ratios rounded to this many
 #: significant bits (see near_ratio)
 RATIO_BITS = 64
 
@@ -119,7 +119,7 @@ def near_ratio(t: mpq) -> mpq:
     if neg:
         n = -n
     # e = floor(log2 t), from the value (the bit lengths alone leave it one
-    # uncertain, and the cut must not depend on the fraction's form)
+    # uncertain, and the rounding must not depend on the fraction's form)
     e = n.bit_length() - d.bit_length()
     if (n < d << e) if e >= 0 else (n << -e < d):
         e -= 1
