@@ -8,6 +8,7 @@ import stat
 import subprocess
 import sys
 import time
+from fractions import Fraction
 from pathlib import Path
 
 import pytest
@@ -134,6 +135,11 @@ def test_object_tags_and_code_do_nothing(write, tmp_path):
          "nesting is deeper than the limit of 3"),
         (Limits(max_exponent=10), "minimize: 1e11 a\nvariables: {a: {}}\n",
          "minimize: '1e11' has exponent 11, beyond the limit of ±10"),
+        (Limits(max_expression_chars=4), "minimize: a + b\nvariables: {a: {}, b: {}}\n",
+         "m.yaml:1:11: minimize: expression has 5 characters, more than the limit of 4"),
+        (Limits(max_expression_chars=9),
+         "minimize: 0\nvariables: {a: {}, b: {}}\nconstraints:\n  r: a + b <= 1\n",
+         "m.yaml:4:6: constraints.r: expression has 10 characters, more than the limit of 9"),
     ],
 )
 def test_resource_caps(limits, text, message):
@@ -142,6 +148,21 @@ def test_resource_caps(limits, text, message):
     with pytest.raises(InputError) as exc:
         model_from_text(text, "m.yaml", limits)
     assert str(exc.value).endswith(message)
+
+
+def test_default_cap_takes_a_large_network_objective():
+    # a generated network of 3,000 rows has an objective of 1.09 million
+    # characters (cases/generated/make_network.py --sources 1200 --districts 1800
+    # --reach 40); the default cap takes one well past that, the exact sum kept
+    from exactlp.expr import parse_expression
+    from exactlp.limits import DEFAULT_LIMITS
+
+    names = [f"pipe_{i:05d}_" + "x" * 180 for i in range(6000)]
+    text = " + ".join(f"{i % 7 + 1}/{i % 5 + 2} {n}" for i, n in enumerate(names))
+    assert 1_100_000 < len(text) < DEFAULT_LIMITS.max_expression_chars
+    got = parse_expression(text).as_dict()
+    assert len(got) == 6000
+    assert got[names[8]] == Fraction(2, 5) and type(got[names[8]]) is Fraction
 
 
 # --- fuzzing: any input gives a valid object or our own error -------------------------------
