@@ -462,10 +462,10 @@ def test_tableau_row_sums_past_64_bits_go_by_limbs_then_by_the_loops(monkeypatch
             want[j] = want.get(j, 0) + r0 * a
         want = {j: (v if escale[j] == 1 else mpq(v, escale[j])) for j, v in want.items() if v}
         want.pop(sx.head[0], None)
-        got = fast([mpq(r0)] + [mpq(0)] * (sx.m - 1), 0)
+        got = fast([mpq(r0)] + [mpq(0)] * (sx.m - 1), sx.head[0])
         assert got == want and got and all(type(v) in (int, type(mpq(0))) for v in got.values())
-    assert fast([mpq(2**400)] + [mpq(0)] * (sx.m - 1), 0) is None
-    assert fast([mpq(0)] * sx.m, 0) == {}
+    assert fast([mpq(2**400)] + [mpq(0)] * (sx.m - 1), sx.head[0]) is None
+    assert fast([mpq(0)] * sx.m, sx.head[0]) == {}
 
 
 @pytest.mark.parametrize("bits", [3, 17])
@@ -506,12 +506,12 @@ def limbs_of(bits: int):
         if fn is None:
             return None
 
-        def wrapped(big, p):
+        def wrapped(big, drop):
             longest = int(max(big, key=abs, default=0).__abs__())
             if longest >> bits:
                 cut["rows"] += 1
                 cut["limbs"] += -(-longest.bit_length() // bits)
-            return fn(big, p)
+            return fn(big, drop)
         return wrapped
 
     rows_module.ROW_LIMB_BITS, rows_module.ROW_LIMBS_MOST = bits, 10**6

@@ -197,7 +197,7 @@ class TableauRows:
                 dense = [0] * self.m
                 for i, r in big.items():
                     dense[i] = r
-                out = fast(dense, p)
+                out = fast(dense, self.head[p])
             else:
                 out = None
         if out is None:  # the loops (no numpy, a narrow model, or sums past 64 bits)
@@ -231,9 +231,12 @@ class TableauRows:
         return out, (None if scale == 1 else scale)
 
     def _np_rows(self):
-        """For wide models with numpy at hand: a function giving :meth:`_tableau_row`'s
-        integer sums ``R . (e_j a_j)`` for every column at once (or None, when a sum
-        could leave 64 bits); else None.  Kept until the set of columns changes.
+        """For wide models with numpy at hand: a function ``fn(R, drop)`` giving
+        :meth:`_tableau_row`'s integer sums ``R . (e_j a_j)`` for every column at
+        once but ``drop``, the basic column at the row's position (or None, when a
+        sum could leave 64 bits); else None.  Kept until the set of columns
+        changes, and handed on with the matrix's copies to other solves of the same
+        columns, so it reads nothing of this solve's basis.
 
         The sums are ``A_int^T R`` over the nonzeros sorted by column: one gather,
         one product and one segmented sum in 64-bit integers, exact when
@@ -278,7 +281,7 @@ class TableauRows:
                     ids = col_ids.tolist()
                     wholes = whole_mask.tolist()
 
-                    def limbs(big, p, longest, _np=np):
+                    def limbs(big, drop, longest, _np=np):
                         # R = sum_k R_k 2^(k b) with signed digits |R_k| < 2^b, so each
                         # A_int^T R_k is exact in 64 bits; the sums are put together in
                         # Python integers (D6CUBE: 65 of its 427 rows, R up to 195 bits)
@@ -299,15 +302,19 @@ class TableauRows:
                         for j, v, w in zip(ids, total, wholes):
                             if v:
                                 out[j] = v if w else mpq(v, escale[j])
-                        out.pop(self.head[p], None)
+                        out.pop(drop, None)
                         return out
 
                     forced = ROW_LIMB_BITS is not None
 
-                    def fn(big, p, _np=np):
+                    # (the basic column at the row's position comes in as ``drop``: this
+                    # function is kept with the matrix's copies and handed on to other
+                    # solves of the same columns (solver.ObjectiveProbes), so it must not
+                    # read the basis of the solve that made it)
+                    def fn(big, drop, _np=np):
                         longest = max(big, key=abs, default=0).__abs__()
                         if longest > limit or (forced and longest >> b):
-                            return limbs(big, p, int(longest).bit_length())  # a sum could leave 64 bits
+                            return limbs(big, drop, int(longest).bit_length())  # a sum could leave 64 bits
                         r = _np.array([int(v) for v in big], dtype=_np.int64)
                         sums = _np.add.reduceat(vals_a * r[rows_a], starts)
                         nz = sums != 0
@@ -316,7 +323,7 @@ class TableauRows:
                         for k in _np.flatnonzero(nz & ~whole_mask).tolist():
                             j = int(col_ids[k])
                             out[j] = mpq(int(sums[k]), escale[j])
-                        out.pop(self.head[p], None)
+                        out.pop(drop, None)
                         return out
         self._np_rows_cache = (ncol, fn)
         return fn
