@@ -815,6 +815,32 @@ def test_shared_start_probes_on_adlittle_match_their_own_solves():
     assert pivoted > 0
 
 
+@needs_netlib
+@pytest.mark.parametrize("name", ["afiro", "sc50a", "adlittle", "share2b", "blend"])
+def test_ranges_on_the_optimal_face_on_netlib(name):
+    # real models with equality rows and degenerate optima (source of the data:
+    # the Netlib LP set): every end lifted from the optimal face is a whole
+    # certificate the verifier accepts for the model with the held row, its value
+    # that of the held row's own probe, and the report passes its check
+    from exactlp.analysis import ranges
+    from exactlp.floatlp import BasisHint
+    from exactlp.io.mps import read_mps
+    from exactlp.report_check import check_report
+    from exactlp.reports import ranges_report
+    from exactlp.solver import ObjectiveProbes
+
+    m = read_mps(NETLIB / f"{name}.mps.gz")
+    rg = ranges(m, warm_start=False)
+    held = ObjectiveProbes(rg.fixed_model, BasisHint.of_result(rg.result, len(m.variables), len(m.constraints),
+                                                                added_rows=1))
+    assert len(rg.endpoints) >= 10
+    for ends in rg.endpoints.values():
+        for probe, got in ends:
+            assert exactlp.verify(probe, exactlp.build_certificate(probe, got)).valid
+            assert got.objective == held.solve(probe).objective
+    assert check_report(m, ranges_report(m, rg)).valid
+
+
 DEMAND = "minimize: 2 x + 3 y\nvariables: {x: {lower: 0}, y: {lower: 0}}\nconstraints:\n  demand: x + y >= 5\n"
 
 
@@ -944,6 +970,44 @@ def test_the_ranges_check_agrees_with_whole_certificates(text):
         assert got.valid == _ranges_proven_the_long_way(m, bad), (got.failure, bad["ranges"])
         verdicts.append(got.valid)
     assert verdicts.count(False) >= len(verdicts) // 3
+
+
+@settings(max_examples=150, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@given(lp_models(max_vars=5, max_rows=4))
+def test_ranges_solved_on_the_optimal_face_are_proven_for_the_held_row(model):
+    # analysis.ranges solves each probe on the optimal face (pins instead of the
+    # held row) and lifts the result to the model with the held row: every end
+    # must pass the verifier as a whole certificate of that model, with the value
+    # the held row's own probe finds, and the lift must not fall back everywhere
+    from exactlp import analysis
+    from exactlp.floatlp import BasisHint
+    from exactlp.solver import ObjectiveProbes
+
+    r = exactlp.solve(model, warm_start=False)
+    if r.status.value != "optimal":
+        return
+    lifted = []
+    original = analysis._lift_face_end
+
+    def counting(*args):
+        got = original(*args)
+        lifted.append(got is not None)
+        return got
+    analysis._lift_face_end = counting
+    try:
+        rg = analysis.ranges(model, warm_start=False)
+    finally:
+        analysis._lift_face_end = original
+    assert all(lifted)
+    held = ObjectiveProbes(rg.fixed_model, BasisHint.of_result(r, len(model.variables), len(model.constraints),
+                                                                added_rows=1))
+    for name, ends in rg.endpoints.items():
+        for (probe, got), want in zip(ends, (rg.ranges[name].minimum, rg.ranges[name].maximum)):
+            assert exactlp.verify(probe, exactlp.build_certificate(probe, got)).valid
+            own = held.solve(probe)
+            assert got.status == own.status and got.objective == own.objective and got.objective == want
+            if want is not None:
+                assert type(want) is F and got.duals[probe.constraints[-1].name] is not None
 
 
 def test_a_variable_without_end_over_the_optimal_set_is_proven_by_a_ray():
