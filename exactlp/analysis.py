@@ -390,11 +390,19 @@ def optimal_face_model(model: Model, r) -> Model:
 
 
 def _face_pins(model: Model, r) -> list | None:
-    """The pinned items of :func:`optimal_face_model`: ``(is_row, name, b, side)``
-    with ``b`` the optimum's nonzero reduced cost or dual, and ``side`` 1 when
+    """The pinned items of :func:`optimal_face_model`: ``(is_row, name, b, side,
+    b as mpq)`` with ``b`` the optimum's nonzero reduced cost or dual, ``side`` 1 when
     the optimum rests on the lower side only, -1 on the upper side only, 0 on
-    both (a fixed column or an equality row, whose multiplier takes any sign)."""
+    both (a fixed column or an equality row, whose multiplier takes any sign).
+
+    For a proven optimum ``side b`` has one sign over every item with a side
+    (the sign a multiplier needs on its side for the model's own sense: positive
+    at a lower side when minimising); None if not, or if a nonzero multiplier's
+    item rests on neither side (then the held row's probes are used)."""
+    from gmpy2 import mpq
+
     out = []
+    signs = set()
     for is_row, items, values, mult in ((False, model.variables, r.primal, r.reduced_costs),
                                         (True, model.constraints, r.activities, r.duals)):
         for it in items:
@@ -404,9 +412,12 @@ def _face_pins(model: Model, r) -> list | None:
             at = values[it.name]
             at_lo, at_hi = it.lower is not None and at == it.lower, it.upper is not None and at == it.upper
             if not (at_lo or at_hi):
-                return None  # (not a proven optimum's: the held row's probes are used instead)
-            out.append((is_row, it.name, b, 0 if at_lo and at_hi else 1 if at_lo else -1))
-    return out
+                return None
+            side = 0 if at_lo and at_hi else 1 if at_lo else -1
+            if side:
+                signs.add(side * b > 0)
+            out.append((is_row, it.name, b, side, mpq(b.numerator, b.denominator)))
+    return out if len(signs) <= 1 else None
 
 
 def _lift_face_end(face_result, probe: Model, pins: list):
@@ -421,15 +432,21 @@ def _lift_face_end(face_result, probe: Model, pins: list):
     duals ``u`` and reduced costs ``r' = e_k - A^T u``, take ``u - w y*`` on the
     rows and ``w`` on the held row; the reduced costs become ``r' - w d*``
     (``d* = c - A^T y*``), unchanged wherever ``d*_j = 0`` and ``y*_i = 0``,
-    where the face's own bounds and rows are the model's.  On a pinned column or
-    row the face left the sign free; the model needs the sign of the side the
-    point rests on (the optimum's side: the pin holds it there), a bound on
-    ``w`` from each: ``w`` is the one nearest 0 within all of them.  The
-    optimum's multiplier ``b`` has that sign for the model's own sense, so for
-    either sense of the probe the bounds all fall the same way and one ``w``
-    exists (checked here, exactly: None if not).  Every multiplier then rests
-    on a side the point meets, so the duals' objective is ``x_k``: no gap."""
+    where the face's own bounds and rows are the model's.  On a pinned item
+    (value ``a`` on the face, ``b`` at the optimum) the face left the sign free;
+    the model needs the sign ``sigma`` of the side the point rests on (the
+    optimum's side: the pin holds it there; minimising, ``sigma = 1`` at a lower
+    side), ``sigma (a - w b) >= 0``: ``w <= a / b`` when ``sigma b > 0``, else
+    ``w >= a / b``.  ``side b`` has one sign over the items (:func:`_face_pins`),
+    so every bound falls the same way, one ``w`` exists, and the one nearest 0
+    is the extreme of the bounds that 0 breaks (``sigma a < 0``): only those
+    are divided out.  Every multiplier then rests on a side the point meets,
+    so the duals' objective is ``x_k``: no gap (the tests verify each end as a
+    whole certificate)."""
+    from gmpy2 import mpq
+
     from .solver import Status
+    from .solver.form import frac
     from .solver.result import frozen_map
 
     held = probe.constraints[-1]
@@ -447,35 +464,29 @@ def _lift_face_end(face_result, probe: Model, pins: list):
         return face_result  # a limit: nothing is proven, and the caller says so
     sp = 1 if probe.sense is Sense.MINIMIZE else -1
     fd, fr = face_result.duals, face_result.reduced_costs
-    low, high = None, None  # the bounds on w
-    for is_row, name, b, side in pins:
+    w = Fraction(0)
+    for is_row, name, b, side, _ in pins:
         if not side:
             continue  # (any sign)
         a = (fd if is_row else fr)[name]
-        # need sigma (a - w b) >= 0, sigma = sp at the lower side, -sp at the upper one
-        t = a / b if a else 0
-        if sp * side * b > 0:  # w <= a / b
-            if high is None or t < high:
-                high = t
-        elif low is None or t > low:  # w >= a / b
-            low = t
-    if low is not None and high is not None and low > high:
-        return None
-    w = Fraction(0)
-    if low is not None and low > 0:
-        w = low
-    elif high is not None and high < 0:
-        w = high
-    # (only the pinned entries move, and none when w = 0: the face's own duals)
+        n = a.numerator
+        if (n < 0 if sp * side > 0 else n > 0):  # sigma a < 0: w = 0 breaks this one
+            t = a / b
+            # (w <= t, t < 0, when sigma b > 0; else w >= t, t > 0: the extreme one)
+            if (t < w) if sp * side * b > 0 else (t > w):
+                w = t
+    # (only the pinned entries move, and none when w = 0: the face's own duals;
+    # in mpq, each back to a Fraction: a generated 1,000-row network's probes move
+    # about 4,700 entries each, at less than half the time in Fractions)
     duals = dict(fd)
     duals[held.name] = w
     reduced = dict(fr)
     if w:
-        for is_row, name, b, _ in pins:
-            if is_row:
-                duals[name] -= w * b
-            else:
-                reduced[name] -= w * b
+        wq = mpq(w.numerator, w.denominator)
+        for is_row, name, _, _, bq in pins:
+            got = duals if is_row else reduced
+            a = got[name]
+            got[name] = frac(mpq(a.numerator, a.denominator) - wq * bq)
     return replace(face_result, duals=frozen_map(duals), reduced_costs=frozen_map(reduced), **common)
 
 
