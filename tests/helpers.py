@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 from fractions import Fraction
 
 from exactlp.model import Model, Sense
@@ -214,3 +215,21 @@ def fraction_route(path: str, monkeypatch) -> None:
         if path == "slots" and not form._SLOTS:
             pytest.skip("this Python's Fraction does not keep (_numerator, _denominator) slots")
         monkeypatch.setattr(form, "_SLOTS", path == "slots")
+
+
+@contextlib.contextmanager
+def calls_recorded(owner, name: str):
+    """Replace ``owner.name`` (a function) for the block by one that calls it and
+    records whether each call returned something other than None; yields the list."""
+    original = getattr(owner, name)
+    seen: list[bool] = []
+
+    def recording(*args):
+        got = original(*args)
+        seen.append(got is not None)
+        return got
+    setattr(owner, name, recording)
+    try:
+        yield seen
+    finally:
+        setattr(owner, name, original)

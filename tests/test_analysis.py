@@ -20,7 +20,7 @@ from exactlp.model import Constraint
 from exactlp.numbers import parse_number
 
 from .conftest import CASES, NETLIB, needs_netlib
-from .helpers import scipy_solve, sympy_solve
+from .helpers import calls_recorded, scipy_solve, sympy_solve
 
 _REPORT_LIMITS = exactlp.limits.Limits(max_number_chars=200_000)
 from .models import KNOWN
@@ -986,18 +986,8 @@ def test_ranges_solved_on_the_optimal_face_are_proven_for_the_held_row(model):
     r = exactlp.solve(model, warm_start=False)
     if r.status.value != "optimal":
         return
-    lifted = []
-    original = analysis._lift_face_end
-
-    def counting(*args):
-        got = original(*args)
-        lifted.append(got is not None)
-        return got
-    analysis._lift_face_end = counting
-    try:
+    with calls_recorded(analysis, "_lift_face_end") as lifted:
         rg = analysis.ranges(model, warm_start=False)
-    finally:
-        analysis._lift_face_end = original
     assert all(lifted)
     held = ObjectiveProbes(rg.fixed_model, BasisHint.of_result(r, len(model.variables), len(model.constraints),
                                                                 added_rows=1))

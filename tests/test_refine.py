@@ -25,7 +25,7 @@ from exactlp.solver.form import build_form
 from exactlp.solver.simplex import Simplex
 
 from .conftest import NETLIB, needs_netlib, netlib_table
-from .helpers import solve_verified
+from .helpers import calls_recorded, solve_verified
 from .models import KNOWN
 
 np = pytest.importorskip("numpy", reason="refinement needs numpy (the exactlp[fast] extra)")
@@ -346,21 +346,10 @@ def test_a_memo_that_is_not_a_pair_of_convergents_is_not_used(a, s, s0, s1):
 def test_the_refinements_tries_resume_their_continued_fractions():
     # the probes' memos carry over: each try after the first resumes (none
     # starts afresh), and the answer is the exact solution
-    calls = []
-    original = refine._resumed
-
-    def watch(*args):
-        got = original(*args)
-        calls.append(got is not None)
-        return got
-
     cols, b, x = bidiagonal(60, Fraction(7, 3), Fraction(-2, 5))
     fi = refine.FloatInverse(60, ints(cols))
-    refine._resumed = watch
-    try:
+    with calls_recorded(refine, "_resumed") as calls:
         got = fi.primal(b)
-    finally:
-        refine._resumed = original
     assert [Fraction(int(v.numerator), int(v.denominator)) for v in got] == x
     assert len(calls) >= 4 and all(calls)
 
