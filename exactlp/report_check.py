@@ -206,6 +206,8 @@ def _ranges(model: Model, rep: dict, checks: list) -> str:
     eqs = [{vv.name: Fraction(1)} for vv in model.variables
            if d.get(vv.name) or (vv.lower is not None and vv.lower == vv.upper)]
     eqs += [dict(c.terms) for c in model.constraints if y.get(c.name) or c.is_equality]
+    act = {k: _n(val, f"activities.{k}") for k, val in (cert.get("activities") or {}).items()}
+    held = _Held(mat, y, d, act)
     known: list = []
 
     def determined() -> bool:  # (decided only if a claim needs it: it is the costly part)
@@ -221,7 +223,7 @@ def _ranges(model: Model, rep: dict, checks: list) -> str:
         if how == "solved":
             for side, value, sp in (("min", lo, 1), ("max", hi, -1)):
                 proof = _part(entry, "proofs", dict, f"ranges.{name}.proofs").get(side)
-                _probe_end(mat, x, z - model.objective_constant, str(fo.get("name")), name, sp, value,
+                _probe_end(mat, held, x, z - model.objective_constant, str(fo.get("name")), name, sp, value,
                            proof, f"ranges.{name}.{side}")
         elif how == "reduced cost":
             if not d.get(name) or lo != hi or lo != x.get(name) or x.get(name) not in (var.lower, var.upper):
@@ -335,8 +337,105 @@ def _term(val: Fraction, lo, hi, s: int, what: str) -> Fraction:
     return val * side
 
 
-def _probe_end(mat: _Matrix, x: dict, held: Fraction, held_name: str, name: str, sp: int, value, proof,
-               where: str) -> None:
+class _Held:
+    """What the ends of solved ranges share: the held row ``c^T x = z*``, and the
+    verified optimum's activities ``A x*``, duals ``y*`` and reduced costs
+    ``d* = c - A^T y*``.
+
+    An end's duals ``y`` with ``y_h`` on the held row give the reduced costs
+    ``d = e_name - A^T y - y_h c``.  The verifier has checked ``A^T y* = c - d*``
+    entry by entry, so with ``u = y + y_h y*``::
+
+        y = u - y_h y*,    d = e_name - A^T u + y_h (c - d*) - y_h c = e_name - A^T u - y_h d*
+
+    The same numbers, summed another way.  An end solved on the optimal face has
+    ``u`` its own few duals, while ``y`` is as long as ``y*`` and ``d`` as long as
+    ``c``.  Where ``u_r`` is 0, ``y_r = -y_h y*_r``; off the columns ``T`` that ``A^T u``
+    and ``e_name`` reach, ``d_n = -y_h d*_n``.  Each of those terms rests on the side
+    that the sign of ``-y_h`` times that of ``y*_r`` (or ``d*_n``) selects, so their
+    sum is ``-y_h`` times a sum fixed by the sign of ``-y_h`` alone, taken once here,
+    less the entries summed one by one.
+    """
+
+    def __init__(self, mat: _Matrix, ystar: dict, dstar: dict, activities: dict) -> None:
+        self.mat = mat
+        self.activities = activities  # A x* (checked by the verifier)
+        self.cost = dict(mat.objective)
+        self.ystar = {r: v for r, v in ystar.items() if v}
+        self.dstar = {n: v for n, v in dstar.items() if v}
+        self.open_cols: dict = {}  # q -> the columns whose side is infinite
+        self.sides: dict = {}  # (q, "row" or "col") -> ({name: side or None}, the sum over finite sides)
+        for q in (1, -1):  # q: the sign of -y_h times the end's sense
+            for kind, vals, of in (("row", self.ystar, mat.rows), ("col", self.dstar, mat.variables)):
+                side = {k: of[k].lower if (v > 0) == (q > 0) else of[k].upper for k, v in vals.items()}
+                total = sum((v * side[k] for k, v in vals.items() if side[k] is not None), Fraction(0))
+                self.sides[q, kind] = (side, total)
+            self.open_cols[q] = {n for n, s in self.sides[q, "col"][0].items() if s is None}
+
+    def dual_total(self, y: dict, yh: Fraction, name: str, sp: int, held: Fraction) -> Fraction | None:
+        """The end's dual objective summed as above, or None if some term fails
+        (a multiplier on an infinite side): the caller then sums term by term."""
+        rows, variables = self.mat.rows, self.mat.variables
+        try:
+            total = _term(yh, held, held, sp, "")
+            if not yh:
+                u = y
+                for r, yr in y.items():
+                    total += _term(yr, rows[r].lower, rows[r].upper, sp, "")
+            else:
+                q = sp if yh < 0 else -sp
+                side, shared = self.sides[q, "row"]
+                u = {r: yr for r, yr in y.items() if r not in side}
+                for r, ys in self.ystar.items():
+                    if ur := y.get(r, 0) + yh * ys:
+                        u[r] = ur
+                        if side[r] is not None:
+                            shared -= ys * side[r]
+                    elif side[r] is None:
+                        return None
+                for r in u:
+                    total += _term(y.get(r, 0), rows[r].lower, rows[r].upper, sp, "")
+                total -= yh * shared
+            au = self.mat.t_times(u)
+            touched = set(au) | {name}
+            for n in touched:
+                dn = (n == name) - au.get(n, 0) - yh * self.dstar.get(n, 0)
+                total += _term(dn, variables[n].lower, variables[n].upper, sp, "")
+        except _Bad:
+            return None
+        if yh:
+            side, shared = self.sides[q, "col"]
+            if not self.open_cols[q] <= touched:
+                return None
+            for n in touched:
+                if side.get(n) is not None:
+                    shared -= self.dstar[n] * side[n]
+            total -= yh * shared
+        return total
+
+
+def _dual_total_by_terms(mat: _Matrix, y: dict, yh: Fraction, name: str, sp: int, held: Fraction,
+                         held_name: str, where: str) -> Fraction:
+    """The dual objective of an end (duals ``y``, ``y_h`` on the held row), with the
+    reduced costs ``d = e_name - A^T y - y_h c`` formed in full and each term taken
+    in turn: the definition that :meth:`_Held.dual_total` sums faster.  A term that
+    needs an infinite side is refused, named."""
+    rows, variables = mat.rows, mat.variables
+    d = {n: -g for n, g in mat.t_times(y).items()}
+    if yh:  # the held row's coefficients are the objective's
+        for n, cn in mat.objective:
+            d[n] = d.get(n, 0) - yh * cn
+    d[name] = d.get(name, 0) + 1
+    total = _term(yh, held, held, sp, f"{where}: dual of '{held_name}'")
+    for r, yr in y.items():
+        total += _term(yr, rows[r].lower, rows[r].upper, sp, f"{where}: dual of constraint '{r}'")
+    for n, dn in d.items():
+        total += _term(dn, variables[n].lower, variables[n].upper, sp, f"{where}: reduced cost of '{n}'")
+    return total
+
+
+def _probe_end(mat: _Matrix, shared: _Held, x: dict, held: Fraction, held_name: str, name: str, sp: int,
+               value, proof, where: str) -> None:
     """One end of a solved range: ``x_name`` minimised (``sp`` 1) or maximised (-1)
     over the optimal set, the model with the row ``c^T x = held`` added.
 
@@ -352,7 +451,7 @@ def _probe_end(mat: _Matrix, x: dict, held: Fraction, held_name: str, name: str,
     ``c^T r = 0`` and moves ``x_name`` the improving way without limit.
     """
     rows, variables = mat.rows, mat.variables
-    cost = dict(mat.objective)
+    cost = shared.cost
     if not isinstance(proof, dict):
         raise _Bad(f"{where}: no proof of this end")
     if value is None:
@@ -380,24 +479,17 @@ def _probe_end(mat: _Matrix, x: dict, held: Fraction, held_name: str, name: str,
         if (var.lower is not None and v < var.lower) or (var.upper is not None and v > var.upper):
             raise _Bad(f"{where}: '{n}' = {fmt(v)} breaks its bounds")
     for r, gain in mat.times(dx).items():
-        c = rows[r]
-        act = sum((a * moved.get(n, x[n]) for n, a in c.terms), Fraction(0))
+        c, act = rows[r], shared.activities[r] + gain  # A (x + dx) = A x + A dx
         if gain and ((c.lower is not None and act < c.lower) or (c.upper is not None and act > c.upper)):
             raise _Bad(f"{where}: constraint '{r}' fails at the point ({fmt(act)})")
     if sum((cost.get(n, 0) * v for n, v in dx.items()), Fraction(0)) != 0:
         raise _Bad(f"{where}: the point leaves the optimal set (the held objective moves)")
     yh = y.pop(held_name, Fraction(0))
-    d = {n: -g for n, g in mat.t_times(y).items()}
-    if yh:  # the held row's coefficients are the objective's
-        for n, cn in cost.items():
-            d[n] = d.get(n, 0) - yh * cn
-    d[name] = d.get(name, 0) + 1
-    total = _term(yh, held, held, sp, f"{where}: dual of '{held_name}'")
-    for r, yr in y.items():
-        total += _term(yr, rows[r].lower, rows[r].upper, sp, f"{where}: dual of constraint '{r}'")
-    for n, dn in d.items():
-        total += _term(dn, variables[n].lower, variables[n].upper, sp, f"{where}: reduced cost of '{n}'")
     got = moved.get(name, x[name])
+    if shared.dual_total(y, yh, name, sp, held) == got == value:
+        return
+    # something fails: the whole sum, term by term, names what
+    total = _dual_total_by_terms(mat, y, yh, name, sp, held, held_name, where)
     if total != got:
         raise _Bad(f"{where}: the duals leave a gap ({fmt(got)} against {fmt(total)})")
     if got != value:

@@ -1000,6 +1000,66 @@ def test_ranges_solved_on_the_optimal_face_are_proven_for_the_held_row(model):
                 assert type(want) is F and got.duals[probe.constraints[-1].name] is not None
 
 
+
+_SMALL = st.sampled_from([F(0), F(0), F(0), F(1), F(-1), F(2), F(-1, 3), F(5, 2)])
+
+
+@st.composite
+def _boxed_models(draw):
+    """Feasible models (each row's sides set around its activity at the lower
+    corner, a side sometimes absent), most variables boxed: most have an optimum,
+    and most multipliers rest on finite sides."""
+    small = st.sampled_from([0, 0, 1, -1, 2, -3])
+    n = draw(st.integers(1, 5))
+    low = [draw(st.integers(-2, 1)) for _ in range(n)]
+    lines = ["minimize: " + " + ".join(f"{draw(small)} x{j}" for j in range(n)), "variables:"]
+    lines += [f"  x{j}: {{lower: {lo}" + ("}" if draw(st.integers(0, 4)) == 0 else
+                                         f", upper: {lo + draw(st.integers(0, 3))}}}") for j, lo in enumerate(low)]
+    lines.append("constraints:")
+    for i in range(draw(st.integers(1, 4))):
+        a = [draw(small) for _ in range(n)]
+        at = sum(k * lo for k, lo in zip(a, low))
+        lo, hi = (None if draw(st.integers(0, 2)) == 0 else at + sign * draw(st.integers(0, 2))
+                  for sign in (-1, 1))
+        lo = at if lo is None and hi is None else lo
+        body = " + ".join(f"{k} x{j}" for j, k in enumerate(a))
+        lines.append(f"  r{i}: " + (f"{body} == {at}" if lo == hi == at else f"{body} >= {lo}" if hi is None else
+                                    f"{body} <= {hi}" if lo is None else f"{lo} <= {body} <= {hi}"))
+    return model_from_text("\n".join(lines) + "\n")
+
+
+@settings(max_examples=300, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@given(_boxed_models(), st.data())
+def test_the_ranges_check_sums_each_end_as_its_definition_does(model, data):
+    # the check sums an end's dual objective from u = y + y_h y* and shared sums
+    # (report_check._Held); the definition forms d = e_name - A^T y - y_h c in full
+    # and takes each term: for any duals (short u as the face gives, or arbitrary),
+    # either both give the same exact total, or both refuse a term on an infinite side
+    from exactlp.report_check import _Bad, _dual_total_by_terms, _Held, _Matrix
+
+    r = exactlp.solve(model, warm_start=False)
+    if r.status.value != "optimal":
+        assert r.status.value == "unbounded"
+        return
+    cert = exactlp.build_certificate(model, r)
+    ys, ds, act = ({k: parse_number(v) for k, v in cert[key].items()}
+                   for key in ("duals", "reduced_costs", "activities"))
+    mat = _Matrix(model)
+    shared = _Held(mat, ys, ds, act)
+    rows = [c.name for c in model.constraints]
+    yh = data.draw(_SMALL)
+    u = {k: v for k in rows if data.draw(st.integers(0, 2)) == 0 and (v := data.draw(_SMALL))}
+    y = ({k: v for k in rows if (v := u.get(k, 0) - yh * ys.get(k, 0))} if data.draw(st.booleans())
+         else {k: v for k in rows if (v := data.draw(_SMALL))})
+    name = data.draw(st.sampled_from([v.name for v in model.variables]))
+    sp, held = data.draw(st.sampled_from([1, -1])), data.draw(_SMALL)
+    try:
+        want = _dual_total_by_terms(mat, y, yh, name, sp, held, "held", "end")
+    except _Bad:
+        want = None
+    got = shared.dual_total(y, yh, name, sp, held)
+    assert got == want and (got is None or type(got) is F)
+
 def test_a_variable_without_end_over_the_optimal_set_is_proven_by_a_ray():
     from exactlp.analysis import ranges
     from exactlp.report_check import check_report
