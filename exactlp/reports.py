@@ -53,7 +53,7 @@ def ranges_report(model: Model, rg, limits=None) -> dict:
     doc["unique"] = rg.unique
     doc["proof"] = rg.proof
     out = {}
-    x = dict(rg.result.primal)
+    x = rg.result.primal
     for name, v in rg.ranges.items():
         entry = {"min": None if v.minimum is None else format_number(v.minimum),
                  "max": None if v.maximum is None else format_number(v.maximum), "method": v.method}
@@ -71,10 +71,11 @@ def _probe_proof(result, x: dict) -> dict:
     the nonzero duals, the held objective row's among them; at no end, the ray.
     The check rebuilds the rest (activities, reduced costs, the gap) from the model,
     so an end holds about as many numbers as the duals it needs, not a certificate."""
+    from .solver.result import entries_differing, nonzero_entries
+
     if result.status.value == "optimal":
-        return {"moved": _point({k: v for k, v in result.primal.items() if v != x[k]}),
-                "duals": _point({k: v for k, v in result.duals.items() if v})}
-    return {"ray": _point({k: v for k, v in result.ray.items() if v})}
+        return {"moved": _point(entries_differing(result.primal, x)), "duals": _point(nonzero_entries(result.duals))}
+    return {"ray": _point(nonzero_entries(result.ray))}
 
 
 # ----------------------------------------------------------------------
@@ -179,14 +180,16 @@ def ranges_report_size(rg) -> tuple[int, int]:
     """``(numbers, digits)`` of a ranges report of ``rg``: the optimal certificate
     (``2 (n + m) + 2`` numbers), the objective and its held value, each range's
     two ends, and each solved end's moved entries and nonzero duals, or ray."""
+    from .solver.result import entries_differing, nonzero_entries
+
     vals = _result_numbers(rg.result)
     x = rg.result.primal
     for ends in rg.endpoints.values():
         for _, r in ends:
             if r.status.value == "optimal":
-                vals += [v for k, v in r.primal.items() if v != x[k]] + [v for v in r.duals.values() if v]
+                vals += [*entries_differing(r.primal, x).values(), *nonzero_entries(r.duals).values()]
             else:
-                vals += [v for v in r.ray.values() if v]
+                vals += nonzero_entries(r.ray).values()
     ends = [v for rg_ in rg.ranges.values() for v in (rg_.minimum, rg_.maximum) if v is not None]
     return len(vals) + 4 + 2 * len(rg.ranges), _digits(vals + ends) + 3 * _digits([rg.result.objective])
 

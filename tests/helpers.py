@@ -233,3 +233,17 @@ def calls_recorded(owner, name: str):
         yield seen
     finally:
         setattr(owner, name, original)
+
+
+def network(sources: int, districts: int) -> Model:
+    """The generated water network of cases/generated at another size (its own script)."""
+    import importlib.util
+
+    from exactlp.io import model_from_text
+
+    from .conftest import CASES
+
+    spec = importlib.util.spec_from_file_location("make_network", CASES / "generated" / "make_network.py")
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    return model_from_text(mod.build(sources, districts))

@@ -23,7 +23,7 @@ from exactlp.solver import rows as rows_module
 from exactlp.solver.events import Pivot, Start
 
 from .conftest import needs_netlib
-from .helpers import always_scaled, solve_verified, sympy_solve
+from .helpers import always_scaled, network as _network, solve_verified, sympy_solve
 from .models import FLIPS, KNOWN
 from .strategies import lp_models
 
@@ -520,18 +520,6 @@ def limbs_of(bits: int):
         yield cut
     finally:
         rows_module.ROW_LIMB_BITS, rows_module.ROW_LIMBS_MOST, simplex_module.Simplex._np_rows = saved
-
-
-def _network(sources: int, districts: int):
-    """The generated water network of cases/generated at another size (its own script)."""
-    import importlib.util
-
-    from .conftest import CASES
-
-    spec = importlib.util.spec_from_file_location("make_network", CASES / "generated" / "make_network.py")
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    return model_from_text(mod.build(sources, districts))
 
 
 @pytest.mark.parametrize("slack, share", [(64, 4), (0, 0), (64, 10**9)])

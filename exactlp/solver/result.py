@@ -32,6 +32,79 @@ def frozen_map(d: Mapping | None) -> Mapping:
     return MappingProxyType(dict(d or {}))
 
 
+_ZERO = Fraction(0)
+
+
+class ScaledMap(Mapping):
+    """An immutable map over the keys of ``keys`` whose value at ``k`` is
+    ``own[k]`` where given, else ``scale * base[k]`` (0 where ``base`` has no
+    ``k``; ``base[k]`` itself when ``scale`` is 1).
+
+    For results that differ from one they derive from in a few entries and by a
+    multiple elsewhere: a range's end keeps its own few entries and shares the
+    optimum's (its duals are ``u - w y*`` with ``u`` short).  The shared values
+    are formed on each access, exactly; nothing is stored per key."""
+
+    __slots__ = ("_keys", "_own", "_base", "_scale", "_one")
+
+    def __init__(self, keys: Mapping, own: dict, base: Mapping, scale: Fraction = Fraction(1)) -> None:
+        self._keys, self._own, self._base, self._scale = keys, own, base, scale
+        self._one = scale == 1
+
+    def __getitem__(self, k: str) -> Fraction:
+        got = self._own.get(k)
+        if got is not None:
+            return got
+        if k not in self._keys:
+            raise KeyError(k)
+        b = self._base.get(k)
+        if b is None or not self._scale:
+            return _ZERO
+        return b if self._one else self._scale * b
+
+    def __iter__(self):
+        return iter(self._keys)
+
+    def __len__(self) -> int:
+        return len(self._keys)
+
+    def __repr__(self) -> str:
+        return f"ScaledMap({dict(self)!r})"
+
+    def differing(self, base: Mapping) -> dict:
+        """The entries that differ from ``base`` (in key order): only the own
+        ones can, when this map is ``base`` itself with a few entries of its own."""
+        if base is self._base and self._one:
+            return {k: v for k, v in self._own.items() if v != base[k]}
+        return {k: v for k, v in self.items() if v != base[k]}
+
+    def nonzero(self) -> dict:
+        """The nonzero entries, in key order, each formed once."""
+        own, base, scale, one = self._own, self._base, self._scale, self._one
+        if not scale:
+            return {k: v for k, v in own.items() if v}
+        out = {}
+        for k in self._keys:
+            v = own.get(k)
+            if v is None:
+                v = base.get(k)
+                if v and not one:
+                    v = scale * v
+            if v:
+                out[k] = v
+        return out
+
+
+def nonzero_entries(m: Mapping) -> dict:
+    """``{k: v for k, v in m.items() if v}``, faster on a :class:`ScaledMap`."""
+    return m.nonzero() if isinstance(m, ScaledMap) else {k: v for k, v in m.items() if v}
+
+
+def entries_differing(m: Mapping, base: Mapping) -> dict:
+    """``{k: v for k, v in m.items() if v != base[k]}``, faster on a :class:`ScaledMap` of ``base``."""
+    return m.differing(base) if isinstance(m, ScaledMap) else {k: v for k, v in m.items() if v != base[k]}
+
+
 @dataclass(frozen=True)
 class SolveResult:
     status: Status
