@@ -515,16 +515,16 @@ def ranges(model: Model, variables: list[str] | None = None, progress=None, **so
     _single_objective(model)
     from .solver import Status, solve
 
-    r = solve(model, **solve_options)
-    if r.status is not Status.OPTIMAL:
-        raise _not_proven_as_needed(model, r.status.value, "allocation ranges need an optimum")
     names = [v.name for v in model.variables]
     chosen = names if not variables else list(variables)
-    for v in chosen:
+    for v in chosen:  # (before the solve: a misspelt name is known at once)
         if v not in names:
             from .errors import did_you_mean
 
             raise InputError(f"no variable '{v}'{did_you_mean(v, names)}", field="variables")
+    r = solve(model, **solve_options)
+    if r.status is not Status.OPTIMAL:
+        raise _not_proven_as_needed(model, r.status.value, "allocation ranges need an optimum")
     basic = set(r.basis_columns)
     n = len(model.variables)
     decided: dict[str, VarRange] = {}

@@ -9,35 +9,48 @@ from exactlp.model import Model, Sense
 
 
 def to_linprog(model: Model):
-    """The model as arguments of scipy.optimize.linprog (floats: the reference's own domain)."""
+    """The model as arguments of scipy.optimize.linprog (floats: the reference's own
+    domain); its matrices sparse when dense ones would pass a million entries."""
     names = [v.name for v in model.variables]
     idx = {n: j for j, n in enumerate(names)}
     sgn = 1 if model.sense is Sense.MINIMIZE else -1
     c = [0.0] * len(names)
     for n, a in model.objective:
         c[idx[n]] = sgn * float(a)
-    A_ub, b_ub, A_eq, b_eq = [], [], [], []
+    ub, b_ub, eq, b_eq = [], [], [], []  # rows as {column: value}
     for con in model.constraints:
-        row = [0.0] * len(names)
-        for n, a in con.terms:
-            row[idx[n]] = float(a)
+        row = {idx[n]: float(a) for n, a in con.terms}
         if con.is_equality:
-            A_eq.append(row)
+            eq.append(row)
             b_eq.append(float(con.lower))
             continue
         if con.upper is not None:
-            A_ub.append(row)
+            ub.append(row)
             b_ub.append(float(con.upper))
         if con.lower is not None:
-            A_ub.append([-a for a in row])
+            ub.append({j: -a for j, a in row.items()})
             b_ub.append(-float(con.lower))
+    sparse = len(names) * len(model.constraints) > 1_000_000
+
+    def matrix(rows):
+        if sparse:
+            from scipy.sparse import csr_matrix
+
+            data = [(i, j, a) for i, row in enumerate(rows) for j, a in row.items()]
+            return csr_matrix(([a for _, _, a in data], ([i for i, _, _ in data], [j for _, j, _ in data])),
+                              shape=(len(rows), len(names)))
+        dense = [[0.0] * len(names) for _ in rows]
+        for i, row in enumerate(rows):
+            for j, a in row.items():
+                dense[i][j] = a
+        return dense
     bounds = [(None if v.lower is None else float(v.lower), None if v.upper is None else float(v.upper))
               for v in model.variables]
     kw = dict(c=c, bounds=bounds, method="highs")
-    if A_ub:
-        kw.update(A_ub=A_ub, b_ub=b_ub)
-    if A_eq:
-        kw.update(A_eq=A_eq, b_eq=b_eq)
+    if ub:
+        kw.update(A_ub=matrix(ub), b_ub=b_ub)
+    if eq:
+        kw.update(A_eq=matrix(eq), b_eq=b_eq)
     return kw, sgn
 
 
@@ -235,15 +248,21 @@ def calls_recorded(owner, name: str):
         setattr(owner, name, original)
 
 
-def network(sources: int, districts: int) -> Model:
-    """The generated water network of cases/generated at another size (its own script)."""
+def network_text(sources: int, districts: int, reach: int | None = None) -> str:
+    """The generated water network of cases/generated at another size, as its own
+    script writes it (``reach``: the script's default when None)."""
     import importlib.util
-
-    from exactlp.io import model_from_text
 
     from .conftest import CASES
 
     spec = importlib.util.spec_from_file_location("make_network", CASES / "generated" / "make_network.py")
     mod = importlib.util.module_from_spec(spec)
     spec.loader.exec_module(mod)
-    return model_from_text(mod.build(sources, districts))
+    return mod.build(sources, districts) if reach is None else mod.build(sources, districts, reach)
+
+
+def network(sources: int, districts: int, reach: int | None = None) -> Model:
+    """:func:`network_text`, read."""
+    from exactlp.io import model_from_text
+
+    return model_from_text(network_text(sources, districts, reach))
