@@ -374,44 +374,72 @@ class _Held:
 
     def dual_total(self, y: dict, yh: Fraction, name: str, sp: int, held: Fraction) -> Fraction | None:
         """The end's dual objective summed as above, or None if some term fails
-        (a multiplier on an infinite side): the caller then sums term by term."""
+        (a multiplier on an infinite side): the caller then sums term by term.
+        The terms are gathered as (multiplier, side) and summed by :func:`_dot`."""
         rows, variables = self.mat.rows, self.mat.variables
+        plus: list = []  # terms taken one by one
+        minus: list = []  # the same entries' parts of the shared sums, to take out
         try:
-            total = _term(yh, held, held, sp, "")
+            if yh:
+                plus.append((yh, _rest(yh, held, held, sp)))
             if not yh:
                 u = y
                 for r, yr in y.items():
-                    total += _term(yr, rows[r].lower, rows[r].upper, sp, "")
+                    if yr:
+                        plus.append((yr, _rest(yr, rows[r].lower, rows[r].upper, sp)))
             else:
                 q = sp if yh < 0 else -sp
-                side, shared = self.sides[q, "row"]
+                side = self.sides[q, "row"][0]
                 u = {r: yr for r, yr in y.items() if r not in side}
                 for r, ys in self.ystar.items():
                     if ur := y.get(r, 0) + yh * ys:
                         u[r] = ur
                         if side[r] is not None:
-                            shared -= ys * side[r]
+                            minus.append((ys, side[r]))
                     elif side[r] is None:
                         return None
                 for r in u:
-                    total += _term(y.get(r, 0), rows[r].lower, rows[r].upper, sp, "")
-                total -= yh * shared
+                    if yr := y.get(r, 0):
+                        plus.append((yr, _rest(yr, rows[r].lower, rows[r].upper, sp)))
             au = self.mat.t_times(u)
             touched = set(au) | {name}
             for n in touched:
-                dn = (n == name) - au.get(n, 0) - yh * self.dstar.get(n, 0)
-                total += _term(dn, variables[n].lower, variables[n].upper, sp, "")
+                if dn := (n == name) - au.get(n, 0) - yh * self.dstar.get(n, 0):
+                    plus.append((dn, _rest(dn, variables[n].lower, variables[n].upper, sp)))
         except _Bad:
             return None
+        total = _dot(plus)
         if yh:
-            side, shared = self.sides[q, "col"]
+            side = self.sides[q, "col"][0]
             if not self.open_cols[q] <= touched:
                 return None
-            for n in touched:
-                if side.get(n) is not None:
-                    shared -= self.dstar[n] * side[n]
-            total -= yh * shared
+            minus += [(self.dstar[n], side[n]) for n in touched if side.get(n) is not None]
+            # -y_h (row sum + column sum - the entries summed one by one)
+            total += yh * (_dot(minus) - self.sides[q, "row"][1] - self.sides[q, "col"][1])
         return total
+
+
+def _rest(val: Fraction, lo, hi, s: int):
+    """The side a nonzero multiplier ``val`` rests on, as :func:`_term` chooses it;
+    an infinite one is refused (unnamed: the caller sums again term by term)."""
+    side = lo if (val > 0) == (s > 0) else hi
+    if side is None:
+        raise _Bad("")
+    return side
+
+
+def _dot(pairs: list) -> Fraction:
+    """``sum(a * b)`` over pairs of Fractions, over their common denominator: one
+    product of integers a term, and one reduction (the terms of a dual objective
+    share the basis's denominators; a sum of Fractions reduces at every step).
+    As Fractions if the common denominator grows past twice the longest."""
+    dens = {a.denominator * b.denominator for a, b in pairs}
+    common, cap = 1, 64 + 2 * max((d.bit_length() for d in dens), default=0)
+    for d in dens:
+        if (common := lcm(common, d)).bit_length() > cap:
+            return sum((a * b for a, b in pairs), Fraction(0))
+    return Fraction(sum(a.numerator * b.numerator * (common // (a.denominator * b.denominator)) for a, b in pairs),
+                    common)
 
 
 def _dual_total_by_terms(mat: _Matrix, y: dict, yh: Fraction, name: str, sp: int, held: Fraction,
