@@ -329,12 +329,7 @@ def _term(val: Fraction, lo, hi, s: int, what: str) -> Fraction:
     (minimising, a positive multiplier rests on the lower side), which must be finite."""
     if not val:
         return Fraction(0)
-    rests_low = (val > 0) == (s > 0)
-    side = lo if rests_low else hi
-    if side is None:
-        raise _Bad(f"{what} is {fmt(val)}, which needs a finite {'lower' if rests_low else 'upper'} "
-                   f"side, and it has none")
-    return val * side
+    return val * _rest(val, lo, hi, s, what)
 
 
 class _Held:
@@ -419,13 +414,23 @@ class _Held:
         return total
 
 
-def _rest(val: Fraction, lo, hi, s: int):
+def _rest(val: Fraction, lo, hi, s: int, what: str = ""):
     """The side a nonzero multiplier ``val`` rests on, as :func:`_term` chooses it;
-    an infinite one is refused (unnamed: the caller sums again term by term)."""
-    side = lo if (val > 0) == (s > 0) else hi
+    an infinite one is refused, naming ``what``."""
+    rests_low = (val > 0) == (s > 0)
+    side = lo if rests_low else hi
     if side is None:
-        raise _Bad("")
+        raise _Bad(f"{what} is {fmt(val)}, which needs a finite {'lower' if rests_low else 'upper'} "
+                   f"side, and it has none")
     return side
+
+
+_ONE = Fraction(1)
+
+
+def _fsum(values) -> Fraction:
+    """``sum(values)`` of Fractions, as :func:`_dot` sums."""
+    return _dot([(v, _ONE) for v in values])
 
 
 def _dot(pairs: list) -> Fraction:
@@ -575,27 +580,36 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
                 t = end - cj
                 if not t:
                     continue
-                total = dual_total
+                # the changed terms in, the verified ones they replace out (summed
+                # over common denominators: :func:`_dot`)
+                terms, old = [], []
                 for r, wr in w.items():
                     if wr:
                         c = rows[r]
-                        total += _term(y[r] + t * wr, c.lower, c.upper, s, f"{at}: dual of constraint '{r}'") - row_term[r]
-                for k in set(u) | {name}:
+                        if yr := y[r] + t * wr:
+                            terms.append((yr, _rest(yr, c.lower, c.upper, s, f"{at}: dual of constraint '{r}'")))
+                        old.append(row_term[r])
+                for k in [*u, *([] if name in u else [name])]:  # (in a fixed order: the first fault named)
                     v = variables[k]
-                    dk = d[k] - t * u.get(k, 0) + (t if k == name else 0)
-                    total += _term(dk, v.lower, v.upper, s, f"{at}: reduced cost of '{k}'") - var_term[k]
+                    if dk := d[k] - t * u.get(k, 0) + (t if k == name else 0):
+                        terms.append((dk, _rest(dk, v.lower, v.upper, s, f"{at}: reduced cost of '{k}'")))
+                    old.append(var_term[k])
+                total = dual_total + _dot(terms) - _fsum(old)
                 primal = z + t * x[name]
             else:
                 # the objective sign * x_name alone (no constant): duals sign * w,
                 # reduced costs sign * (e_name - A^T w), every other one zero
-                total = Fraction(0)
+                terms = []
                 for r, wr in w.items():
                     c = rows[r]
-                    total += _term(sign * wr, c.lower, c.upper, s, f"{at}: dual of constraint '{r}'")
-                for k in set(u) | {name}:
+                    if wr:
+                        terms.append((sign * wr, _rest(sign * wr, c.lower, c.upper, s,
+                                                       f"{at}: dual of constraint '{r}'")))
+                for k in [*u, *([] if name in u else [name])]:  # (in a fixed order: the first fault named)
                     v = variables[k]
-                    dk = sign * ((1 if k == name else 0) - u.get(k, 0))
-                    total += _term(dk, v.lower, v.upper, s, f"{at}: reduced cost of '{k}'")
+                    if dk := sign * ((1 if k == name else 0) - u.get(k, 0)):
+                        terms.append((dk, _rest(dk, v.lower, v.upper, s, f"{at}: reduced cost of '{k}'")))
+                total = _dot(terms)
                 primal = sign * x[name]
             if total != primal:
                 raise _Bad(f"{at}: the duals along the direction leave a gap ({fmt(primal)} against "
