@@ -662,7 +662,7 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
                     xn, var = x[n] + t * vn, variables[n]
                     if (var.lower is not None and xn < var.lower) or (var.upper is not None and xn > var.upper):
                         raise _Bad(f"{at}: the moved allocation breaks the bounds of '{n}' ({fmt(xn)})")
-            for r in (set(av) if t else set()) | {name}:
+            for r in [*(av if t else ()), *([] if t and name in av else [name])]:  # (a fixed order, as above)
                 ar, c = act[r] + t * av.get(r, 0), rows[r]
                 rlo, rhi = (new_lo, new_hi) if r == name else (c.lower, c.upper)
                 if (rlo is not None and ar < rlo) or (rhi is not None and ar > rhi):
