@@ -359,6 +359,7 @@ class _Held:
         self.ystar = {r: v for r, v in ystar.items() if v}
         self.dstar = {n: v for n, v in dstar.items() if v}
         self.open_cols: dict = {}  # q -> the columns whose side is infinite
+        self.open_rows: dict = {}  # q -> the rows whose side is infinite
         self.sides: dict = {}  # (q, "row" or "col") -> ({name: side or None}, the sum over finite sides)
         for q in (1, -1):  # q: the sign of -y_h times the end's sense
             for kind, vals, of in (("row", self.ystar, mat.rows), ("col", self.dstar, mat.variables)):
@@ -366,36 +367,47 @@ class _Held:
                 total = sum((v * side[k] for k, v in vals.items() if side[k] is not None), Fraction(0))
                 self.sides[q, kind] = (side, total)
             self.open_cols[q] = {n for n, s in self.sides[q, "col"][0].items() if s is None}
+            self.open_rows[q] = {r for r, s in self.sides[q, "row"][0].items() if s is None}
 
-    def dual_total(self, y: dict, yh: Fraction, name: str, sp: int, held: Fraction) -> Fraction | None:
-        """The end's dual objective summed as above, or None if some term fails
-        (a multiplier on an infinite side): the caller then sums term by term.
-        The terms are gathered as (multiplier, side) and summed by :func:`_dot`."""
+    def face_duals(self, y: dict, yh: Fraction) -> dict:
+        """``u = y + y_h y*``, its nonzero entries."""
+        u = {r: yr for r, yr in y.items() if yr and r not in self.ystar}
+        for r, ys in self.ystar.items():
+            if ur := y.get(r, 0) + yh * ys:
+                u[r] = ur
+        return u
+
+    def duals(self, u: dict, yh: Fraction) -> dict:
+        """``y = u - y_h y*``, its nonzero entries (the whole duals of an end given
+        by its face's, for the term-by-term sum)."""
+        y = {r: ur for r, ur in u.items() if r not in self.ystar}
+        for r, ys in self.ystar.items():
+            if yr := u.get(r, 0) - yh * ys:
+                y[r] = yr
+        return y
+
+    def dual_total(self, u: dict, yh: Fraction, name: str, sp: int, held: Fraction) -> Fraction | None:
+        """The dual objective of the end with duals ``u - y_h y*`` and ``y_h`` on the
+        held row (``u``: nonzero entries only), summed as above, or None if some
+        term fails (a multiplier on an infinite side): the caller then sums term
+        by term.  The terms are gathered as (multiplier, side) and summed by
+        :func:`_dot`."""
         rows, variables = self.mat.rows, self.mat.variables
         plus: list = []  # terms taken one by one
         minus: list = []  # the same entries' parts of the shared sums, to take out
         try:
             if yh:
                 plus.append((yh, _rest(yh, held, held, sp)))
-            if not yh:
-                u = y
-                for r, yr in y.items():
-                    if yr:
-                        plus.append((yr, _rest(yr, rows[r].lower, rows[r].upper, sp)))
-            else:
                 q = sp if yh < 0 else -sp
                 side = self.sides[q, "row"][0]
-                u = {r: yr for r, yr in y.items() if r not in side}
-                for r, ys in self.ystar.items():
-                    if ur := y.get(r, 0) + yh * ys:
-                        u[r] = ur
-                        if side[r] is not None:
-                            minus.append((ys, side[r]))
-                    elif side[r] is None:
-                        return None
-                for r in u:
-                    if yr := y.get(r, 0):
-                        plus.append((yr, _rest(yr, rows[r].lower, rows[r].upper, sp)))
+                if not self.open_rows[q] <= u.keys():
+                    return None  # a row with u_r = 0 whose -y_h y*_r needs an infinite side
+            for r, ur in u.items():
+                yr = ur - yh * self.ystar[r] if yh and r in self.ystar else ur
+                if yr:
+                    plus.append((yr, _rest(yr, rows[r].lower, rows[r].upper, sp)))
+                if yh and r in side and side[r] is not None:
+                    minus.append((self.ystar[r], side[r]))
             au = self.mat.t_times(u)
             touched = set(au) | {name}
             for n in touched:
@@ -505,7 +517,16 @@ def _probe_end(mat: _Matrix, shared: _Held, x: dict, held: Fraction, held_name: 
     if "ray" in proof:
         raise _Bad(f"{where}: a ray proves no finite end, and the report gives {fmt(value)}")
     moved = _direction(proof.get("moved"), variables, f"{where}.moved")
-    y = _direction(proof.get("duals"), set(rows) | {held_name}, f"{where}.duals")
+    if "face_duals" in proof:  # (exactlp-report/3) the duals u - y_h y*, y_h on the held row
+        if "duals" in proof:
+            raise _Bad(f"{where}: an end gives its duals or its face's duals, not both")
+        u = {r: v for r, v in _direction(proof["face_duals"], rows, f"{where}.face_duals").items() if v}
+        yh = _exact(proof.get("held_dual"), f"{where}.held_dual")
+        y = None
+    else:
+        y = _direction(proof.get("duals"), set(rows) | {held_name}, f"{where}.duals")
+        yh = y.pop(held_name, Fraction(0))
+        u = shared.face_duals(y, yh)
     dx = {n: v - x[n] for n, v in moved.items()}
     for n, v in moved.items():
         var = variables[n]
@@ -517,12 +538,11 @@ def _probe_end(mat: _Matrix, shared: _Held, x: dict, held: Fraction, held_name: 
             raise _Bad(f"{where}: constraint '{r}' fails at the point ({fmt(act)})")
     if sum((cost.get(n, 0) * v for n, v in dx.items()), Fraction(0)) != 0:
         raise _Bad(f"{where}: the point leaves the optimal set (the held objective moves)")
-    yh = y.pop(held_name, Fraction(0))
     got = moved.get(name, x[name])
-    if shared.dual_total(y, yh, name, sp, held) == got == value:
+    if shared.dual_total(u, yh, name, sp, held) == got == value:
         return
     # something fails: the whole sum, term by term, names what
-    total = _dual_total_by_terms(mat, y, yh, name, sp, held, held_name, where)
+    total = _dual_total_by_terms(mat, shared.duals(u, yh) if y is None else y, yh, name, sp, held, held_name, where)
     if total != got:
         raise _Bad(f"{where}: the duals leave a gap ({fmt(got)} against {fmt(total)})")
     if got != value:
@@ -684,11 +704,13 @@ def check_report(model: Model, report: dict) -> Verification:
     kind = report.get("report")
     try:
         fmt_ = report.get("format")
-        # 2 changed the sensitivity and ranges reports' layout: 1's conflict reports still read
-        if fmt_ != "exactlp-report/2" and not (fmt_ == "exactlp-report/1" and kind == "conflict"):
+        # 2 changed the sensitivity and ranges reports' layout: 1's conflict reports still read;
+        # 3 lets a range's end give its duals as the optimal face's: 2's reports still read
+        if fmt_ not in ("exactlp-report/3", "exactlp-report/2") and not (fmt_ == "exactlp-report/1"
+                                                                          and kind == "conflict"):
             found = f"{fmt_!r}" + (f" (a {kind} report of an earlier layout: write it again)"
                                    if fmt_ == "exactlp-report/1" else "")
-            raise _Bad(f"format: expected 'exactlp-report/2', found {found}")
+            raise _Bad(f"format: expected 'exactlp-report/3', found {found}")
         fp = (report.get("model") or {}).get("fingerprint") if isinstance(report.get("model"), dict) else None
         if fp != model.fingerprint:
             raise _Bad(f"fingerprint: the report is for {fp}, the model given is {model.fingerprint}")

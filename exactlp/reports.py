@@ -17,7 +17,7 @@ from .numbers import format_number
 #: 2: a sensitivity report holds each range's direction, and a ranges report each
 #: solved end's duals and moved entries, not a whole certificate per end (conflict
 #: reports are as in 1, which the check still reads)
-REPORT_FORMAT = "exactlp-report/2"
+REPORT_FORMAT = "exactlp-report/3"
 
 
 def _head(model: Model, kind: str) -> dict:
@@ -59,22 +59,43 @@ def ranges_report(model: Model, rg, limits=None) -> dict:
                  "max": None if v.maximum is None else format_number(v.maximum), "method": v.method}
         if v.method == "solved":
             (_, rmin), (_, rmax) = rg.endpoints[name]
-            entry["proofs"] = {"min": _probe_proof(rmin, x), "max": _probe_proof(rmax, x)}
+            entry["proofs"] = {"min": _probe_proof(rmin, rg.result, row.name),
+                               "max": _probe_proof(rmax, rg.result, row.name)}
         out[name] = entry
     doc["ranges"] = out
     return doc
 
 
-def _probe_proof(result, x: dict) -> dict:
+def _face_proof(result, optimum, held: str) -> tuple[dict, object] | None:
+    """An end lifted from the optimal face (``analysis._lift_face_end``) as the
+    face's own duals ``u`` (nonzero) and the held row's ``w``: its duals are
+    ``u - w y*`` with ``y*`` the optimum's; None for an end solved otherwise."""
+    from .solver.result import offsets_from
+
+    u = offsets_from(result.duals, optimum.duals)
+    if u is None or held not in u:
+        return None
+    w = u.pop(held)
+    return {k: v for k, v in u.items() if v}, w
+
+
+def _probe_proof(result, optimum, held: str) -> dict:
     """One end of a solved range, as the report check reads it: at an optimum, the
-    allocation's entries that differ from the model's optimum ``x`` (``moved``) and
-    the nonzero duals, the held objective row's among them; at no end, the ray.
-    The check rebuilds the rest (activities, reduced costs, the gap) from the model,
-    so an end holds about as many numbers as the duals it needs, not a certificate."""
+    allocation's entries that differ from the model's optimum (``moved``) and its
+    duals: for an end lifted from the optimal face, the face's nonzero duals
+    ``u`` (``face_duals``) and the held objective row's ``w`` (``held_dual``),
+    the duals being ``u - w y*``; otherwise the nonzero duals, the held row's
+    among them.  At no end, the ray.  The check rebuilds the rest (activities,
+    reduced costs, the gap) from the model, so an end holds about as many
+    numbers as the duals it needs, not a certificate."""
     from .solver.result import entries_differing, nonzero_entries
 
     if result.status.value == "optimal":
-        return {"moved": _point(entries_differing(result.primal, x)), "duals": _point(nonzero_entries(result.duals))}
+        moved = _point(entries_differing(result.primal, optimum.primal))
+        face = _face_proof(result, optimum, held)
+        if face is not None:
+            return {"moved": moved, "face_duals": _point(face[0]), "held_dual": format_number(face[1])}
+        return {"moved": moved, "duals": _point(nonzero_entries(result.duals))}
     return {"ray": _point(nonzero_entries(result.ray))}
 
 
@@ -187,7 +208,9 @@ def ranges_report_size(rg) -> tuple[int, int]:
     for ends in rg.endpoints.values():
         for _, r in ends:
             if r.status.value == "optimal":
-                vals += [*entries_differing(r.primal, x).values(), *nonzero_entries(r.duals).values()]
+                face = _face_proof(r, rg.result, rg.fixed_model.constraints[-1].name)
+                vals += [*entries_differing(r.primal, x).values(),
+                         *(nonzero_entries(r.duals).values() if face is None else [*face[0].values(), face[1]])]
             else:
                 vals += nonzero_entries(r.ray).values()
     ends = [v for rg_ in rg.ranges.values() for v in (rg_.minimum, rg_.maximum) if v is not None]

@@ -678,7 +678,7 @@ def test_the_report_check_names_what_is_wrong_with_a_direction():
 
     m = exactlp.load(CASES / "grants.yaml")
     rep = sensitivity_report(m, sensitivity(m))
-    assert rep["format"] == "exactlp-report/2"
+    assert rep["format"] == "exactlp-report/3"
     assert rep["rhs_ranges"]["fund"]["allocation_direction"] == {"coast_west": "1"}
     assert rep["objective_ranges"]["coast_west"]["dual_direction"] == {"fund": "1"}
     cases = [
@@ -704,22 +704,24 @@ def test_the_report_check_names_what_is_wrong_with_a_direction():
         assert check_report(m, bad).failure.detail == message
     old = copy.deepcopy(rep)
     old["format"] = "exactlp-report/1"
-    assert check_report(m, old).failure.detail == ("format: expected 'exactlp-report/2', found 'exactlp-report/1' "
+    assert check_report(m, old).failure.detail == ("format: expected 'exactlp-report/3', found 'exactlp-report/1' "
                                                    "(a sensitivity report of an earlier layout: write it again)")
-    # the first layout's conflict reports are the second's, and still check
+    old["format"] = "exactlp-report/2"  # (the third added a proof to ranges only)
+    assert check_report(m, old).valid
+    # the first layout's conflict reports are the second's and third's, and still check
     from exactlp.analysis import ranges
     from exactlp.reports import conflict_report, ranges_report
 
     model = exactlp.load(CASES / "grants_overcommitted.yaml")
     rep = conflict_report(model, conflict(model))
-    assert rep["format"] == "exactlp-report/2" and check_report(model, rep).valid
+    assert rep["format"] == "exactlp-report/3" and check_report(model, rep).valid
     rep["format"] = "exactlp-report/1"
     assert check_report(model, rep).valid
-    rep["format"] = "exactlp-report/3"
-    assert check_report(model, rep).failure.detail == "format: expected 'exactlp-report/2', found 'exactlp-report/3'"
+    rep["format"] = "exactlp-report/4"
+    assert check_report(model, rep).failure.detail == "format: expected 'exactlp-report/3', found 'exactlp-report/4'"
     rep = ranges_report(m, ranges(m))
     rep["format"] = "exactlp-report/1"
-    assert check_report(m, rep).failure.detail == ("format: expected 'exactlp-report/2', found 'exactlp-report/1' "
+    assert check_report(m, rep).failure.detail == ("format: expected 'exactlp-report/3', found 'exactlp-report/1' "
                                                    "(a ranges report of an earlier layout: write it again)")
 
 
@@ -962,7 +964,16 @@ def _ranges_proven_the_long_way(model, rep) -> bool:
                     return False
                 continue
             point = dict(x, **{k: P(v) for k, v in proof["moved"].items()})
-            cert = optimal_certificate(probe, point, {k: P(v) for k, v in proof["duals"].items()})
+            if "face_duals" in proof:  # the duals u - w y*, w on the held row
+                if "duals" in proof:
+                    return False
+                w, ys = P(proof["held_dual"]), {k: P(v) for k, v in base["duals"].items()}
+                u = {k: P(v) for k, v in proof["face_duals"].items()}
+                duals = {k: u.get(k, F(0)) - w * ys.get(k, F(0)) for k in {*u, *ys}}
+                duals[rep["fixed_objective"]["name"]] = w
+            else:
+                duals = {k: P(v) for k, v in proof["duals"].items()}
+            cert = optimal_certificate(probe, point, duals)
             if not exactlp.verify(probe, cert).valid or value is None or P(cert["objective"]) != P(value):
                 return False
     return True
@@ -979,7 +990,12 @@ def _ranges_tampered(rep):
             continue
         for side in ("min", "max"):
             proof = e["proofs"][side]
-            for key in ("moved", "duals", "ray"):
+            if "held_dual" in proof:
+                for new in (format_number(P(proof["held_dual"]) + F(1, 3)), "0"):
+                    bad = copy.deepcopy(rep)
+                    bad["ranges"][name]["proofs"][side]["held_dual"] = new
+                    out.append(bad)
+            for key in ("moved", "duals", "face_duals", "ray"):
                 for k, val in list(proof.get(key, {}).items())[:3]:
                     for new in (format_number(P(val) + F(1, 3)), None):
                         bad = copy.deepcopy(rep)
@@ -990,7 +1006,7 @@ def _ranges_tampered(rep):
                             part[k] = new
                         out.append(bad)
             names = list(rep["certificate"]["primal"]) if "ray" in proof else list(rep["certificate"]["duals"])
-            key = "ray" if "ray" in proof else "duals"
+            key = "ray" if "ray" in proof else "face_duals" if "face_duals" in proof else "duals"
             spare = [k for k in names if k not in proof[key]]
             if spare:
                 bad = copy.deepcopy(rep)
@@ -1021,13 +1037,40 @@ def test_the_ranges_check_agrees_with_whole_certificates(text):
 
     m = model_from_text(text) if "\n" in text else exactlp.load(CASES / f"{text}.yaml")
     rep = ranges_report(m, ranges(m))
-    assert check_report(m, rep).valid and _ranges_proven_the_long_way(m, rep)
-    verdicts = []
-    for bad in _ranges_tampered(rep):
-        got = check_report(m, bad)
-        assert got.valid == _ranges_proven_the_long_way(m, bad), (got.failure, bad["ranges"])
-        verdicts.append(got.valid)
-    assert verdicts.count(False) >= len(verdicts) // 3
+    # and the same report in layout 2, each end's whole nonzero duals (as an end
+    # solved with the held row gives them): the check's other way in
+    for doc in (rep, _as_layout_2(rep)):
+        assert check_report(m, doc).valid and _ranges_proven_the_long_way(m, doc)
+        verdicts = []
+        for bad in _ranges_tampered(doc):
+            got = check_report(m, bad)
+            assert got.valid == _ranges_proven_the_long_way(m, bad), (got.failure, bad["ranges"])
+            verdicts.append(got.valid)
+        assert verdicts.count(False) >= len(verdicts) // 3
+
+
+def _as_layout_2(rep: dict) -> dict:
+    """A ranges report with every face proof (``face_duals`` u, ``held_dual`` w)
+    written as layout 2 writes an end: its nonzero duals ``u - w y*``, ``w`` on
+    the held row."""
+    import copy
+
+    from exactlp.numbers import format_number, parse_number as P
+
+    doc = copy.deepcopy(rep)
+    doc["format"] = "exactlp-report/2"
+    ys = {k: P(v) for k, v in rep["certificate"]["duals"].items()}
+    faces = 0
+    for e in doc["ranges"].values():
+        for proof in (e.get("proofs") or {}).values():
+            if "face_duals" in proof:
+                u, w = {k: P(v) for k, v in proof.pop("face_duals").items()}, P(proof.pop("held_dual"))
+                duals = {k: u.get(k, F(0)) - w * ys.get(k, F(0)) for k in [*ys, *u]}
+                duals[rep["fixed_objective"]["name"]] = w
+                proof["duals"] = {k: format_number(v) for k, v in duals.items() if v}
+                faces += 1
+    assert faces or not any(e["method"] == "solved" for e in rep["ranges"].values())
+    return doc
 
 
 @settings(max_examples=150, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
@@ -1115,7 +1158,9 @@ def test_the_ranges_check_sums_each_end_as_its_definition_does(model, data):
         want = _dual_total_by_terms(mat, y, yh, name, sp, held, "held", "end")
     except _Bad:
         want = None
-    got = shared.dual_total(y, yh, name, sp, held)
+    u = shared.face_duals(y, yh)  # u = y + y_h y*: what a face proof gives
+    assert shared.duals(u, yh) == {k: v for k, v in y.items() if v}
+    got = shared.dual_total(u, yh, name, sp, held)
     assert got == want and (got is None or type(got) is F)
 
 

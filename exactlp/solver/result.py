@@ -95,6 +95,15 @@ class ScaledMap(Mapping):
         return out
 
 
+def offsets_from(m: Mapping, base: Mapping) -> dict | None:
+    """``{k: m[k] - scale * base[k]}`` over the own entries of ``m`` when it is a
+    :class:`ScaledMap` of ``base`` (every other entry is ``scale * base[k]``);
+    None for any other map."""
+    if not isinstance(m, ScaledMap) or m._base is not base:
+        return None
+    return {k: v - m._scale * base[k] if k in base else v for k, v in m._own.items()}
+
+
 def nonzero_entries(m: Mapping) -> dict:
     """``{k: v for k, v in m.items() if v}``, faster on a :class:`ScaledMap`."""
     return m.nonzero() if isinstance(m, ScaledMap) else {k: v for k, v in m.items() if v}
