@@ -390,8 +390,8 @@ def optimal_face_model(model: Model, r) -> Model:
     return replace(model, variables=variables, constraints=constraints)
 
 
-def _face_pins(model: Model, r) -> list | None:
-    """The pinned items of :func:`optimal_face_model`: ``(is_row, name, b, side,
+def _face_pins(model: Model, r) -> dict | None:
+    """The pinned items of :func:`optimal_face_model`: ``(is_row, name) -> (b, side,
     b as mpq)`` with ``b`` the optimum's nonzero reduced cost or dual, ``side`` 1 when
     the optimum rests on the lower side only, -1 on the upper side only, 0 on
     both (a fixed column or an equality row, whose multiplier takes any sign).
@@ -402,7 +402,7 @@ def _face_pins(model: Model, r) -> list | None:
     item rests on neither side (then the held row's probes are used)."""
     from gmpy2 import mpq
 
-    out = []
+    out = {}
     signs = set()
     for is_row, items, values, mult in ((False, model.variables, r.primal, r.reduced_costs),
                                         (True, model.constraints, r.activities, r.duals)):
@@ -417,7 +417,7 @@ def _face_pins(model: Model, r) -> list | None:
             side = 0 if at_lo and at_hi else 1 if at_lo else -1
             if side:
                 signs.add(side * b > 0)
-            out.append((is_row, it.name, b, side, mpq(b.numerator, b.denominator)))
+            out[is_row, it.name] = (b, side, mpq(b.numerator, b.denominator))
     return out if len(signs) <= 1 else None
 
 
@@ -430,7 +430,7 @@ def _differing(new: Mapping, old: Mapping) -> dict:
             if (o := old[k]).numerator != v.numerator or o.denominator != v.denominator}
 
 
-def _lift_face_end(face_result, probe: Model, pins: list, r, act: dict):
+def _lift_face_end(face_result, probe: Model, pins: dict, r, act: dict):
     """A probe's result on the optimal face (:func:`optimal_face_model`) as the
     result of the same probe on the model with the held row ``c^T x = z*``
     (``probe``, whose last row that is), or None when it cannot be lifted.
@@ -480,29 +480,30 @@ def _lift_face_end(face_result, probe: Model, pins: list, r, act: dict):
     if face_result.status is not Status.OPTIMAL:
         return face_result  # a limit: nothing is proven, and the caller says so
     sp = 1 if probe.sense is Sense.MINIMIZE else -1
-    fd, fr = face_result.duals, face_result.reduced_costs
+    # the face's nonzero multipliers: only they can break a sign (a = 0 never does)
+    nonzero = tuple({name: a for name, a in face.items() if a}
+                    for face in (face_result.reduced_costs, face_result.duals))  # by is_row
     w = Fraction(0)
-    for is_row, name, b, side, _ in pins:
-        if not side:
-            continue  # (any sign)
-        a = (fd if is_row else fr)[name]
-        n = a.numerator
-        if (n < 0 if sp * side > 0 else n > 0):  # sigma a < 0: w = 0 breaks this one
-            t = a / b
-            # (w <= t, t < 0, when sigma b > 0; else w >= t, t > 0: the extreme one)
-            if (t < w) if sp * side * b > 0 else (t > w):
-                w = t
+    for is_row, got in enumerate(nonzero):
+        for name, a in got.items():
+            pin = pins.get((bool(is_row), name))
+            if pin is None or not pin[1]:
+                continue  # not pinned, or pinned with any sign
+            b, side, _ = pin
+            if (a.numerator < 0 if sp * side > 0 else a.numerator > 0):  # sigma a < 0: w = 0 breaks this one
+                t = a / b
+                # (w <= t, t < 0, when sigma b > 0; else w >= t, t > 0: the extreme one)
+                if (t < w) if sp * side * b > 0 else (t > w):
+                    w = t
     # Own entries where u (r') is nonzero: u - w b, in mpq and back to a Fraction
     # where the item is pinned (b != 0).  Elsewhere u = 0, and the entry is -w b.
     wq = mpq(w.numerator, w.denominator)
-    pinned = {(is_row, name): bq for is_row, name, _, _, bq in pins} if w else {}
     own = ({}, {})
-    for is_row, face in ((False, fr), (True, fd)):
-        got = own[is_row]
-        for name, a in face.items():
-            if a:
-                bq = pinned.get((is_row, name))
-                got[name] = a if bq is None else frac(mpq(a.numerator, a.denominator) - wq * bq)
+    for is_row, got in enumerate(nonzero):
+        mine = own[is_row]
+        for name, a in got.items():
+            pin = pins.get((bool(is_row), name)) if w else None
+            mine[name] = a if pin is None else frac(mpq(a.numerator, a.denominator) - wq * pin[2])
     own[True][held.name] = w
     return replace(face_result, duals=ScaledMap(act, own[True], r.duals, -w),
                    reduced_costs=ScaledMap(x, own[False], r.reduced_costs, -w), **common)
