@@ -264,14 +264,33 @@ def _direction(raw, names, where: str) -> dict:
     return {k: _exact(v, f"{where}.{k}") for k, v in raw.items()}
 
 
-def _lcm_of(terms) -> int | None:
-    """The least common multiple of the coefficients' denominators, or None if it
-    would be long (many different primes: a hostile model's copy must not grow)."""
-    e, cap = 1, 64 + 2 * max((a.denominator.bit_length() for _, a in terms), default=0)
-    for _, a in terms:
-        if (e := lcm(e, a.denominator)).bit_length() > cap:
+def _lcm_capped(dens) -> int | None:
+    """The least common multiple of these denominators, or None once it grows past
+    twice the longest of them (many different primes: a hostile model's copy must
+    not grow)."""
+    dens = list(dens)
+    e, cap = 1, 64 + 2 * max((d.bit_length() for d in dens), default=0)
+    for d in dens:
+        if (e := lcm(e, d)).bit_length() > cap:
             return None
     return e
+
+
+def _lcm_of(terms) -> int | None:
+    """The least common multiple of the coefficients' denominators, or None if it
+    would be long."""
+    return _lcm_capped(a.denominator for _, a in terms)
+
+
+def _whole(vals: dict) -> tuple[dict, int]:
+    """``({k: v L}, L)``, ``L`` the values' least common denominator, as
+    :func:`_over_common` finds it, the entries as Python integers; where ``L``
+    would be long, the values as they are over ``L = 1``.  Either way each value
+    is ``entry / L``, and the sums and comparisons that read them are the same."""
+    vs, big = _over_common(vals)
+    if big != 1 or all(v.denominator == 1 for v in vs.values()):
+        return {k: v.numerator for k, v in vs.items()}, big
+    return vs, 1
 
 
 def _scaled(terms, scale: dict) -> list:
@@ -285,16 +304,31 @@ def _times(vec: dict, lines: dict, scale: dict) -> dict:
     (``lines`` from :func:`_scaled`).  Summed over the common denominator ``L`` of
     ``vec`` as the verifier sums: ``L vec`` is whole, so every product is of
     integers, and each entry is divided once, by ``L scale[o]``."""
-    vs, big = _over_common(vec)
-    whole = big != 1 or all(vk.denominator == 1 for vk in vs.values())
+    acc, big = _accumulate(vec, lines)
+    return {o: Fraction(t) / (big * (scale[o] or 1)) for o, t in acc.items()}
+
+
+def _accumulate(vec: dict, lines: dict) -> tuple[dict, int]:
+    """:func:`_times` before its division: ``({o: sum_k (L vec_k) line_k[o]}, L)``."""
+    vs, big = _whole(vec)
     acc: dict = {}
     for k, vk in vs.items():
         if vk:
-            if whole:
-                vk = vk.numerator
             for o, a in lines[k]:
                 acc[o] = acc.get(o, 0) + vk * a
-    return {o: Fraction(t) / (big * (scale[o] or 1)) for o, t in acc.items()}
+    return acc, big
+
+
+def _times_whole(vec: dict, lines: dict, scale: dict) -> tuple[dict, int]:
+    """:func:`_times` as ``({o: N_o}, E)``, each entry ``N_o / E`` over one
+    denominator ``E``: ``L`` times the least common multiple ``C`` of the entries'
+    scales, each ``N_o`` its sum times ``C / scale[o]``.  Where ``C`` would be long,
+    the entries as :func:`_times` gives them, over ``E = 1``."""
+    acc, big = _accumulate(vec, lines)
+    common = _lcm_capped(scale[o] or 1 for o in acc)
+    if common is None:
+        return {o: Fraction(t) / (big * (scale[o] or 1)) for o, t in acc.items()}, 1
+    return {o: t * (common // (scale[o] or 1)) for o, t in acc.items()}, big * common
 
 
 class _Matrix:
@@ -322,6 +356,14 @@ class _Matrix:
     def t_times(self, w: dict) -> dict:
         """``A^T w`` by variable (the columns ``w`` touches)."""
         return _times(w, *self._by_rows)
+
+    def times_whole(self, v: dict) -> tuple[dict, int]:
+        """``A v`` over one denominator (:func:`_times_whole`)."""
+        return _times_whole(v, *self._by_cols)
+
+    def t_times_whole(self, w: dict) -> tuple[dict, int]:
+        """``A^T w`` over one denominator (:func:`_times_whole`)."""
+        return _times_whole(w, *self._by_rows)
 
 
 def _term(val: Fraction, lo, hi, s: int, what: str) -> Fraction:
@@ -450,11 +492,9 @@ def _dot(pairs: list) -> Fraction:
     product of integers a term, and one reduction (the terms of a dual objective
     share the basis's denominators; a sum of Fractions reduces at every step).
     As Fractions if the common denominator grows past twice the longest."""
-    dens = {a.denominator * b.denominator for a, b in pairs}
-    common, cap = 1, 64 + 2 * max((d.bit_length() for d in dens), default=0)
-    for d in dens:
-        if (common := lcm(common, d)).bit_length() > cap:
-            return sum((a * b for a, b in pairs), Fraction(0))
+    common = _lcm_capped({a.denominator * b.denominator for a, b in pairs})
+    if common is None:
+        return sum((a * b for a, b in pairs), Fraction(0))
     return Fraction(sum(a.numerator * b.numerator * (common // (a.denominator * b.denominator)) for a, b in pairs),
                     common)
 
@@ -549,6 +589,40 @@ def _probe_end(mat: _Matrix, shared: _Held, x: dict, held: Fraction, held_name: 
         raise _Bad(f"{where}: the proof gives {fmt(got)}, the report {fmt(value)}")
 
 
+class _Sides:
+    """The model's finite sides (of rows and of bounds) as whole numbers over one
+    denominator ``S``, their least common one (``S = 1`` and the sides as they
+    are, where that would be long).  A value ``N / E`` (``E > 0``) lies below a
+    side ``B / S`` exactly when ``N S < B E``, and its dual-objective term
+    ``(N / E) (B / S)`` is ``N B / (E S)``: the terms of one range end that
+    share ``E`` sum in integers, with one division at the end, where a sum of
+    Fractions pays a gcd a step."""
+
+    def __init__(self, mat: _Matrix) -> None:
+        both = [*mat.rows.values(), *mat.variables.values()]
+        common = _lcm_capped(b.denominator for c in both for b in (c.lower, c.upper) if b is not None)
+        self.S = common or 1
+
+        def over(b):
+            return None if b is None else b if common is None else b.numerator * (common // b.denominator)
+        self.row = {r: (over(c.lower), over(c.upper)) for r, c in mat.rows.items()}
+        self.col = {n: (over(v.lower), over(v.upper)) for n, v in mat.variables.items()}
+
+    def rest(self, num, den: int, side: tuple, s: int, what: str):
+        """The side (over ``S``) that the nonzero multiplier ``num / den`` rests on,
+        as :func:`_rest` chooses it; an infinite one refused as it refuses it."""
+        got = side[0] if (num > 0) == (s > 0) else side[1]
+        if got is None:
+            _rest(Fraction(num, den), None, None, s, what)
+        return got
+
+    @staticmethod
+    def outside(num, den: int, side: tuple, scale: int) -> bool:
+        """Is ``num / den`` outside ``[lower, upper]`` (``side``, over ``scale``)?"""
+        lo, hi = side
+        return (lo is not None and num * scale < lo * den) or (hi is not None and num * scale > hi * den)
+
+
 def _sensitivity(model: Model, rep: dict, checks: list) -> str:
     """Each range end re-proven from the verified optimum and the range's direction.
 
@@ -562,6 +636,14 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
     multipliers and the sides are the verified ones, so they still hold.  With
     the variant's gap recomputed from the changed terms, that is the verifier's
     proof of optimality for each variant, at the cost of the direction's entries.
+
+    The arithmetic is in integers: ``x``, ``y``, ``d``, the activities, each
+    direction and its product with ``A`` are whole numbers over one denominator
+    each (:func:`_whole`, :meth:`_Matrix.t_times_whole`), and the sides over
+    ``S`` (:class:`_Sides`).  A moved entry ``p + t q`` with ``p = P / Dp``,
+    ``q = Q / Dq`` and ``t = tn / td`` is ``(P td Dq + tn Q Dp) / (Dp td Dq)``:
+    one denominator for every entry of an end, so its sign, its comparisons and
+    its terms need no gcd.
     """
     base = _part(rep, "certificate", dict)
     if _cert(model, base, "the optimum", checks).status != "optimal":
@@ -577,9 +659,14 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
     s = 1 if model.sense is Sense.MINIMIZE else -1
     mat = _Matrix(model)
     rows, variables = mat.rows, mat.variables
-    row_term = {r: _term(y[r], c.lower, c.upper, s, "") for r, c in rows.items()}
-    var_term = {n: _term(d[n], v.lower, v.upper, s, "") for n, v in variables.items()}
-    dual_total = model.objective_constant + sum(row_term.values(), Fraction(0)) + sum(var_term.values(), Fraction(0))
+    sides = _Sides(mat)
+    S = sides.S
+    (X, Dx), (AX, Da), (Y, Dy), (DC, Dd) = _whole(x), _whole(act), _whole(y), _whole(d)
+    # the verified terms y_r side_r (over Dy S) and d_n side_n (over Dd S)
+    row_old = {r: Y[r] and Y[r] * sides.rest(Y[r], Dy, sides.row[r], s, "") for r in rows}
+    col_old = {n: DC[n] and DC[n] * sides.rest(DC[n], Dd, sides.col[n], s, "") for n in variables}
+    dual_total = (model.objective_constant + Fraction(sum(row_old.values()), Dy * S)
+                  + Fraction(sum(col_old.values()), Dd * S))
     cost = dict(model.objective)
 
     for name, e in _part(rep, "objective_ranges", dict).items():
@@ -591,45 +678,44 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
         if (lo is not None and lo > cj) or (hi is not None and hi < cj):
             raise _Bad(f"{where}: the range does not contain the coefficient {fmt(cj)}")
         w = _direction(e.get("dual_direction"), rows, f"{where}.dual_direction")
-        u = mat.t_times(w)  # A^T w: what the reduced costs lose per unit of t
+        (W, Dw), (U, Du) = _whole(w), mat.t_times_whole(w)  # U / Du = A^T w
+        cols = [*U, *([] if name in U else [name])]  # (in a fixed order: the first fault named)
         for side, end, sign in (("lower", lo, -1), ("upper", hi, 1)):
             at = f"{where}.{side}"
             if end is not None:
                 # c_name = end: the allocation x with duals y + t w, t = end - c_name,
-                # so d_k - t (A^T w)_k, and d_name + t; primal objective z + t x_name
+                # so d_k - t (A^T w)_k, and d_name + t; primal objective z + t x_name.
+                # The changed terms in, the verified ones they replace out.
                 t = end - cj
                 if not t:
                     continue
-                # the changed terms in, the verified ones they replace out (summed
-                # over common denominators: :func:`_dot`)
-                terms, old = [], []
-                for r, wr in w.items():
+                tn, td = t.numerator, t.denominator
+                er, ec = Dy * td * Dw, Dd * td * Du  # the denominators of y + t w and d - t A^T w
+                new_r = old_r = new_c = old_c = 0
+                for r, wr in W.items():
                     if wr:
-                        c = rows[r]
-                        if yr := y[r] + t * wr:
-                            terms.append((yr, _rest(yr, c.lower, c.upper, s, f"{at}: dual of constraint '{r}'")))
-                        old.append(row_term[r])
-                for k in [*u, *([] if name in u else [name])]:  # (in a fixed order: the first fault named)
-                    v = variables[k]
-                    if dk := d[k] - t * u.get(k, 0) + (t if k == name else 0):
-                        terms.append((dk, _rest(dk, v.lower, v.upper, s, f"{at}: reduced cost of '{k}'")))
-                    old.append(var_term[k])
-                total = dual_total + _dot(terms) - _fsum(old)
+                        if nr := Y[r] * td * Dw + tn * wr * Dy:
+                            new_r += nr * sides.rest(nr, er, sides.row[r], s, f"{at}: dual of constraint '{r}'")
+                        old_r += row_old[r]
+                for k in cols:
+                    nk = DC[k] * td * Du - tn * U.get(k, 0) * Dd + (tn * Dd * Du if k == name else 0)
+                    if nk:
+                        new_c += nk * sides.rest(nk, ec, sides.col[k], s, f"{at}: reduced cost of '{k}'")
+                    old_c += col_old[k]
+                total = (dual_total + Fraction(new_r, er * S) + Fraction(new_c, ec * S)
+                         - Fraction(old_r, Dy * S) - Fraction(old_c, Dd * S))
                 primal = z + t * x[name]
             else:
                 # the objective sign * x_name alone (no constant): duals sign * w,
                 # reduced costs sign * (e_name - A^T w), every other one zero
-                terms = []
-                for r, wr in w.items():
-                    c = rows[r]
-                    if wr:
-                        terms.append((sign * wr, _rest(sign * wr, c.lower, c.upper, s,
-                                                       f"{at}: dual of constraint '{r}'")))
-                for k in [*u, *([] if name in u else [name])]:  # (in a fixed order: the first fault named)
-                    v = variables[k]
-                    if dk := sign * ((1 if k == name else 0) - u.get(k, 0)):
-                        terms.append((dk, _rest(dk, v.lower, v.upper, s, f"{at}: reduced cost of '{k}'")))
-                total = _dot(terms)
+                new_r = new_c = 0
+                for r, wr in W.items():
+                    if nr := sign * wr:
+                        new_r += nr * sides.rest(nr, Dw, sides.row[r], s, f"{at}: dual of constraint '{r}'")
+                for k in cols:
+                    if nk := sign * ((Du if k == name else 0) - U.get(k, 0)):
+                        new_c += nk * sides.rest(nk, Du, sides.col[k], s, f"{at}: reduced cost of '{k}'")
+                total = Fraction(new_r, Dw * S) + Fraction(new_c, Du * S)
                 primal = sign * x[name]
             if total != primal:
                 raise _Bad(f"{at}: the duals along the direction leave a gap ({fmt(primal)} against "
@@ -651,21 +737,22 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
             raise _Bad(f"{where}: the range does not contain the limit {fmt(value)}")
         raw = e.get("allocation_direction")
         v = None if raw is None else _direction(raw, variables, f"{where}.allocation_direction")
-        av = mat.times(v or {})  # A v by row: what the activities gain per unit of t
-        cv = sum((cost.get(n, 0) * vn for n, vn in (v or {}).items()), Fraction(0))
+        V, Dv = _whole(v or {})
+        AV, Dav = mat.times_whole(v or {})  # A v by row: what the activities gain per unit of t
+        cv = _dot([(cost.get(n, Fraction(0)), vn) for n, vn in (v or {}).items()])
         for side, end, sign in (("lower", lo, -1), ("upper", hi, 1)):
             at = f"{where}.{side}"
             if end is None and v is not None:
                 # the limit moves without end and the allocation follows it along
                 # sign * v: no bound or other row in the way, the row itself moving
                 # at the limit's rate, the objective at the dual's
-                for n, vn in v.items():
+                for n, vn in V.items():
                     wn = sign * vn
                     if (wn > 0 and variables[n].upper is not None) or (wn < 0 and variables[n].lower is not None):
                         raise _Bad(f"{at}: the direction runs into a bound of '{n}'")
-                if sign * av.get(name, 0) != sign:
+                if AV.get(name, 0) != Dav:
                     raise _Bad(f"{at}: the direction does not follow the limit")
-                for r, ar in av.items():
+                for r, ar in AV.items():
                     a, c = sign * ar, rows[r]
                     if r != name and ((a > 0 and c.upper is not None) or (a < 0 and c.lower is not None)):
                         raise _Bad(f"{at}: the direction leaves constraint '{r}'")
@@ -677,17 +764,21 @@ def _sensitivity(model: Model, rep: dict, checks: list) -> str:
             t = Fraction(0) if end is None or v is None else end - value
             new_lo = end if which in ("lower", "equals") else con.lower
             new_hi = end if which in ("upper", "equals") else con.upper
+            tn, td = t.numerator, t.denominator
+            ex, ea = Dx * td * Dv, Da * td * Dav  # the denominators of x + t v and A x + t A v
             if t:
-                for n, vn in v.items():
-                    xn, var = x[n] + t * vn, variables[n]
-                    if (var.lower is not None and xn < var.lower) or (var.upper is not None and xn > var.upper):
-                        raise _Bad(f"{at}: the moved allocation breaks the bounds of '{n}' ({fmt(xn)})")
-            for r in [*(av if t else ()), *([] if t and name in av else [name])]:  # (a fixed order, as above)
-                ar, c = act[r] + t * av.get(r, 0), rows[r]
-                rlo, rhi = (new_lo, new_hi) if r == name else (c.lower, c.upper)
-                if (rlo is not None and ar < rlo) or (rhi is not None and ar > rhi):
-                    raise _Bad(f"{at}: the moved allocation breaks constraint '{r}' ({fmt(ar)})")
-            total = dual_total - row_term[name] + _term(y[name], new_lo, new_hi, s, f"{at}: dual of constraint '{name}'")
+                for n, vn in V.items():
+                    if sides.outside(xn := X[n] * td * Dv + tn * vn * Dx, ex, sides.col[n], S):
+                        raise _Bad(f"{at}: the moved allocation breaks the bounds of '{n}' ({fmt(Fraction(xn, ex))})")
+            for r in [*(AV if t else ()), *([] if t and name in AV else [name])]:  # (a fixed order, as above)
+                if r == name:  # the moved row, against its moved side
+                    ar = act[r] + t * Fraction(AV.get(r, 0), Dav)
+                    if (new_lo is not None and ar < new_lo) or (new_hi is not None and ar > new_hi):
+                        raise _Bad(f"{at}: the moved allocation breaks constraint '{r}' ({fmt(ar)})")
+                elif sides.outside(nr := AX[r] * td * Dav + tn * AV[r] * Da, ea, sides.row[r], S):
+                    raise _Bad(f"{at}: the moved allocation breaks constraint '{r}' ({fmt(Fraction(nr, ea))})")
+            total = (dual_total - Fraction(row_old[name], Dy * S)
+                     + _term(y[name], new_lo, new_hi, s, f"{at}: dual of constraint '{name}'"))
             primal = z + t * cv
             if total != primal:
                 raise _Bad(f"{at}: the duals leave a gap ({fmt(primal)} against {fmt(total)}) with the limit there")

@@ -670,6 +670,61 @@ def test_the_report_check_agrees_with_whole_certificates_for_every_end(case):
     assert verdicts.count(False) > len(verdicts) // 3
 
 
+def _refusals(model, reports) -> list:
+    from exactlp.report_check import check_report
+
+    return [None if (v := check_report(model, r)).valid else v.failure.detail for r in reports]
+
+
+@pytest.mark.parametrize("case", SENSITIVITY_CASES)
+def test_the_sensitivity_check_says_the_same_with_its_numbers_as_fractions(case, monkeypatch):
+    # The check takes each end's entries as whole numbers over one denominator
+    # (report_check._whole, _times_whole, _Sides); where that denominator would
+    # be long (many different primes) it keeps them as Fractions over 1, and
+    # every sum and comparison reads the same.  That second way, forced here for
+    # every vector, side and coefficient, must pass and refuse the same reports
+    # in the same words.
+    import exactlp.report_check as rc
+    from exactlp.reports import sensitivity_report
+
+    m = exactlp.load(CASES / f"{case}.yaml")
+    rep = sensitivity_report(m, sensitivity(m))
+    reports = [rep, *_tampered(rep)]
+    whole = _refusals(m, reports)
+    assert whole[0] is None and whole.count(None) < len(whole) * 2 // 3
+    monkeypatch.setattr(rc, "_lcm_capped", lambda dens: None)
+    monkeypatch.setattr(rc, "_whole", lambda vals: (vals, 1))
+    assert rc._Sides(rc._Matrix(m)).S == 1 and rc._times_whole({"r": F(1, 3)}, {"r": [("a", F(1, 2))]},
+                                                                  {"a": None}) == ({"a": F(1, 6)}, 1)
+    assert _refusals(m, reports) == whole
+
+
+def test_a_model_whose_sides_share_no_short_denominator_is_checked_as_fractions():
+    # 40 bounds over 40 different primes: their least common denominator has
+    # about 250 bits against a cap of 64 + 2 * 8, so the sides stay Fractions
+    # (S = 1); the report still checks, and a moved end is still refused
+    import copy
+
+    import exactlp.report_check as rc
+    from exactlp.reports import sensitivity_report
+
+    primes = [p for p in range(2, 200) if all(p % q for q in range(2, p))][:40]
+    text = ("maximize: " + " + ".join(f"{k + 1} x{k}" for k in range(40)) + "\nvariables:\n"
+            + "".join(f"  x{k}: {{lower: 0, upper: 1/{p}}}\n" for k, p in enumerate(primes))
+            + "constraints:\n  total: " + " + ".join(f"x{k}" for k in range(40)) + " <= 1/5\n")
+    m = model_from_text(text)
+    assert rc._Sides(rc._Matrix(m)).S == 1
+    rep = sensitivity_report(m, sensitivity(m))
+    assert _refusals(m, [rep]) == [None]
+    bad = copy.deepcopy(rep)
+    bad["rhs_ranges"]["total"]["upper"] = "100"
+    # the total of 1/5 raised to 100 moves x18 (its direction) by 100 - 1/5, past its 1/67
+    assert rep["rhs_ranges"]["total"]["allocation_direction"] == {"x18": "1"} and primes[18] == 67
+    moved = parse_number(rep["certificate"]["primal"]["x18"]) + 100 - F(1, 5)
+    assert _refusals(m, [bad]) == [f"rhs_ranges.total.upper: the moved allocation breaks the bounds of 'x18' "
+                                   f"({moved.numerator}/{moved.denominator})"]
+
+
 def test_the_report_check_names_what_is_wrong_with_a_direction():
     import copy
 
