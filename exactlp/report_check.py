@@ -37,7 +37,7 @@ from math import lcm
 
 from .model import Model, Sense
 from .numbers import format_number as fmt, parse_number
-from .verifier import _LIMITS, Check, Verification, _over_common, verify
+from .verifier import _LIMITS, Check, Verification, verify
 
 
 class _Bad(Exception):
@@ -283,14 +283,14 @@ def _lcm_of(terms) -> int | None:
 
 
 def _whole(vals: dict) -> tuple[dict, int]:
-    """``({k: v L}, L)``, ``L`` the values' least common denominator, as
-    :func:`_over_common` finds it, the entries as Python integers; where ``L``
-    would be long, the values as they are over ``L = 1``.  Either way each value
-    is ``entry / L``, and the sums and comparisons that read them are the same."""
-    vs, big = _over_common(vals)
-    if big != 1 or all(v.denominator == 1 for v in vs.values()):
-        return {k: v.numerator for k, v in vs.items()}, big
-    return vs, 1
+    """``({k: v L}, L)``, ``L`` the values' least common denominator, the entries
+    as Python integers (as the verifier's :func:`_over_common` scales them); where
+    ``L`` would be long, the values as they are over ``L = 1``.  Either way each
+    value is ``entry / L``, and the sums and comparisons that read them are the same."""
+    big = _lcm_capped(v.denominator for v in vals.values())
+    if big is None:
+        return vals, 1
+    return {k: v.numerator * (big // v.denominator) for k, v in vals.items()}, big
 
 
 def _scaled(terms, scale: dict) -> list:
