@@ -565,6 +565,35 @@ def _write_report(model_path: str, m, doc: dict, output: str, say=lambda text: N
                  protect=(model_path,))
 
 
+def _check_option():
+    return typer.Option(True, "--check/--no-check",
+                        help="Re-derive every claim with the independent report check before printing it "
+                             "(always done with -o).")
+
+
+def _proven(model_path: str, m, build, output: str | None, check: bool, say) -> str:
+    """The proofs of an analysis: with ``-o``, the report checked and written;
+    else, unless ``--no-check``, the same report built and checked in memory.
+    Returns how the claims stand, for the screen's check line (render.CHECK_WORDS)."""
+    from .errors import LimitError
+    from .report_check import check_report
+
+    if output is not None:
+        _write_report(model_path, m, build(), output, say)
+        return "checked"
+    if not check:
+        return "skipped"
+    try:
+        doc = build()
+    except LimitError:  # (too many numbers to hold: the claims stand unchecked, and the screen says so)
+        return "too large"
+    say("checking every claim as a reviewer would")
+    v = check_report(m, doc)
+    if not v.valid:  # our own proofs fail their check: a bug, never printed as a result
+        raise RuntimeError(f"the report failed its check: {v.failure.detail}")
+    return "checked"
+
+
 def _interval(iv) -> dict:
     from .numbers import format_number
 
@@ -577,6 +606,7 @@ def sensitivity(
     model: str = typer.Argument(..., metavar="MODEL", help="Model file (.yaml, .mps or .mps.gz)."),
     output: Optional[str] = typer.Option(None, "-o", "--output", metavar="REPORT", help="Write a report with the proof of every claim."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
+    check: bool = _check_option(),
     rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
@@ -593,14 +623,14 @@ def sensitivity(
         with _progress(as_json) as say:
             say("sensitivity: solving the model")
             s = run_sensitivity(m, progress=say)
-            if output is not None:
-                from .reports import sensitivity_report
+            from .reports import sensitivity_report
 
-                say("sensitivity: the report, each range with its direction")
-                _write_report(model, m, sensitivity_report(m, s), output, say)
+            say("sensitivity: the proofs, each range with its direction")
+            checked = _proven(model, m, lambda: sensitivity_report(m, s), output, check, say)
         if as_json:
             doc = {
                 "model": {"name": m.name, "fingerprint": m.fingerprint},
+                "check": checked,
                 "objective": format_number(s.result.objective),
                 "objective_ranges": {k: _interval(v) for k, v in s.objective_ranges.items()},
                 "rhs_ranges": {k: dict(_interval(v.interval), dual=format_number(v.dual), bound=v.bound,
@@ -610,7 +640,7 @@ def sensitivity(
         else:
             from .render import sensitivity_report
 
-            sensitivity_report(_console(), m, s, rows)
+            sensitivity_report(_console(), m, s, rows, checked)
 
 
 @app.command("ranges")
@@ -619,6 +649,7 @@ def ranges_(
     variables: Optional[list[str]] = typer.Argument(None, metavar="VAR", help="Variables to range (default: all)."),
     output: Optional[str] = typer.Option(None, "-o", "--output", metavar="REPORT", help="Write a report with a certificate for every claim."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
+    check: bool = _check_option(),
     rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
@@ -635,13 +666,13 @@ def ranges_(
         with _progress(as_json) as say:
             say("ranges: solving the model")
             rg = run_ranges(m, variables or None, progress=say)
-            if output is not None:
-                from .reports import ranges_report
+            from .reports import ranges_report
 
-                _write_report(model, m, ranges_report(m, rg), output, say)
+            checked = _proven(model, m, lambda: ranges_report(m, rg), output, check, say)
         if as_json:
             doc = {
                 "model": {"name": m.name, "fingerprint": m.fingerprint},
+                "check": checked,
                 "objective": format_number(rg.result.objective),
                 "unique": rg.unique,
                 "proof": rg.proof,
@@ -653,7 +684,7 @@ def ranges_(
         else:
             from .render import ranges_report
 
-            ranges_report(_console(), m, rg, rows)
+            ranges_report(_console(), m, rg, rows, checked)
 
 
 @app.command()
@@ -661,6 +692,7 @@ def conflict(
     model: str = typer.Argument(..., metavar="MODEL", help="An infeasible model file."),
     output: Optional[str] = typer.Option(None, "-o", "--output", metavar="REPORT", help="Write a report with a certificate for every claim."),
     as_json: bool = typer.Option(False, "--json", help="Print one JSON document on stdout."),
+    check: bool = _check_option(),
     rows: int = _rows_option(),
     debug: bool = typer.Option(False, "--debug", help="Show tracebacks of internal errors."),
 ) -> None:
@@ -677,13 +709,13 @@ def conflict(
         with _progress(as_json) as say:
             say("conflict: solving the model")
             c = run_conflict(m, progress=say)
-            if output is not None:
-                from .reports import conflict_report
+            from .reports import conflict_report
 
-                _write_report(model, m, conflict_report(m, c), output, say)
+            checked = _proven(model, m, lambda: conflict_report(m, c), output, check, say)
         if as_json:
             doc = {
                 "model": {"name": m.name, "fingerprint": m.fingerprint},
+                "check": checked,
                 "constraints": list(c.constraints),
                 "bounds": list(c.bounds),
                 "multipliers": {k: format_number(v) for k, v in c.result.farkas_rows.items()},
@@ -694,7 +726,7 @@ def conflict(
         else:
             from .render import conflict_report
 
-            conflict_report(_console(), m, c, rows)
+            conflict_report(_console(), m, c, rows, checked)
 
 
 def main() -> None:  # console script entry

@@ -165,6 +165,21 @@ def caution(console: Console) -> None:
     console.print(Text(CAUTION), soft_wrap=True)
 
 
+#: how an analysis's claims stand, as the command line found them (cli._proven)
+CHECK_WORDS = {
+    "checked": "every claim was re-derived from the model by the independent report check, the one "
+               "`exactlp verify` runs on a report written with -o.",
+    "skipped": "skipped (--no-check); the claims are exact but were not re-derived by the independent report check.",
+    "too large": "not done, as the proofs would be past the report limits; the claims are exact but were not "
+                 "re-derived by the independent report check.",
+}
+
+
+def check_line(console: Console, checked: str | None) -> None:
+    if checked is not None:
+        console.print(Text(f"Check: {CHECK_WORDS[checked]}"), soft_wrap=True)
+
+
 def solve_report(console: Console, model: Model, result, *, digits: int, certificate: str | None,
                  verified: bool | None, log: str | None, cert: dict | None = None,
                  rows: int | None = ROWS, warm_note: str | None = None) -> None:
@@ -422,7 +437,7 @@ def _iv(iv) -> str:
     return f"[{lo(iv.lower)}, {hi(iv.upper)}]"
 
 
-def sensitivity_report(console: Console, model: Model, s, rows: int | None = ROWS) -> None:
+def sensitivity_report(console: Console, model: Model, s, rows: int | None = ROWS, checked: str | None = None) -> None:
     console.print(Text(f"Sensitivity of the optimum of {model_title(model)} (objective {format_number(s.result.objective)})"),
                   soft_wrap=True)
     t = Table(title="Objective coefficient ranges", box=BOX,
@@ -449,10 +464,11 @@ def sensitivity_report(console: Console, model: Model, s, rows: int | None = ROW
         console.print(Text(f"Raising the {name} limit by 1 {verb} the objective by {format_number(abs(rr.dual))}, "
                            f"valid while the limit stays within {_iv(rr.interval)}."), soft_wrap=True)
     _more(console, left, "such sentences", "--json and -o hold every dual")
+    check_line(console, checked)
     caution(console)
 
 
-def ranges_report(console: Console, model: Model, rg, rows: int | None = ROWS) -> None:
+def ranges_report(console: Console, model: Model, rg, rows: int | None = ROWS, checked: str | None = None) -> None:
     verdict = "unique" if rg.unique else "not unique"
     console.print(Text(f"The optimal allocation of {model_title(model)} (objective "
                        f"{format_number(rg.result.objective)}) is {verdict}: {rg.proof}."), soft_wrap=True)
@@ -464,10 +480,11 @@ def ranges_report(console: Console, model: Model, rg, rows: int | None = ROWS) -
         add_row(t, name, lo(v.minimum), hi(v.maximum), v.method)
     console.print(t)
     _more(console, left, "variables", "--json and -o hold every range")
+    check_line(console, checked)
     caution(console)
 
 
-def conflict_report(console: Console, model: Model, c, rows: int | None = ROWS) -> None:
+def conflict_report(console: Console, model: Model, c, rows: int | None = ROWS, checked: str | None = None) -> None:
     n_items = len(c.constraints) + len(c.bounds)
     console.print(Text(f"These {n_items} rules cannot all hold together; dropping any one of them makes the rest "
                        f"feasible (checked by {c.solves} exact solves):"), soft_wrap=True)
@@ -486,4 +503,5 @@ def conflict_report(console: Console, model: Model, c, rows: int | None = ROWS) 
                     f"{lo(v.lower)} <= {name} <= {hi(v.upper)}")
     console.print(t)
     _more(console, left, "rules", "--json and -o hold every multiplier")
+    check_line(console, checked)
     caution(console)

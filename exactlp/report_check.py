@@ -374,6 +374,40 @@ def _term(val: Fraction, lo, hi, s: int, what: str) -> Fraction:
     return val * _rest(val, lo, hi, s, what)
 
 
+class _Sides:
+    """The model's finite sides (of rows and of bounds) as whole numbers over one
+    denominator ``S``, their least common one (``S = 1`` and the sides as they
+    are, where that would be long).  A value ``N / E`` (``E > 0``) lies below a
+    side ``B / S`` exactly when ``N S < B E``, and its dual-objective term
+    ``(N / E) (B / S)`` is ``N B / (E S)``: the terms of one range end that
+    share ``E`` sum in integers, with one division at the end, where a sum of
+    Fractions pays a gcd a step."""
+
+    def __init__(self, mat: _Matrix) -> None:
+        both = [*mat.rows.values(), *mat.variables.values()]
+        common = _lcm_capped(b.denominator for c in both for b in (c.lower, c.upper) if b is not None)
+        self.S = common or 1
+
+        def over(b):
+            return None if b is None else b if common is None else b.numerator * (common // b.denominator)
+        self.row = {r: (over(c.lower), over(c.upper)) for r, c in mat.rows.items()}
+        self.col = {n: (over(v.lower), over(v.upper)) for n, v in mat.variables.items()}
+
+    def rest(self, num, den: int, side: tuple, s: int, what: str):
+        """The side (over ``S``) that the nonzero multiplier ``num / den`` rests on,
+        as :func:`_rest` chooses it; an infinite one refused as it refuses it."""
+        got = side[0] if (num > 0) == (s > 0) else side[1]
+        if got is None:
+            _rest(Fraction(num, den), None, None, s, what)
+        return got
+
+    @staticmethod
+    def outside(num, den: int, side: tuple, scale: int) -> bool:
+        """Is ``num / den`` outside ``[lower, upper]`` (``side``, over ``scale``)?"""
+        lo, hi = side
+        return (lo is not None and num * scale < lo * den) or (hi is not None and num * scale > hi * den)
+
+
 class _Held:
     """What the ends of solved ranges share: the held row ``c^T x = z*``, and the
     verified optimum's activities ``A x*``, duals ``y*`` and reduced costs
@@ -410,6 +444,15 @@ class _Held:
                 self.sides[q, kind] = (side, total)
             self.open_cols[q] = {n for n, s in self.sides[q, "col"][0].items() if s is None}
             self.open_rows[q] = {r for r, s in self.sides[q, "row"][0].items() if s is None}
+        # the same in integers, for dual_total: y* over Dy and d* over Dd, the
+        # sides over S, and each shared term y*_r side_r (d*_n side_n) over Dy S (Dd S)
+        self.over = over = _Sides(mat)
+        (self.Y, self.Dy), (self.D, self.Dd) = _whole(self.ystar), _whole(self.dstar)
+        self.parts: dict = {}
+        for q in (1, -1):
+            for kind, whole, table in (("row", self.Y, over.row), ("col", self.D, over.col)):
+                self.parts[q, kind] = {k: v * b for k, v in whole.items()
+                                       if (b := table[k][0 if (v > 0) == (q > 0) else 1]) is not None}
 
     def face_duals(self, y: dict, yh: Fraction) -> dict:
         """``u = y + y_h y*``, its nonzero entries."""
@@ -432,39 +475,45 @@ class _Held:
         """The dual objective of the end with duals ``u - y_h y*`` and ``y_h`` on the
         held row (``u``: nonzero entries only), summed as above, or None if some
         term fails (a multiplier on an infinite side): the caller then sums term
-        by term.  The terms are gathered as (multiplier, side) and summed by
-        :func:`_dot`."""
-        rows, variables = self.mat.rows, self.mat.variables
-        plus: list = []  # terms taken one by one
-        minus: list = []  # the same entries' parts of the shared sums, to take out
+        by term.
+
+        In integers, as the sensitivity check sums (:class:`_Sides`): with
+        ``u = U / Du``, ``A^T u = G / Dg``, ``y* = Y / Dy``, ``d* = D / Dd`` and
+        ``y_h = hn / hd``, an end's dual is ``(U hd Dy - hn Y Du) / (Du hd Dy)`` and
+        its reduced cost ``((e_name Dg - G) hd Dd - hn D Dg) / (Dg hd Dd)``: one
+        denominator for each kind of term, and one division for each sum."""
+        over, S = self.over, self.over.S
+        hn, hd = yh.numerator, yh.denominator
+        (U, Du), (G, Dg) = _whole(u), self.mat.t_times_whole(u)
+        Y, Dy, D, Dd = self.Y, self.Dy, self.D, self.Dd
+        er, ec = Du * hd * Dy, Dg * hd * Dd
+        rows_in = cols_in = rows_out = cols_out = 0  # the terms taken one by one; the shared parts to take out
         try:
             if yh:
-                plus.append((yh, _rest(yh, held, held, sp)))
                 q = sp if yh < 0 else -sp
-                side = self.sides[q, "row"][0]
                 if not self.open_rows[q] <= u.keys():
                     return None  # a row with u_r = 0 whose -y_h y*_r needs an infinite side
-            for r, ur in u.items():
-                yr = ur - yh * self.ystar[r] if yh and r in self.ystar else ur
-                if yr:
-                    plus.append((yr, _rest(yr, rows[r].lower, rows[r].upper, sp)))
-                if yh and r in side and side[r] is not None:
-                    minus.append((self.ystar[r], side[r]))
-            au = self.mat.t_times(u)
-            touched = set(au) | {name}
-            for n in touched:
-                if dn := (n == name) - au.get(n, 0) - yh * self.dstar.get(n, 0):
-                    plus.append((dn, _rest(dn, variables[n].lower, variables[n].upper, sp)))
+                part = self.parts[q, "row"]
+            for r, ur in U.items():
+                if nr := ur * hd * Dy - hn * Y.get(r, 0) * Du:
+                    rows_in += nr * over.rest(nr, er, over.row[r], sp, "")
+                if yh and r in part:
+                    rows_out += part[r]
+            touched = set(G) | {name}
+            for n in touched:  # (an exact sum: the order of a set does not change it)
+                if nc := ((Dg if n == name else 0) - G.get(n, 0)) * hd * Dd - hn * D.get(n, 0) * Dg:
+                    cols_in += nc * over.rest(nc, ec, over.col[n], sp, "")
         except _Bad:
             return None
-        total = _dot(plus)
+        total = yh * held + Fraction(rows_in, er * S) + Fraction(cols_in, ec * S)
         if yh:
-            side = self.sides[q, "col"][0]
             if not self.open_cols[q] <= touched:
                 return None
-            minus += [(self.dstar[n], side[n]) for n in touched if side.get(n) is not None]
+            part = self.parts[q, "col"]
+            cols_out = sum(part[n] for n in touched if n in part)
             # -y_h (row sum + column sum - the entries summed one by one)
-            total += yh * (_dot(minus) - self.sides[q, "row"][1] - self.sides[q, "col"][1])
+            total += yh * (Fraction(rows_out, Dy * S) + Fraction(cols_out, Dd * S)
+                           - self.sides[q, "row"][1] - self.sides[q, "col"][1])
         return total
 
 
@@ -587,40 +636,6 @@ def _probe_end(mat: _Matrix, shared: _Held, x: dict, held: Fraction, held_name: 
         raise _Bad(f"{where}: the duals leave a gap ({fmt(got)} against {fmt(total)})")
     if got != value:
         raise _Bad(f"{where}: the proof gives {fmt(got)}, the report {fmt(value)}")
-
-
-class _Sides:
-    """The model's finite sides (of rows and of bounds) as whole numbers over one
-    denominator ``S``, their least common one (``S = 1`` and the sides as they
-    are, where that would be long).  A value ``N / E`` (``E > 0``) lies below a
-    side ``B / S`` exactly when ``N S < B E``, and its dual-objective term
-    ``(N / E) (B / S)`` is ``N B / (E S)``: the terms of one range end that
-    share ``E`` sum in integers, with one division at the end, where a sum of
-    Fractions pays a gcd a step."""
-
-    def __init__(self, mat: _Matrix) -> None:
-        both = [*mat.rows.values(), *mat.variables.values()]
-        common = _lcm_capped(b.denominator for c in both for b in (c.lower, c.upper) if b is not None)
-        self.S = common or 1
-
-        def over(b):
-            return None if b is None else b if common is None else b.numerator * (common // b.denominator)
-        self.row = {r: (over(c.lower), over(c.upper)) for r, c in mat.rows.items()}
-        self.col = {n: (over(v.lower), over(v.upper)) for n, v in mat.variables.items()}
-
-    def rest(self, num, den: int, side: tuple, s: int, what: str):
-        """The side (over ``S``) that the nonzero multiplier ``num / den`` rests on,
-        as :func:`_rest` chooses it; an infinite one refused as it refuses it."""
-        got = side[0] if (num > 0) == (s > 0) else side[1]
-        if got is None:
-            _rest(Fraction(num, den), None, None, s, what)
-        return got
-
-    @staticmethod
-    def outside(num, den: int, side: tuple, scale: int) -> bool:
-        """Is ``num / den`` outside ``[lower, upper]`` (``side``, over ``scale``)?"""
-        lo, hi = side
-        return (lo is not None and num * scale < lo * den) or (hi is not None and num * scale > hi * den)
 
 
 def _sensitivity(model: Model, rep: dict, checks: list) -> str:

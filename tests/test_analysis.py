@@ -14,6 +14,7 @@ import pytest
 import exactlp
 import exactlp.analysis
 import exactlp.limits
+import exactlp.render
 from exactlp.analysis import Interval, conflict, sensitivity
 from exactlp.io import model_from_text
 from exactlp.model import Constraint
@@ -230,6 +231,68 @@ def test_a_sensitivity_report_past_the_limit_is_refused_before_anything_is_writt
     assert (code, stdout) == (2, "") and not out.exists()
     assert err.startswith(f"exactlp: {CASES / 'grants.yaml'}: --output: a ranges report of this model (5 variables, "
                           "3 constraints) would hold ")
+
+
+CHECKED = ("Check: every claim was re-derived from the model by the independent report check, the one "
+           "`exactlp verify` runs on a report written with -o.")
+SKIPPED = ("Check: skipped (--no-check); the claims are exact but were not re-derived by the independent report "
+           "check.")
+TOO_LARGE = ("Check: not done, as the proofs would be past the report limits; the claims are exact but were not "
+             "re-derived by the independent report check.")
+
+
+@pytest.mark.parametrize("command, case", [("sensitivity", "grants"), ("ranges", "grants"),
+                                           ("conflict", "grants_overcommitted")])
+def test_an_analysis_checks_its_claims_before_printing_them_unless_told_not_to(cli, monkeypatch, command, case):
+    # as solve verifies its certificate: the report's proofs are built and put
+    # through the independent check (once, and the report of that kind), with
+    # or without -o; --no-check skips it, and the screen and --json say which
+    import exactlp.report_check as rc
+
+    seen = []
+    real = rc.check_report
+
+    def recorded(model, report):
+        seen.append(report["report"])
+        return real(model, report)
+
+    monkeypatch.setattr(rc, "check_report", recorded)
+    path = CASES / f"{case}.yaml"
+    code, out, err = cli(command, path)
+    assert (code, err, seen) == (0, "", [command])
+    lines = out.rstrip("\n").split("\n")
+    assert lines[-2:] == [CHECKED, exactlp.render.CAUTION]
+    code, out, err = cli(command, path, "--no-check")
+    assert (code, err, seen) == (0, "", [command])
+    assert out.rstrip("\n").split("\n") == lines[:-2] + [SKIPPED, exactlp.render.CAUTION]
+    assert json.loads(cli(command, path, "--json")[1])["check"] == "checked" and seen == [command] * 2
+    assert json.loads(cli(command, path, "--json", "--no-check")[1])["check"] == "skipped" and len(seen) == 2
+
+
+def test_an_analysis_whose_proofs_are_past_the_limits_prints_its_claims_unchecked(cli, monkeypatch):
+    # the limits guard what a report may hold; on the screen, without -o, the
+    # claims are still printed, and the check line says they were not re-derived
+    import exactlp.limits
+
+    monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=42))
+    code, out, err = cli("sensitivity", CASES / "grants.yaml")
+    assert (code, err) == (0, "") and out.rstrip("\n").split("\n")[-2] == TOO_LARGE
+    assert "Raising the fund limit by 1 raises the objective by 79/10" in out
+    assert json.loads(cli("sensitivity", CASES / "grants.yaml", "--json")[1])["check"] == "too large"
+
+
+def test_an_analysis_whose_own_proofs_fail_their_check_prints_no_result(cli, monkeypatch):
+    # a proof of ours that the independent check refuses is our bug: one line,
+    # the internal-error status, and none of the claims on the screen
+    import exactlp.report_check as rc
+    from exactlp.verifier import Check, Verification
+
+    monkeypatch.setattr(rc, "check_report", lambda model, report: Verification(
+        False, None, (Check("report", False, "rhs_ranges.fund.upper: planted fault"),)))
+    code, out, err = cli("sensitivity", CASES / "grants.yaml")
+    assert (code, out) == (4, "")
+    assert err == ("exactlp: internal error: RuntimeError: the report failed its check: rhs_ranges.fund.upper: "
+                   "planted fault (run again with --debug for the traceback)\n")
 
 
 def test_cli_sensitivity_and_conflict_json(cli):
@@ -676,20 +739,25 @@ def _refusals(model, reports) -> list:
     return [None if (v := check_report(model, r)).valid else v.failure.detail for r in reports]
 
 
-@pytest.mark.parametrize("case", SENSITIVITY_CASES)
-def test_the_sensitivity_check_says_the_same_with_its_numbers_as_fractions(case, monkeypatch):
-    # The check takes each end's entries as whole numbers over one denominator
+@pytest.mark.parametrize("kind, case", [*(("sensitivity", c) for c in SENSITIVITY_CASES),
+                                        # (the cases whose optimum is not unique: ends solved, and refused)
+                                        ("ranges", "shares_historic"), ("ranges", "network 6 9 3")])
+def test_the_report_check_says_the_same_with_its_numbers_as_fractions(kind, case, monkeypatch):
+    # The sensitivity check, and the ranges check's sum of each end's dual
+    # objective, take the entries as whole numbers over one denominator
     # (report_check._whole, _times_whole, _Sides); where that denominator would
-    # be long (many different primes) it keeps them as Fractions over 1, and
+    # be long (many different primes) they keep them as Fractions over 1, and
     # every sum and comparison reads the same.  That second way, forced here for
     # every vector, side and coefficient, must pass and refuse the same reports
     # in the same words.
     import exactlp.report_check as rc
-    from exactlp.reports import sensitivity_report
 
-    m = exactlp.load(CASES / f"{case}.yaml")
-    rep = sensitivity_report(m, sensitivity(m))
-    reports = [rep, *_tampered(rep)]
+    from .helpers import network
+
+    write, tamper, _ = _report_kinds()[kind]
+    m = network(*map(int, case.split()[1:])) if case.startswith("network") else exactlp.load(CASES / f"{case}.yaml")
+    rep = write(m)
+    reports = [rep, *tamper(rep)]
     whole = _refusals(m, reports)
     assert whole[0] is None and whole.count(None) < len(whole) * 2 // 3
     monkeypatch.setattr(rc, "_lcm_capped", lambda dens: None)
@@ -1164,10 +1232,12 @@ _SMALL = st.sampled_from([F(0), F(0), F(0), F(1), F(-1), F(2), F(-1, 3), F(5, 2)
 def _boxed_models(draw):
     """Feasible models (each row's sides set around its activity at the lower
     corner, a side sometimes absent), most variables boxed: most have an optimum,
-    and most multipliers rest on finite sides."""
+    and most multipliers rest on finite sides.  Sides are halves and thirds too,
+    so that the check's common denominator of the sides is not always 1."""
     small = st.sampled_from([0, 0, 1, -1, 2, -3])
+    part = st.sampled_from([1, 1, 2, 3])
     n = draw(st.integers(1, 5))
-    low = [draw(st.integers(-2, 1)) for _ in range(n)]
+    low = [F(draw(st.integers(-2, 1)), draw(part)) for _ in range(n)]
     lines = ["minimize: " + " + ".join(f"{draw(small)} x{j}" for j in range(n)), "variables:"]
     lines += [f"  x{j}: {{lower: {lo}" + ("}" if draw(st.integers(0, 4)) == 0 else
                                          f", upper: {lo + draw(st.integers(0, 3))}}}") for j, lo in enumerate(low)]
@@ -1175,7 +1245,7 @@ def _boxed_models(draw):
     for i in range(draw(st.integers(1, 4))):
         a = [draw(small) for _ in range(n)]
         at = sum(k * lo for k, lo in zip(a, low))
-        lo, hi = (None if draw(st.integers(0, 2)) == 0 else at + sign * draw(st.integers(0, 2))
+        lo, hi = (None if draw(st.integers(0, 2)) == 0 else at + sign * F(draw(st.integers(0, 2)), draw(part))
                   for sign in (-1, 1))
         lo = at if lo is None and hi is None else lo
         body = " + ".join(f"{k} x{j}" for j, k in enumerate(a))
