@@ -185,7 +185,7 @@ def sensitivity(model: Model, progress=None, **solve_options) -> Sensitivity:
     _single_objective(model)
     from .floatlp import BasisHint
     from .solver import Status, solve
-    from .solver.form import build_form, frac, q
+    from .solver.form import ZERO, build_form, frac, q
     from .solver.simplex import AT_LOWER, AT_UPPER, BASIC, Simplex
 
     r = solve(model, **solve_options)
@@ -227,11 +227,19 @@ def sensitivity(model: Model, progress=None, **solve_options) -> Sensitivity:
         return got
 
     step = max(1, (n + m) // 100)  # (about a hundred updates of the status line)
+    inverse_rows: list[dict] = [{} for _ in range(m)]  # row p of B^-1, {i: value}, i ascending
+    by_rows: list[list] = [[] for _ in range(m)]  # the movable nonbasic columns' entries, by row
     if any(sx.state[j] == BASIC for j in range(n)):
         for i in range(m):
             if progress is not None and i % step == 0:
                 progress(f"sensitivity: column {i + 1} of {m} of the basis inverse")
-            column(i)
+            for p_, v_ in column(i).items():
+                if v_:
+                    inverse_rows[p_][i] = v_
+        for k in nonbasic:
+            if movable(k):
+                for i, val in form.cols[k]:
+                    by_rows[i].append((k, val))
     obj_ranges = {}
     dual_dirs: dict = {}
     for j, v in enumerate(model.variables):
@@ -249,16 +257,18 @@ def sensitivity(model: Model, progress=None, **solve_options) -> Sensitivity:
             else:  # free at zero: d_j is 0 and must stay 0
                 lo_t = hi_t = q(0)
         else:
-            p = sx.pos_of[j]
-            zero = q(0)
-            rho = [columns[i].get(p, zero) for i in range(m)]
+            rho = inverse_rows[sx.pos_of[j]]  # its nonzero entries, i ascending
             # model-sense duals move by t * rho when c_j (model sense) moves by t
-            dual_dirs[v.name] = {model.constraints[i].name: frac(rho[i]) for i in range(m) if rho[i]}
+            dual_dirs[v.name] = {model.constraints[i].name: frac(ri) for i, ri in rho.items()}
+            # alpha_pk = rho^T a_k for the movable nonbasic k, summed by the rows rho
+            # reaches (a network's rho has a few entries, its nonbasic columns thousands)
+            alpha: dict = {}
+            for i, ri in rho.items():
+                for k, val in by_rows[i]:
+                    alpha[k] = alpha.get(k, ZERO) + ri * val
             lo_t, hi_t = None, None
-            for k in nonbasic:
-                if not movable(k):
-                    continue
-                a = sum((rho[i] * val for i, val in form.cols[k] if rho[i]), q(0)) if k < form.ncols else q(0)
+            for k in sorted(alpha):  # (the order of the nonbasic columns, as before)
+                a = alpha[k]
                 if not a:
                     continue
                 limit = d[k] / a  # the t at which d_k - t a reaches zero
