@@ -985,6 +985,44 @@ def test_a_basis_copy_is_only_for_one_not_yet_updated():
         twin.fresh_copy()
 
 
+def test_fresh_copies_of_one_factorisation_make_its_short_copy_once(monkeypatch):
+    # each probe of allocation ranges pivots on a fresh copy of one start, and
+    # the steering's short copy of its factors (shadow.ShortFactors.of) is the
+    # same for all: made once and shared through the factorisation's
+    # short_copies, each copy with its own etas and count of updates; once a
+    # copy's factors are replaced by an update, it gets none from the memo
+    from gmpy2 import mpq
+
+    from exactlp.solver import shadow
+    from exactlp.solver.basis import factor_ft
+
+    cols = [[(0, mpq(2, 3)), (1, mpq(1, 7))], [(0, mpq(1, 5)), (1, mpq(3, 11))], [(0, mpq(-1))], [(1, mpq(-1))]]
+    b, head = factor_ft(2, [0, 1], cols, {2: (0, -1), 3: (1, -1)})
+    made = []
+    real = shadow.ShortFactors._of
+
+    def counted(*args):
+        made.append(real(*args))
+        return made[-1]
+
+    monkeypatch.setattr(shadow.ShortFactors, "_of", staticmethod(counted))
+    first, second = b.fresh_copy(), b.fresh_copy()
+    one, two = shadow.ShortFactors.of(first, 0), shadow.ShortFactors.of(second, 0)
+    assert len(made) == 1 and one is not two and one.basis is first and two.basis is second
+    assert one.lsteps is two.lsteps is made[0][0] and one.ucols is two.ucols is made[0][1] and one.size == two.size
+    one.add_eta(0, 1 << shadow.SHIFT, [])
+    assert (one.updates, len(one.etas), two.updates, two.etas) == (1, 1, 0, [])
+    fresh = shadow.ShortFactors(second, *real(second.lsteps, second.ucols, 0))
+    assert two.solve({0: 1 << shadow.SHIFT}) == fresh.solve({0: 1 << shadow.SHIFT}) != {}
+    assert shadow.ShortFactors.of(b, 0).lsteps is made[0][0] and len(made) == 1
+    # what the factorisation keeps refers to no basis (the solver makes no cycles)
+    assert all(not isinstance(x, shadow.ShortFactors) for kept in b.short_copies.values() for x in kept)
+    assert shadow.ShortFactors.of(b, 10**6) is None and len(made) == 2  # another rule: its own
+    p = head.index(0)
+    first.replace(p, first.ftran(cols[2]), cols[2])  # first's factors change
+    assert shadow.ShortFactors.of(first, 0) is None and len(made) == 2
+
+
 @needs_netlib
 def test_shared_start_probes_on_adlittle_match_their_own_solves():
     # a real model with a degenerate optimum (source of the data: the Netlib LP set)

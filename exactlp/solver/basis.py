@@ -357,6 +357,10 @@ class LUBasis(EtaBasis):
         # _name_maps); made when first needed, again after the columns are rebuilt
         self._names = None
         self.pivots = pivots
+        # the short copies made of these factors, by the copy's rule (see
+        # shadow.ShortFactors.of): one dictionary, shared with every fresh_copy,
+        # whose factors are these same lists until its first update
+        self.short_copies: dict = {}
         #: nonzeros of L and U (the diagonal included): the cost of one solve with the factors
         self.lu_nonzeros = sum(len(ls) for _, ls in lsteps) + sum(len(above) + 1 for _, _, above in ucols)
         # L is unit triangular and the positions only permute, so |det B| = prod |u_kk|

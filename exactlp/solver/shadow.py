@@ -69,6 +69,22 @@ class ShortFactors:
         if lsteps is None or basis.etas or getattr(basis, "rsteps", None) or getattr(basis, "_dicts", False):
             return None
         ucols = basis.ucols
+        # Copies of one factorisation (the probes of allocation ranges each pivot on
+        # a fresh copy of one start) share its lists, and the copy made from them is
+        # the same: made once, each caller gets its own etas.  Kept with the very
+        # lists it was made from, and used only while the basis still has them.
+        # (The fixed-point lists are kept, not a ShortFactors, which refers to its
+        # basis: the solver makes no reference cycles.)
+        made = getattr(basis, "short_copies", {}).get(min_bits)
+        if made is None or made[0] is not lsteps or made[1] is not ucols:
+            made = (lsteps, ucols, cls._of(lsteps, ucols, min_bits))
+            if hasattr(basis, "short_copies"):
+                basis.short_copies[min_bits] = made
+        return None if made[2] is None else cls(basis, *made[2])
+
+    @staticmethod
+    def _of(lsteps, ucols, min_bits: int) -> tuple | None:
+        """The factors in fixed point, ``(lsteps, ucols, (bits, entries))``, or None."""
         bits = count = 0
         for _, steps in lsteps:
             count += len(steps)
@@ -84,7 +100,7 @@ class ShortFactors:
         ls = [(r, [(i, fixed(x.numerator, x.denominator)) for i, x in steps]) for r, steps in lsteps]
         us = [(r, fixed(ukk.denominator, ukk.numerator), [(i, fixed(x.numerator, x.denominator)) for i, x in above])
               for r, ukk, above in ucols]
-        return cls(basis, ls, us, (bits, count))
+        return ls, us, (bits, count)
 
     def add_eta(self, p: int, inv_p: int, ratios: list) -> None:
         """The pivot at position ``p``, ``inv_p`` the fixed ``1 / alpha_p`` and
