@@ -129,45 +129,48 @@ def dump_json(doc: Any) -> str:
 def dump_yaml(doc: Any) -> str:
     """A small YAML emitter for str/None/bool/int/list/dict, keys sorted."""
     out: list[str] = []
-
-    def scalar(v) -> str:
-        if v is None:
-            return "null"
-        if isinstance(v, bool):
-            return "true" if v else "false"
-        if isinstance(v, int):
-            return str(v)
-        return quote(str(v))
-
-    def emit(v, indent: int) -> None:
-        pad = "  " * indent
-        if isinstance(v, dict):
-            for k in sorted(v):
-                item = v[k]
-                if isinstance(item, dict) and item:
-                    out.append(f"{pad}{key(str(k))}:")
-                    emit(item, indent + 1)
-                elif isinstance(item, list) and item:
-                    out.append(f"{pad}{key(str(k))}:")
-                    emit(item, indent + 1)
-                elif isinstance(item, dict):
-                    out.append(f"{pad}{key(str(k))}: {{}}")
-                elif isinstance(item, list):
-                    out.append(f"{pad}{key(str(k))}: []")
-                else:
-                    out.append(f"{pad}{key(str(k))}: {scalar(item)}")
-        elif isinstance(v, list):
-            for item in v:
-                if isinstance(item, (dict, list)) and item:
-                    out.append(f"{pad}-")
-                    emit(item, indent + 1)
-                else:
-                    out.append(f"{pad}- {scalar(item) if not isinstance(item, (dict, list)) else ('{}' if isinstance(item, dict) else '[]')}")
-        else:
-            out.append(pad + scalar(v))
-
-    emit(doc, 0)
+    _emit(doc, 0, out)
     return "\n".join(out) + "\n"
+
+
+def _scalar(v) -> str:
+    if v is None:
+        return "null"
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, int):
+        return str(v)
+    return quote(str(v))
+
+
+def _emit(v, indent: int, out: list[str]) -> None:
+    # a module function, not a closure over ``out``: a closure that calls itself
+    # holds itself in a cell, a reference cycle that only the cyclic collector frees
+    pad = "  " * indent
+    if isinstance(v, dict):
+        for k in sorted(v):
+            item = v[k]
+            if isinstance(item, dict) and item:
+                out.append(f"{pad}{key(str(k))}:")
+                _emit(item, indent + 1, out)
+            elif isinstance(item, list) and item:
+                out.append(f"{pad}{key(str(k))}:")
+                _emit(item, indent + 1, out)
+            elif isinstance(item, dict):
+                out.append(f"{pad}{key(str(k))}: {{}}")
+            elif isinstance(item, list):
+                out.append(f"{pad}{key(str(k))}: []")
+            else:
+                out.append(f"{pad}{key(str(k))}: {_scalar(item)}")
+    elif isinstance(v, list):
+        for item in v:
+            if isinstance(item, (dict, list)) and item:
+                out.append(f"{pad}-")
+                _emit(item, indent + 1, out)
+            else:
+                out.append(f"{pad}- {_scalar(item) if not isinstance(item, (dict, list)) else ('{}' if isinstance(item, dict) else '[]')}")
+    else:
+        out.append(pad + _scalar(v))
 
 
 def dump_certificate(cert: dict, fmt: str = "yaml") -> str:

@@ -45,9 +45,10 @@ def _collector_paused(on: bool):
     and then a full pass over every object of the process: STAIR's warm solve
     took 66.6 ms at best with it and 59.9 without (32 solves each, in
     alternating processes).  Nothing is left uncollected by the pause: the
-    solver makes no reference cycles (none over STAIR's solves, 24 objects
-    over BANDM's whole cold solve), so its objects are freed by their counts
-    as always.  Only for warm solves of models up to REFINE_MAX_ROWS rows,
+    solver makes no reference cycles (none over the solves of BANDM, STAIR,
+    PILOT4 and four more, cold and warm; see
+    ``test_solves_leave_nothing_to_the_cyclic_collector``), so its objects are
+    freed by their counts as always.  Only for warm solves of models up to REFINE_MAX_ROWS rows,
     which take a fraction of a second when the suggestion holds; cold solves
     gained nothing measurable (BANDM 1.54-1.75 s either way).  The collector is
     the process's, so solves on several threads are counted: the first pauses
