@@ -269,16 +269,30 @@ def test_an_analysis_checks_its_claims_before_printing_them_unless_told_not_to(c
     assert json.loads(cli(command, path, "--json", "--no-check")[1])["check"] == "skipped" and len(seen) == 2
 
 
-def test_an_analysis_whose_proofs_are_past_the_limits_prints_its_claims_unchecked(cli, monkeypatch):
+@pytest.mark.parametrize("command, claim, size", [
+    ("sensitivity", "Raising the fund limit by 1 raises the objective by 79/10", "43 exact numbers of about 96"),
+    ("ranges", "  coast_west   61/20      61/20   unique optimum", "30 exact numbers of about 108"),
+])
+def test_an_analysis_whose_proofs_are_past_the_limits_prints_its_claims_unchecked(cli, monkeypatch, tmp_path, command,
+                                                                                   claim, size):
     # the limits guard what a report may hold; on the screen, without -o, the
     # claims are still printed, and the check line says they were not re-derived
+    # (a conflict report has no size limit: its proof is one Farkas certificate)
     import exactlp.limits
 
-    monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=42))
-    code, out, err = cli("sensitivity", CASES / "grants.yaml")
+    path = CASES / "grants.yaml"
+    assert cli(command, path)[1].rstrip("\n").split("\n")[-2] == CHECKED
+    monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=20))
+    code, out, err = cli(command, path)
     assert (code, err) == (0, "") and out.rstrip("\n").split("\n")[-2] == TOO_LARGE
-    assert "Raising the fund limit by 1 raises the objective by 79/10" in out
-    assert json.loads(cli("sensitivity", CASES / "grants.yaml", "--json")[1])["check"] == "too large"
+    assert claim in out
+    assert json.loads(cli(command, path, "--json")[1])["check"] == "too large"
+    # with -o the report itself would be past the limits: refused, and no file left
+    code, out, err = cli(command, path, "-o", tmp_path / "report.yaml")
+    assert (code, out) == (2, "") and list(tmp_path.iterdir()) == []
+    assert err == (f"exactlp: {path}: --output: a {command} report of this model (5 variables, 3 constraints) would "
+                   f"hold {size} digits in all; the limits are 20 numbers and 100,000,000 digits (print the ranges "
+                   "with --json instead)\n")
 
 
 def test_an_analysis_whose_own_proofs_fail_their_check_prints_no_result(cli, monkeypatch):
