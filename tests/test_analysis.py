@@ -590,6 +590,67 @@ def test_every_report_on_random_models_passes_its_own_check(model):
         assert v.valid, v.failure
 
 
+def _ranged(s):
+    return (s.objective_ranges, s.rhs_ranges, s.dual_directions)
+
+
+def _sensitivity_summed(model, how, monkeypatch):
+    # "rows": each basic column's tableau row summed over the rows of B^-1 it
+    # reaches (models under 20,000 nonzeros); "numpy": by the pivot loop's numpy
+    # sums (wide models), here for every model; "limbs": the same in limbs of
+    # 3 bits, as for integers past 64 bits (D6CUBE's longer rows)
+    from exactlp.solver import rows as rows_module
+
+    with monkeypatch.context() as mp:
+        if how != "rows":
+            mp.setattr(rows_module, "NUMPY_ROW_NONZEROS", 0)
+        if how == "limbs":
+            mp.setattr(rows_module, "ROW_LIMB_BITS", 3)
+            mp.setattr(rows_module, "ROW_LIMBS_MOST", 10**6)
+        return sensitivity(model)
+
+
+@settings(max_examples=120, deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
+@given(lp_models(max_vars=5, max_rows=4))
+def test_sensitivity_by_numpy_sums_is_the_sensitivity_by_rows(monkeypatch, model):
+    # the same ranges and dual directions, as Fractions, whichever way the rows
+    # are summed; and the report of each passes the independent check
+    from exactlp.report_check import check_report
+    from exactlp.reports import sensitivity_report
+
+    if exactlp.solve(model).status.value != "optimal":
+        return
+    by_rows = _sensitivity_summed(model, "rows", monkeypatch)
+    for how in ("numpy", "limbs"):
+        got = _sensitivity_summed(model, how, monkeypatch)
+        assert _ranged(got) == _ranged(by_rows), how
+        for iv in got.objective_ranges.values():
+            assert all(type(e) is F for e in (iv.lower, iv.upper) if e is not None)
+    v = check_report(model, sensitivity_report(model, by_rows))
+    assert v.valid, v.failure
+
+
+@needs_netlib
+@pytest.mark.parametrize("name", ["ADLITTLE", "SHARE2B", "SC50A"])
+def test_sensitivity_by_numpy_sums_on_netlib_problems(monkeypatch, name):
+    # real bases, with rows of B^-1 over long common denominators (source of the
+    # data: the Netlib LP set); the report by numpy's sums passes the check
+    from exactlp.io import read_mps
+    from exactlp.report_check import check_report
+    from exactlp.reports import sensitivity_report
+
+    from .conftest import netlib_table
+
+    m = read_mps(NETLIB / netlib_table()[name]["file"])
+    by_rows = _sensitivity_summed(m, "rows", monkeypatch)
+    got = _sensitivity_summed(m, "numpy", monkeypatch)
+    assert _ranged(got) == _ranged(by_rows)
+    assert _ranged(_sensitivity_summed(m, "limbs", monkeypatch)) == _ranged(by_rows)
+    v = check_report(m, sensitivity_report(m, got))
+    assert v.valid, v.failure
+
+
 def test_sensitivity_report_tampering_is_caught():
     import copy
 

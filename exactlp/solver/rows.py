@@ -155,6 +155,14 @@ class TableauRows:
         # (see basis.EtaBasis._set_scale and _update_reduced_costs)
         rho, d = self.basis.btran_unit(p)  # its nonzeros, by position
         self.last_rho = (rho, d)  # D rho and D (None: unscaled), for the dual's weights
+        return self._row_times_a(rho, d, self.head[p])
+
+    def _row_times_a(self, rho: dict[int, mpq], d: mpz | None, drop: int) -> tuple[dict[int, mpq], mpz | None]:
+        """``(R . (e_j a_j), S)`` at the nonbasic columns ``j``, with ``rho . a_j``
+        their quotients: the sums of :meth:`_tableau_row` for any row vector
+        ``rho`` (its nonzeros by row, scaled by ``d`` unless that is None), such as
+        a row of ``B^-1`` read from its columns.  ``drop``: the basic column whose
+        sum is known without summing (that of the row's position), left out."""
         state = self.state
         ints = _dual_ints(rho)
         if ints is None:  # nested denominators: in fractions
@@ -197,7 +205,7 @@ class TableauRows:
                 dense = [0] * self.m
                 for i, r in big.items():
                     dense[i] = r
-                out = fast(dense, self.head[p])
+                out = fast(dense, drop)
             else:
                 out = None
         if out is None:  # the loops (no numpy, a narrow model, or sums past 64 bits)
