@@ -452,9 +452,10 @@ def _differing(new: Mapping, old: Mapping) -> dict:
     """The entries of ``new`` that differ from ``old``'s (Fractions, always in lowest
     terms, so equal exactly when numerator and denominator are: compared so, the
     comparison costs a tenth of ``!=``, whose type checks took a fifth of the
-    1,000-row network's range probes)."""
+    1,000-row network's range probes; the same object, as a face probe hands back
+    an unmoved value, is equal without either)."""
     return {k: v for k, v in new.items()
-            if (o := old[k]).numerator != v.numerator or o.denominator != v.denominator}
+            if (o := old[k]) is not v and (o.numerator != v.numerator or o.denominator != v.denominator)}
 
 
 def _lift_face_end(face_result, probe: Model, pins: dict, r, act: dict):
@@ -619,7 +620,9 @@ def ranges(model: Model, variables: list[str] | None = None, progress=None, **so
                 face_start = BasisHint.of_result(r, n, len(model.constraints), added_rows=0,
                                                  source="optimum of the model")
                 if pins is not None:
-                    face_probes = ObjectiveProbes(face, face_start, **solve_options)
+                    # (the face's start is the optimum: its values come back as the
+                    # optimum's own Fractions where they have not moved, see _differing)
+                    face_probes = ObjectiveProbes(face, face_start, start_values=(r.primal, held_act), **solve_options)
             pr = None
             if face_probes is not None:
                 pr = _lift_face_end(face_probes.solve(replace(face, sense=Sense(sense), objective=((name, Fraction(1)),),

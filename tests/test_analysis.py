@@ -968,6 +968,44 @@ def test_probes_from_a_shared_start_are_the_solves_from_their_own(model):
 
 @settings(max_examples=120, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(lp_models(max_vars=5, max_rows=4))
+def test_probes_told_their_start_values_hand_back_those_that_did_not_move(model):
+    # ObjectiveProbes(start_values=...): a value of the start that a probe's result
+    # keeps comes back as the given Fraction itself (ranges tell unmoved entries by
+    # identity; here every entry of a probe that takes no step), a given value that
+    # is not the start's is never used (one planted here, off by one), and every
+    # result is the probe's own solve, as Fractions
+    from exactlp.analysis import fixed_objective_model
+    from exactlp.floatlp import BasisHint
+    from exactlp.model import Sense
+    from exactlp.solver import ObjectiveProbes
+
+    r = exactlp.solve(model, warm_start=False)
+    if r.status.value != "optimal":
+        return
+    fixed = fixed_objective_model(model, r.objective)
+    start = BasisHint.of_result(r, len(model.variables), len(model.constraints), added_rows=1)
+    act = dict(r.activities)
+    act[fixed.constraints[-1].name] = fixed.constraints[-1].lower
+    primal = dict(r.primal)
+    planted = model.variables[0].name
+    primal[planted] = primal[planted] + 1
+    shared = ObjectiveProbes(fixed, start, start_values=(primal, act), warm_start=False)
+    for v in model.variables:
+        for sense in ("minimize", "maximize"):
+            probe = replace(fixed, sense=Sense(sense), objective=((v.name, F(1)),), objective_constant=F(0))
+            got, own = shared.solve(probe), exactlp.solve(probe, start_basis=start)
+            assert _same_but_time(got, own) == {}
+            if got.status.value not in ("optimal", "unbounded"):
+                continue
+            assert all(type(value) is F for value in got.primal.values())
+            assert got.primal[planted] is not primal[planted]
+            if got.pivots_phase1 + got.pivots_phase2 + got.bound_flips == 0:
+                assert all(got.primal[k] is primal[k] for k in primal if k != planted)
+                assert all(got.activities[k] is act[k] for k in act)
+
+
+@settings(max_examples=120, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@given(lp_models(max_vars=5, max_rows=4))
 def test_probes_by_numpy_rows_are_the_solves_from_their_own(model):
     # The same, with every tableau row summed by numpy (as on models of 20,000
     # nonzeros or more).  The function that sums them is kept with the matrix's

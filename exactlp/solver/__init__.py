@@ -218,8 +218,13 @@ def _solve(model, pricing, iteration_limit, time_limit, listener, tableau, shoul
     return _run(model, form, sx, pricing, time_limit, started)
 
 
-def _run(model, form, sx: Simplex, pricing, time_limit, started) -> SolveResult:
-    """Run the pivot loop and turn its exact outcome into the model's result."""
+def _run(model, form, sx: Simplex, pricing, time_limit, started, known=None) -> SolveResult:
+    """Run the pivot loop and turn its exact outcome into the model's result.
+
+    ``known``: ``(x0, f0)``, a start's values (``mpq``) by column and a list for
+    their Fractions, filled here as they are made (:class:`ObjectiveProbes`): a
+    value that is still the start's own object is read from ``f0`` instead of
+    made again (most of a probe's point is the start's)."""
     if time_limit is not None:
         sx.time_limit = max(time_limit - (time.monotonic() - started), 0.0)
     out = sx.run()
@@ -246,11 +251,22 @@ def _run(model, form, sx: Simplex, pricing, time_limit, started) -> SolveResult:
     extra: dict = {}
     if status in (Status.OPTIMAL, Status.UNBOUNDED):
         x, lower, upper = sx.x, form.lower, form.upper
+        x0, f0 = known if known is not None else (None, None)
 
         def value(j: int, item) -> Fraction:
+            v = x[j]
+            if x0 is not None and v is x0[j]:
+                # (the start's own object, so the start's value: its Fraction as
+                # made for an earlier probe, the same whatever the state)
+                got = f0[j]
+                if got is None:
+                    got = f0[j] = made(j, v, item)
+                return got
+            return made(j, v, item)
+
+        def made(j: int, v, item) -> Fraction:
             # a value resting on one of its own bounds is that bound, already a
             # Fraction in the model: no conversion (the comparison is of mpq's)
-            v = x[j]
             if v and state[j] != 0:
                 lo, hi = lower[j], upper[j]  # (never compare an mpq with None: slow in gmpy2)
                 b = item.lower if (lo is not None and v == lo) else item.upper if (hi is not None and v == hi) else None
@@ -303,7 +319,11 @@ class ObjectiveProbes:
     object is not for solves on several threads at once.
     """
 
-    def __init__(self, model: Model, start, **options) -> None:
+    def __init__(self, model: Model, start, *, start_values=None, **options) -> None:
+        """``start_values``: optionally ``(primal, activities)``, Fractions by name
+        for the start's point; each that equals the start's own value is handed
+        back, as that very object, wherever a probe's result keeps that value
+        (so a caller can tell the unmoved entries by identity)."""
         from ..floatlp import BasisHint
 
         if not isinstance(start, BasisHint):
@@ -312,10 +332,26 @@ class ObjectiveProbes:
         _check_options(options.get("pricing", "guarded"), options.get("iteration_limit"), options.get("time_limit"))
         self.model, self.start, self.options = model, start, options
         self._state = None
+        self._known = None  # the start's values and their Fractions (see _run)
+        self._start_values = start_values
         self._form = build_form(model)
         if self._form.crossed is None:
             sx = Simplex(self._form, pricing=options.get("pricing", "guarded"), hint=start)
             self._state = sx.start_state()
+
+    def _seeded(self, x0: list) -> list:
+        """The start's Fractions by column, from ``start_values`` where given and
+        equal to the start's value (compared exactly), else None (made later)."""
+        f0: list = [None] * len(x0)
+        if self._start_values is not None:
+            primal, activities = self._start_values
+            items = [(j, primal.get(v.name)) for j, v in enumerate(self.model.variables)]
+            n = len(self.model.variables)
+            items += [(n + i, activities.get(c.name)) for i, c in enumerate(self.model.constraints)]
+            for j, got in items:
+                if type(got) is Fraction and j < len(x0) and x0[j] == mpq(got.numerator, got.denominator):
+                    f0[j] = got
+        return f0
 
     def solve(self, probe: Model) -> SolveResult:
         base, st = self.model, self._state
@@ -335,7 +371,9 @@ class ObjectiveProbes:
         sx = Simplex(form, pricing=pricing, iteration_limit=o.get("iteration_limit"),
                      time_limit=o.get("time_limit"), listener=o.get("listener"), tableau=o.get("tableau", False),
                      should_stop=o.get("should_stop"), start=st)
+        if self._known is None:
+            self._known = (st.x, self._seeded(st.x))
         try:
-            return _run(probe, form, sx, pricing, o.get("time_limit"), started)
+            return _run(probe, form, sx, pricing, o.get("time_limit"), started, self._known)
         finally:
             sx.keep_caches(st)
