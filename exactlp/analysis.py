@@ -492,7 +492,7 @@ def _lift_face_end(face_result, probe: Model, pins: dict, r, act: dict):
 
     from .solver import Status
     from .solver.form import frac
-    from .solver.result import ScaledMap
+    from .solver.result import ScaledMap, nonzero_entries
 
     held = probe.constraints[-1]
     x = r.primal
@@ -509,8 +509,7 @@ def _lift_face_end(face_result, probe: Model, pins: dict, r, act: dict):
         return face_result  # a limit: nothing is proven, and the caller says so
     sp = 1 if probe.sense is Sense.MINIMIZE else -1
     # the face's nonzero multipliers: only they can break a sign (a = 0 never does)
-    nonzero = tuple({name: a for name, a in face.items() if a}
-                    for face in (face_result.reduced_costs, face_result.duals))  # by is_row
+    nonzero = tuple(nonzero_entries(face) for face in (face_result.reduced_costs, face_result.duals))  # by is_row
     w = Fraction(0)
     for is_row, got in enumerate(nonzero):
         for name, a in got.items():

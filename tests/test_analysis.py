@@ -999,6 +999,10 @@ def test_probes_told_their_start_values_hand_back_those_that_did_not_move(model)
                 continue
             assert all(type(value) is F for value in got.primal.values())
             assert got.primal[planted] is not primal[planted]
+            if got.status.value == "optimal":  # (kept as their nonzero entries: every name, 0 as a Fraction)
+                assert list(got.duals) == [c.name for c in fixed.constraints]
+                assert list(got.reduced_costs) == [v.name for v in fixed.variables]
+                assert all(type(a) is F for a in [*got.duals.values(), *got.reduced_costs.values()])
             if got.pivots_phase1 + got.pivots_phase2 + got.bound_flips == 0:
                 assert all(got.primal[k] is primal[k] for k in primal if k != planted)
                 assert all(got.activities[k] is act[k] for k in act)

@@ -21,7 +21,7 @@ from ..errors import InputError
 from ..model import Model, Sense
 from .events import Finish, PhaseEnd, Pivot, Start, WarmStart
 from .form import ZERO, build_form, frac
-from .result import SolveResult, Status, frozen_map
+from .result import ScaledMap, SolveResult, Status, frozen_map
 from .simplex import PRICING_RULES, REFINE_MAX_ROWS, Simplex
 
 #: the interpreter's switch interval (seconds) while work is done beside HiGHS
@@ -218,13 +218,20 @@ def _solve(model, pricing, iteration_limit, time_limit, listener, tableau, shoul
     return _run(model, form, sx, pricing, time_limit, started)
 
 
+_NOTHING: dict = {}  # (the base of a map of nonzero entries: read only, never written)
+_NO_SCALE = Fraction(0)
+
+
 def _run(model, form, sx: Simplex, pricing, time_limit, started, known=None) -> SolveResult:
     """Run the pivot loop and turn its exact outcome into the model's result.
 
-    ``known``: ``(x0, f0)``, a start's values (``mpq``) by column and a list for
-    their Fractions, filled here as they are made (:class:`ObjectiveProbes`): a
-    value that is still the start's own object is read from ``f0`` instead of
-    made again (most of a probe's point is the start's)."""
+    ``known``: ``(x0, f0, keys)``, a start's values (``mpq``) by column and a
+    list for their Fractions, filled here as they are made (:class:`ObjectiveProbes`):
+    a value that is still the start's own object is read from ``f0`` instead of
+    made again (most of a probe's point is the start's); and the variables' and
+    constraints' names as two dicts: the duals and reduced costs are then given
+    as their nonzero entries over those names (a :class:`ScaledMap` of nothing,
+    0 elsewhere; a probe's objective is one variable, so most of them are 0)."""
     if time_limit is not None:
         sx.time_limit = max(time_limit - (time.monotonic() - started), 0.0)
     out = sx.run()
@@ -251,7 +258,7 @@ def _run(model, form, sx: Simplex, pricing, time_limit, started, known=None) -> 
     extra: dict = {}
     if status in (Status.OPTIMAL, Status.UNBOUNDED):
         x, lower, upper = sx.x, form.lower, form.upper
-        x0, f0 = known if known is not None else (None, None)
+        x0, f0, _ = known if known is not None else (None, None, None)
 
         def value(j: int, item) -> Fraction:
             v = x[j]
@@ -280,7 +287,11 @@ def _run(model, form, sx: Simplex, pricing, time_limit, started, known=None) -> 
         y = out.y
         extra["objective"] = frac(sign * out.z + form.constant)
         flip = sign < 0  # to the model's sense (a negation, not a multiplication, when needed)
-        extra["duals"] = frozen_map({cnames[i]: frac(-y[i] if flip else y[i]) for i in range(m)})
+        sparse = known is not None
+        if sparse:
+            duals = {cnames[i]: frac(-y[i] if flip else y[i]) for i in range(m) if y[i]}
+        else:
+            duals = {cnames[i]: frac(-y[i] if flip else y[i]) for i in range(m)}
         rc = {}
         kept = out.d  # the pivot loop's own reduced costs, when it priced in full
         for j in range(n):
@@ -293,8 +304,14 @@ def _run(model, form, sx: Simplex, pricing, time_limit, started, known=None) -> 
                 for i, a in form.cols[j]:
                     if y[i]:
                         d -= y[i] * a
-            rc[vnames[j]] = frac(-d if flip else d)
-        extra["reduced_costs"] = frozen_map(rc)
+            if d or not sparse:
+                rc[vnames[j]] = frac(-d if flip else d)
+        if sparse:
+            vkeys, ckeys = known[2]
+            extra["duals"] = ScaledMap(ckeys, duals, _NOTHING, _NO_SCALE)
+            extra["reduced_costs"] = ScaledMap(vkeys, rc, _NOTHING, _NO_SCALE)
+        else:
+            extra["duals"], extra["reduced_costs"] = frozen_map(duals), frozen_map(rc)
     elif status is Status.INFEASIBLE:
         rows, bounds = sx.farkas(out.y)
         extra["farkas_rows"] = frozen_map({cnames[i]: frac(v) for i, v in sorted(rows.items())})
@@ -372,7 +389,8 @@ class ObjectiveProbes:
                      time_limit=o.get("time_limit"), listener=o.get("listener"), tableau=o.get("tableau", False),
                      should_stop=o.get("should_stop"), start=st)
         if self._known is None:
-            self._known = (st.x, self._seeded(st.x))
+            self._known = (st.x, self._seeded(st.x), (dict.fromkeys(v.name for v in base.variables),
+                                                      dict.fromkeys(c.name for c in base.constraints)))
         try:
             return _run(probe, form, sx, pricing, o.get("time_limit"), started, self._known)
         finally:
