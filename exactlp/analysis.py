@@ -452,10 +452,14 @@ def _differing(new: Mapping, old: Mapping) -> dict:
     """The entries of ``new`` that differ from ``old``'s (Fractions, always in lowest
     terms, so equal exactly when numerator and denominator are: compared so, the
     comparison costs a tenth of ``!=``, whose type checks took a fifth of the
-    1,000-row network's range probes; the same object, as a face probe hands back
-    an unmoved value, is equal without either)."""
+    1,000-row network's range probes; a face probe's result is ``old`` with a
+    few entries of its own, and only those can differ)."""
+    from .solver.result import ScaledMap
+
+    if isinstance(new, ScaledMap) and new.based_on(old):
+        new = new.own
     return {k: v for k, v in new.items()
-            if (o := old[k]) is not v and (o.numerator != v.numerator or o.denominator != v.denominator)}
+            if (o := old[k]).numerator != v.numerator or o.denominator != v.denominator}
 
 
 def _lift_face_end(face_result, probe: Model, pins: dict, r, act: dict):

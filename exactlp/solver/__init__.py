@@ -225,13 +225,15 @@ _NO_SCALE = Fraction(0)
 def _run(model, form, sx: Simplex, pricing, time_limit, started, known=None) -> SolveResult:
     """Run the pivot loop and turn its exact outcome into the model's result.
 
-    ``known``: ``(x0, f0, keys)``, a start's values (``mpq``) by column and a
-    list for their Fractions, filled here as they are made (:class:`ObjectiveProbes`):
-    a value that is still the start's own object is read from ``f0`` instead of
-    made again (most of a probe's point is the start's); and the variables' and
-    constraints' names as two dicts: the duals and reduced costs are then given
-    as their nonzero entries over those names (a :class:`ScaledMap` of nothing,
-    0 elsewhere; a probe's objective is one variable, so most of them are 0)."""
+    ``known`` (:class:`ObjectiveProbes`): ``(x0, bases, keys)``, a start's
+    values (``mpq``) by column, the same as Fractions by name (the variables'
+    and the constraints', two complete maps), and the names as two dicts.  The
+    point and activities are then the start's maps with the entries of their
+    own where a value is no longer the start's own object (the probe's copy of
+    the start's values shares the objects until a pivot moves one; most of a
+    probe's point is the start's), and the duals and reduced costs their
+    nonzero entries over the names (0 elsewhere: a probe's objective is one
+    variable, so most of them are 0), each a :class:`ScaledMap`."""
     if time_limit is not None:
         sx.time_limit = max(time_limit - (time.monotonic() - started), 0.0)
     out = sx.run()
@@ -258,22 +260,11 @@ def _run(model, form, sx: Simplex, pricing, time_limit, started, known=None) -> 
     extra: dict = {}
     if status in (Status.OPTIMAL, Status.UNBOUNDED):
         x, lower, upper = sx.x, form.lower, form.upper
-        x0, f0, _ = known if known is not None else (None, None, None)
 
         def value(j: int, item) -> Fraction:
-            v = x[j]
-            if x0 is not None and v is x0[j]:
-                # (the start's own object, so the start's value: its Fraction as
-                # made for an earlier probe, the same whatever the state)
-                got = f0[j]
-                if got is None:
-                    got = f0[j] = made(j, v, item)
-                return got
-            return made(j, v, item)
-
-        def made(j: int, v, item) -> Fraction:
             # a value resting on one of its own bounds is that bound, already a
             # Fraction in the model: no conversion (the comparison is of mpq's)
+            v = x[j]
             if v and state[j] != 0:
                 lo, hi = lower[j], upper[j]  # (never compare an mpq with None: slow in gmpy2)
                 b = item.lower if (lo is not None and v == lo) else item.upper if (hi is not None and v == hi) else None
@@ -281,8 +272,17 @@ def _run(model, form, sx: Simplex, pricing, time_limit, started, known=None) -> 
                     return b
             return frac(v)
 
-        extra["primal"] = frozen_map({v.name: value(j, v) for j, v in enumerate(model.variables)})
-        extra["activities"] = frozen_map({c.name: value(n + i, c) for i, c in enumerate(model.constraints)})
+        if known is not None:
+            x0, (pbase, abase), (vkeys, ckeys) = known
+            items = model.variables
+            own = {vnames[j]: value(j, items[j]) for j in range(n) if x[j] is not x0[j]}
+            extra["primal"] = ScaledMap(vkeys, own, pbase)
+            items = model.constraints
+            own = {cnames[i]: value(n + i, items[i]) for i in range(m) if x[n + i] is not x0[n + i]}
+            extra["activities"] = ScaledMap(ckeys, own, abase)
+        else:
+            extra["primal"] = frozen_map({v.name: value(j, v) for j, v in enumerate(model.variables)})
+            extra["activities"] = frozen_map({c.name: value(n + i, c) for i, c in enumerate(model.constraints)})
     if status is Status.OPTIMAL:
         y = out.y
         extra["objective"] = frac(sign * out.z + form.constant)
@@ -356,19 +356,24 @@ class ObjectiveProbes:
             sx = Simplex(self._form, pricing=options.get("pricing", "guarded"), hint=start)
             self._state = sx.start_state()
 
-    def _seeded(self, x0: list) -> list:
-        """The start's Fractions by column, from ``start_values`` where given and
-        equal to the start's value (compared exactly), else None (made later)."""
-        f0: list = [None] * len(x0)
-        if self._start_values is not None:
-            primal, activities = self._start_values
-            items = [(j, primal.get(v.name)) for j, v in enumerate(self.model.variables)]
-            n = len(self.model.variables)
-            items += [(n + i, activities.get(c.name)) for i, c in enumerate(self.model.constraints)]
-            for j, got in items:
-                if type(got) is Fraction and j < len(x0) and x0[j] == mpq(got.numerator, got.denominator):
-                    f0[j] = got
-        return f0
+    def _bases(self, x0: list) -> tuple:
+        """The start's point and activities as Fractions by name: the given
+        ``start_values`` map itself when each of its values equals the start's
+        (compared exactly), else a map of those that do and the rest made."""
+        model = self.model
+        n = len(model.variables)
+        given = self._start_values or ({}, {})
+        out = []
+        for at, items, values in ((0, model.variables, given[0]), (n, model.constraints, given[1])):
+            made, whole = {}, True
+            for k, it in enumerate(items):
+                v, got = x0[at + k], values.get(it.name)
+                if type(got) is Fraction and v == mpq(got.numerator, got.denominator):
+                    made[it.name] = got
+                else:
+                    made[it.name], whole = frac(v), False
+            out.append(values if whole else made)
+        return tuple(out)
 
     def solve(self, probe: Model) -> SolveResult:
         base, st = self.model, self._state
@@ -389,8 +394,8 @@ class ObjectiveProbes:
                      time_limit=o.get("time_limit"), listener=o.get("listener"), tableau=o.get("tableau", False),
                      should_stop=o.get("should_stop"), start=st)
         if self._known is None:
-            self._known = (st.x, self._seeded(st.x), (dict.fromkeys(v.name for v in base.variables),
-                                                      dict.fromkeys(c.name for c in base.constraints)))
+            self._known = (st.x, self._bases(st.x), (dict.fromkeys(v.name for v in base.variables),
+                                                     dict.fromkeys(c.name for c in base.constraints)))
         try:
             return _run(probe, form, sx, pricing, o.get("time_limit"), started, self._known)
         finally:

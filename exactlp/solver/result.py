@@ -71,6 +71,15 @@ class ScaledMap(Mapping):
     def __repr__(self) -> str:
         return f"ScaledMap({dict(self)!r})"
 
+    def based_on(self, base: Mapping) -> bool:
+        """Is this ``base`` itself with entries of its own (scale 1)?"""
+        return base is self._base and self._one
+
+    @property
+    def own(self) -> Mapping:
+        """The entries given as its own (read only)."""
+        return MappingProxyType(self._own)
+
     def differing(self, base: Mapping) -> dict:
         """The entries that differ from ``base`` (in key order): only the own
         ones can, when this map is ``base`` itself with a few entries of its own."""
