@@ -282,27 +282,52 @@ def sensitivity(model: Model, progress=None, **solve_options) -> Sensitivity:
                 for i, ri in rho.items():
                     for k, val in by_rows[i]:
                         acc[k] = acc.get(k, ZERO) + ri * val
-            lo_t, hi_t = None, None
+            # d_k - t alpha_pk must keep d_k's sign: >= 0 at lower, <= 0 at upper, = 0
+            # if free.  So t may rise to the least d_k / alpha_pk over the columns
+            # where that limit is >= 0 (at lower with alpha_pk > 0, at upper with
+            # alpha_pk < 0) and fall to minus the least |d_k / alpha_pk| over the
+            # rest; a free column holds t at 0.  The least |limit| of each side is
+            # kept (``near``: up, down), with ``e``: a positive n / d lies strictly
+            # between 2^(bits n - bits d - 1) and 2^(bits n - bits d + 1), so with
+            # ``e`` that difference for |d_k| less that for |acc_k|, |d_k S / acc_k|
+            # lies strictly between 2^(e - 2) S' and 2^(e + 2) S' (S' the same for
+            # the row): a column whose ``e`` is 4 or more above its side's best can
+            # be neither less nor equal, and is passed over without its division
+            # (the rule of the pivot loop's ratio tests)
+            near: list = [None, None]
+            near_e = [0, 0]
+            state = sx.state
             for k in sorted(acc):  # (the order of the nonbasic columns)
                 a = acc[k]
                 if not a or k in fixed:
                     continue
-                # the t at which d_k - t alpha_pk reaches zero (a has alpha_pk's sign)
-                limit = d[k] / a if big_s is None else d[k] * big_s / a
-                st = sx.state[k]
-                # d_k - t a must keep d_k's sign: >= 0 at lower, <= 0 at upper, = 0 if free
+                st = state[k]
                 if st == AT_LOWER:
-                    if a > 0:
-                        hi_t = limit if hi_t is None else min(hi_t, limit)
-                    else:
-                        lo_t = limit if lo_t is None else max(lo_t, limit)
+                    side = 0 if a > 0 else 1
                 elif st == AT_UPPER:
-                    if a > 0:
-                        lo_t = limit if lo_t is None else max(lo_t, limit)
-                    else:
-                        hi_t = limit if hi_t is None else min(hi_t, limit)
+                    side = 1 if a > 0 else 0
                 else:
-                    lo_t = hi_t = q(0)
+                    near = [ZERO, ZERO]  # free: t stays 0 (nothing is less than 0)
+                    continue
+                best = near[side]
+                if best is not None and not best:
+                    continue  # 0 on this side already
+                dk = d[k]
+                if dk:
+                    e = (dk.numerator.bit_length() - dk.denominator.bit_length()  # (bit_length ignores the sign)
+                         - (a.bit_length() - 1 if type(a) is int else
+                            a.numerator.bit_length() - a.denominator.bit_length()))
+                    if best is not None and e >= near_e[side] + 4:
+                        continue
+                    t = dk / a if big_s is None else dk * big_s / a  # (the limit itself, exactly)
+                    if t < 0:
+                        t = -t
+                else:
+                    t, e = ZERO, 0
+                if best is None or t < best:
+                    near[side], near_e[side] = t, e
+            hi_t = near[0]
+            lo_t = None if near[1] is None else -near[1]
         # back to the model's sense: c_model = sign * c_min
         base = frac(sign * cj)
         if sign > 0:
