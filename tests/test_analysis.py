@@ -936,16 +936,23 @@ def _same_but_time(a, b) -> dict:
             if f.name != "seconds" and getattr(a, f.name) != getattr(b, f.name)}
 
 
-def _probe_pairs(model, limit=None):
-    """(probe, shared-start result, own-start result) for each variable and sense."""
+def _held_start(model):
+    """``(r, fixed, start)``: the model's optimum (solved cold), the model with its
+    objective held there, and the optimum's basis as a start for the latter."""
     from exactlp.analysis import fixed_objective_model
     from exactlp.floatlp import BasisHint
-    from exactlp.model import Sense
-    from exactlp.solver import ObjectiveProbes
 
     r = exactlp.solve(model, warm_start=False)
     fixed = fixed_objective_model(model, r.objective)
-    start = BasisHint.of_result(r, len(model.variables), len(model.constraints), added_rows=1)
+    return r, fixed, BasisHint.of_result(r, len(model.variables), len(model.constraints), added_rows=1)
+
+
+def _probe_pairs(model, limit=None):
+    """(probe, shared-start result, own-start result) for each variable and sense."""
+    from exactlp.model import Sense
+    from exactlp.solver import ObjectiveProbes
+
+    r, fixed, start = _held_start(model)
     shared = ObjectiveProbes(fixed, start, warm_start=False)
     for v in model.variables[:limit]:
         for sense in ("minimize", "maximize"):
@@ -974,16 +981,12 @@ def test_probes_told_their_start_values_hand_back_those_that_did_not_move(model)
     # identity; here every entry of a probe that takes no step), a given value that
     # is not the start's is never used (one planted here, off by one), and every
     # result is the probe's own solve, as Fractions
-    from exactlp.analysis import fixed_objective_model
-    from exactlp.floatlp import BasisHint
     from exactlp.model import Sense
     from exactlp.solver import ObjectiveProbes
 
-    r = exactlp.solve(model, warm_start=False)
-    if r.status.value != "optimal":
+    if exactlp.solve(model, warm_start=False).status.value != "optimal":
         return
-    fixed = fixed_objective_model(model, r.objective)
-    start = BasisHint.of_result(r, len(model.variables), len(model.constraints), added_rows=1)
+    r, fixed, start = _held_start(model)
     act = dict(r.activities)
     act[fixed.constraints[-1].name] = fixed.constraints[-1].lower
     primal = dict(r.primal)
