@@ -29,7 +29,31 @@ def _point(p: dict) -> dict:
     return {k: format_number(v) for k, v in p.items()}
 
 
-def conflict_report(model: Model, c) -> dict:
+def conflict_report_size(c) -> tuple[int, int]:
+    """``(numbers, digits)`` of a conflict report of ``c``: the subset's
+    infeasibility certificate (its Farkas multipliers and their right-hand
+    side, or a crossed item's two sides) and a point per member, which holds
+    every variable of the model, so the report grows with the members times
+    the variables."""
+    r = c.result
+    if r.crossed is not None:
+        kind, name = r.crossed
+        item = (c.model.variable(name) if kind == "variable"
+                else next(x for x in c.model.constraints if x.name == name))
+        vals = [v for v in (item.lower, item.upper) if v is not None]
+    else:
+        vals = [*r.farkas_rows.values(), *r.farkas_bounds.values()]
+    size = len(vals) + (0 if r.crossed is not None else 1)
+    for point in c.witnesses.values():
+        size += len(point)
+        vals += point.values()
+    return size, _digits(vals)
+
+
+def conflict_report(model: Model, c, limits=None) -> dict:
+    """The conflict's proofs (see :func:`conflict_report_size` for its size,
+    refused past ``limits`` as the other reports are)."""
+    check_report_size(model, "conflict", conflict_report_size(c), limits)
     doc = _head(model, "conflict")
     doc["constraints"] = list(c.constraints)
     doc["bounds"] = list(c.bounds)
@@ -229,7 +253,8 @@ def check_report_size(model: Model, kind: str, size: tuple[int, int], limits=Non
         raise LimitError(f"a {kind} report of this model ({n} variables, {m} constraints) would hold {numbers:,} "
                          f"exact numbers of about {digits:,} digits in all; the limits are "
                          f"{lim.max_report_numbers:,} numbers and {lim.max_report_digits:,} digits "
-                         f"(print the ranges with --json instead)", file=model.source, field="--output")
+                         f"(without --output, the screen and --json print the claims unchecked)",
+                         file=model.source, field="--output")
 
 
 def sensitivity_report(model: Model, sens, limits=None) -> dict:

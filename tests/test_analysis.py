@@ -178,6 +178,25 @@ def test_a_sensitivity_report_holds_the_numbers_its_size_says():
     assert sensitivity_report_size(sens)[0] == 19 + 11 + 13 == 43
 
 
+def test_a_conflict_report_holds_the_numbers_its_size_says():
+    # the subset's Farkas multipliers and their right-hand side (or a crossed
+    # item's two sides), and a point per member over every variable
+    from exactlp.reports import conflict_report, conflict_report_size
+
+    from .models import KNOWN
+
+    cases = [(k[0], model_from_text(k[1])) for k in KNOWN if k[2] == "infeasible"]
+    cases.append(("grants_overcommitted", exactlp.load(CASES / "grants_overcommitted.yaml")))
+    sizes = {}
+    for name, m in cases:
+        c = conflict(m)
+        assert _number_leaves(conflict_report(m, c)) == conflict_report_size(c)[0], name
+        sizes[name] = conflict_report_size(c)[0]
+    # 5 multipliers and the right-hand side, then 5 members' points over 4 variables
+    assert sizes["grants_overcommitted"] == 6 + 5 * 4 == 26
+    assert sizes["crossed-bounds"] == sizes["crossed-row"] == 3
+
+
 def _number_chars(doc) -> int:
     if isinstance(doc, dict):
         return sum(_number_chars(v) for v in doc.values())
@@ -220,7 +239,7 @@ def test_a_sensitivity_report_past_the_limit_is_refused_before_anything_is_writt
         assert err == (f"exactlp: {CASES / 'grants.yaml'}: --output: a sensitivity report of this model (5 variables, "
                        f"3 constraints) would hold 43 exact numbers of about {digits} digits in all; the limits are "
                        f"{lim.max_report_numbers:,} numbers and {lim.max_report_digits:,} digits "
-                       "(print the ranges with --json instead)\n")
+                       "(without --output, the screen and --json print the claims unchecked)\n")
     monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=43,
                                                                                 max_report_digits=digits))
     code, _, err = cli("sensitivity", CASES / "grants.yaml", "-o", out)
@@ -269,18 +288,23 @@ def test_an_analysis_checks_its_claims_before_printing_them_unless_told_not_to(c
     assert json.loads(cli(command, path, "--json", "--no-check")[1])["check"] == "skipped" and len(seen) == 2
 
 
-@pytest.mark.parametrize("command, claim, size", [
-    ("sensitivity", "Raising the fund limit by 1 raises the objective by 79/10", "43 exact numbers of about 96"),
-    ("ranges", "  coast_west   61/20      61/20   unique optimum", "30 exact numbers of about 108"),
+@pytest.mark.parametrize("command, case, claim, size", [
+    ("sensitivity", "grants", "Raising the fund limit by 1 raises the objective by 79/10",
+     "5 variables, 3 constraints) would hold 43 exact numbers of about 96"),
+    ("ranges", "grants", "  coast_west   61/20      61/20   unique optimum",
+     "5 variables, 3 constraints) would hold 30 exact numbers of about 108"),
+    ("conflict", "grants_overcommitted", "  uplands_floor             1   uplands >= 3/2",
+     "4 variables, 4 constraints) would hold 26 exact numbers of about 62"),
 ])
 def test_an_analysis_whose_proofs_are_past_the_limits_prints_its_claims_unchecked(cli, monkeypatch, tmp_path, command,
-                                                                                   claim, size):
+                                                                                   case, claim, size):
     # the limits guard what a report may hold; on the screen, without -o, the
     # claims are still printed, and the check line says they were not re-derived
-    # (a conflict report has no size limit: its proof is one Farkas certificate)
+    # (a conflict report holds a point per member over every variable: it grows
+    # with the members times the variables, and is limited as the others are)
     import exactlp.limits
 
-    path = CASES / "grants.yaml"
+    path = CASES / f"{case}.yaml"
     assert cli(command, path)[1].rstrip("\n").split("\n")[-2] == CHECKED
     monkeypatch.setattr(exactlp.limits, "DEFAULT_LIMITS", exactlp.limits.Limits(max_report_numbers=20))
     code, out, err = cli(command, path)
@@ -290,9 +314,9 @@ def test_an_analysis_whose_proofs_are_past_the_limits_prints_its_claims_unchecke
     # with -o the report itself would be past the limits: refused, and no file left
     code, out, err = cli(command, path, "-o", tmp_path / "report.yaml")
     assert (code, out) == (2, "") and list(tmp_path.iterdir()) == []
-    assert err == (f"exactlp: {path}: --output: a {command} report of this model (5 variables, 3 constraints) would "
-                   f"hold {size} digits in all; the limits are 20 numbers and 100,000,000 digits (print the ranges "
-                   "with --json instead)\n")
+    assert err == (f"exactlp: {path}: --output: a {command} report of this model ({size} digits in all; the limits "
+                   "are 20 numbers and 100,000,000 digits (without --output, the screen and --json print the claims "
+                   "unchecked)\n")
 
 
 def test_an_analysis_whose_own_proofs_fail_their_check_prints_no_result(cli, monkeypatch):
