@@ -443,8 +443,8 @@ def optimal_face_model(model: Model, r) -> Model:
 
 
 def _face_pins(model: Model, r) -> dict | None:
-    """The pinned items of :func:`optimal_face_model`: ``(is_row, name) -> (b, side,
-    b as mpq)`` with ``b`` the optimum's nonzero reduced cost or dual, ``side`` 1 when
+    """The pinned items of :func:`optimal_face_model`: ``(is_row, name) -> (b,
+    side)`` with ``b`` the optimum's nonzero reduced cost or dual, ``side`` 1 when
     the optimum rests on the lower side only, -1 on the upper side only, 0 on
     both (a fixed column or an equality row, whose multiplier takes any sign).
 
@@ -452,8 +452,6 @@ def _face_pins(model: Model, r) -> dict | None:
     (the sign a multiplier needs on its side for the model's own sense: positive
     at a lower side when minimising); None if not, or if a nonzero multiplier's
     item rests on neither side (then the held row's probes are used)."""
-    from gmpy2 import mpq
-
     out = {}
     signs = set()
     for is_row, items, values, mult in ((False, model.variables, r.primal, r.reduced_costs),
@@ -469,7 +467,7 @@ def _face_pins(model: Model, r) -> dict | None:
             side = 0 if at_lo and at_hi else 1 if at_lo else -1
             if side:
                 signs.add(side * b > 0)
-            out[is_row, it.name] = (b, side, mpq(b.numerator, b.denominator))
+            out[is_row, it.name] = (b, side)
     return out if len(signs) <= 1 else None
 
 
@@ -512,16 +510,14 @@ def _lift_face_end(face_result, probe: Model, pins: dict, r, act: dict):
     so the duals' objective is ``x_k``: no gap (the tests verify each end as a
     whole certificate).
 
-    The lifted result keeps only its own entries and shares the optimum's
-    (:class:`~exactlp.solver.result.ScaledMap`): the point and activities where
-    they differ from the optimum's, the duals and reduced costs where ``u`` and
-    ``r'`` are nonzero; elsewhere they are ``-w`` times the optimum's.  A
-    generated 1,000-row network's 2,510 ends took 2.2 GB as whole results."""
-    from gmpy2 import mpq
-
+    The lifted result keeps only its own entries and shares the optimum's: the
+    point and activities where they differ from the optimum's
+    (:class:`~exactlp.solver.result.ScaledMap`), the duals and reduced costs as
+    ``u`` and ``r'`` (their nonzero entries) plus ``-w`` times the optimum's
+    (:class:`~exactlp.solver.result.OffsetMap`).  A generated 1,000-row
+    network's 2,510 ends took 2.2 GB as whole results."""
     from .solver import Status
-    from .solver.form import frac
-    from .solver.result import ScaledMap, nonzero_entries
+    from .solver.result import OffsetMap, ScaledMap, nonzero_entries
 
     held = probe.constraints[-1]
     x = r.primal
@@ -545,24 +541,22 @@ def _lift_face_end(face_result, probe: Model, pins: dict, r, act: dict):
             pin = pins.get((bool(is_row), name))
             if pin is None or not pin[1]:
                 continue  # not pinned, or pinned with any sign
-            b, side, _ = pin
+            b, side = pin
             if (a.numerator < 0 if sp * side > 0 else a.numerator > 0):  # sigma a < 0: w = 0 breaks this one
                 t = a / b
                 # (w <= t, t < 0, when sigma b > 0; else w >= t, t > 0: the extreme one)
                 if (t < w) if sp * side * b > 0 else (t > w):
                     w = t
-    # Own entries where u (r') is nonzero: u - w b, in mpq and back to a Fraction
-    # where the item is pinned (b != 0).  Elsewhere u = 0, and the entry is -w b.
-    wq = mpq(w.numerator, w.denominator)
-    own = ({}, {})
-    for is_row, got in enumerate(nonzero):
-        mine = own[is_row]
-        for name, a in got.items():
-            pin = pins.get((bool(is_row), name)) if w else None
-            mine[name] = a if pin is None else frac(mpq(a.numerator, a.denominator) - wq * pin[2])
-    own[True][held.name] = w
-    return replace(face_result, duals=ScaledMap(act, own[True], r.duals, -w),
-                   reduced_costs=ScaledMap(x, own[False], r.reduced_costs, -w), **common)
+    # The duals u - w y* and reduced costs r' - w d*, kept as u and r' (their
+    # nonzero entries) with -w and the optimum's maps: each entry is formed when
+    # read, and the report reads u as it is (reports._face_proof), where forming
+    # u - w b for every nonzero entry here and taking it back there cost a
+    # conversion each way.  The held row's dual is w (the optimum's maps have no
+    # such row, so its entry is w + 0).
+    rows = dict(nonzero[1])
+    rows[held.name] = w
+    return replace(face_result, duals=OffsetMap(act, rows, r.duals, -w),
+                   reduced_costs=OffsetMap(x, dict(nonzero[0]), r.reduced_costs, -w), **common)
 
 
 def ranges(model: Model, variables: list[str] | None = None, progress=None, **solve_options) -> Ranges:

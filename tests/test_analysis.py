@@ -1529,6 +1529,32 @@ def test_a_scaled_map_is_the_dict_it_stands_for(keys, data):
         m["z"]
 
 
+@settings(max_examples=300, deadline=None, derandomize=True)
+@given(st.lists(st.sampled_from("abcdefgh"), unique=True, max_size=8), st.data())
+def test_an_offset_map_is_the_dict_it_stands_for(keys, data):
+    # OffsetMap: own[k] + scale * base[k] (each term 0 where its map lacks k);
+    # every way of reading it must give that dict, in key order, as Fractions,
+    # and offsets_from gives back own itself (a copy) for its own base only
+    from exactlp.solver.result import OffsetMap, entries_differing, nonzero_entries, offsets_from
+
+    keys = {k: None for k in keys}
+    base = {k: v for k in [*keys, "held"] if data.draw(st.booleans()) for v in [data.draw(_SMALL)]}
+    own = {k: v for k in keys if data.draw(st.booleans()) for v in [data.draw(_SMALL)]}
+    scale = data.draw(st.sampled_from([F(1), F(0), F(-2, 3), F(5)]))
+    want = {k: own.get(k, F(0)) + scale * base.get(k, F(0)) for k in keys}
+    m = OffsetMap(keys, own, base, scale)
+    assert dict(m) == want and list(m) == list(want) and len(m) == len(want) and m == want
+    assert all(type(m[k]) is F for k in keys) and all(type(v) is F for v in m.values())
+    assert nonzero_entries(m) == {k: v for k, v in want.items() if v} and list(nonzero_entries(m)) == [
+        k for k, v in want.items() if v]
+    other = {k: data.draw(_SMALL) for k in keys}
+    assert entries_differing(m, other) == {k: v for k, v in want.items() if v != other[k]}
+    got = offsets_from(m, base)
+    assert got == own and got is not own and offsets_from(m, dict(base)) is None
+    with pytest.raises(KeyError):
+        m["z"]
+
+
 def test_range_ends_keep_their_own_entries_and_share_the_optimums():
     # each lifted end (analysis._lift_face_end) keeps the entries where it differs
     # from the optimum (point, activities) or where the face's duals are nonzero,
@@ -1536,7 +1562,7 @@ def test_range_ends_keep_their_own_entries_and_share_the_optimums():
     # result (the 1,000-row network's ends took 2.2 GB whole), and each end is
     # still the whole result the verifier accepts
     from exactlp.analysis import ranges
-    from exactlp.solver.result import ScaledMap
+    from exactlp.solver.result import OffsetMap, ScaledMap
 
     from .helpers import network
 
@@ -1546,7 +1572,7 @@ def test_range_ends_keep_their_own_entries_and_share_the_optimums():
     for ends in rg.endpoints.values():
         for probe, got in ends:
             maps = (got.primal, got.activities, got.duals, got.reduced_costs)
-            assert all(type(mp) is ScaledMap for mp in maps)
+            assert [type(mp) for mp in maps] == [ScaledMap, ScaledMap, OffsetMap, OffsetMap]
             kept += sum(len(mp._own) for mp in maps)
             whole += sum(len(mp) for mp in maps)
             assert exactlp.verify(probe, exactlp.build_certificate(probe, got)).valid

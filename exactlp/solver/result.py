@@ -104,18 +104,59 @@ class ScaledMap(Mapping):
         return out
 
 
+class OffsetMap(Mapping):
+    """An immutable map over the keys of ``keys`` whose value at ``k`` is
+    ``own[k] + scale * base[k]`` (each term 0 where its map has no ``k``).
+
+    A range's end lifted from the optimal face has the duals ``u - w y*``: kept
+    as ``u`` (``own``, its few nonzero entries), ``-w`` and the optimum's
+    ``y*``, so the report reads ``u`` as it is (:func:`offsets_from`).  Each
+    value is formed on access, exactly; nothing is stored per key."""
+
+    __slots__ = ("_keys", "_own", "_base", "_scale")
+
+    def __init__(self, keys: Mapping, own: dict, base: Mapping, scale: Fraction) -> None:
+        self._keys, self._own, self._base, self._scale = keys, own, base, scale
+
+    def __getitem__(self, k: str) -> Fraction:
+        got, b = self._own.get(k), self._base.get(k)
+        if got is None and k not in self._keys:
+            raise KeyError(k)
+        v = _ZERO if got is None else got
+        return v + self._scale * b if b and self._scale else v
+
+    def __iter__(self):
+        return iter(self._keys)
+
+    def __len__(self) -> int:
+        return len(self._keys)
+
+    def __repr__(self) -> str:
+        return f"OffsetMap({dict(self)!r})"
+
+    def nonzero(self) -> dict:
+        """The nonzero entries, in key order, each formed once."""
+        if not self._scale:
+            return {k: v for k, v in self._own.items() if v}
+        return {k: v for k in self._keys if (v := self[k])}
+
+
 def offsets_from(m: Mapping, base: Mapping) -> dict | None:
     """``{k: m[k] - scale * base[k]}`` over the own entries of ``m`` when it is a
-    :class:`ScaledMap` of ``base`` (every other entry is ``scale * base[k]``);
-    None for any other map."""
+    :class:`ScaledMap` of ``base`` (every other entry is ``scale * base[k]``),
+    or the own entries themselves for an :class:`OffsetMap` of ``base``; None
+    for any other map.  (A new dict: the caller may change it.)"""
+    if isinstance(m, OffsetMap) and m._base is base:
+        return dict(m._own)
     if not isinstance(m, ScaledMap) or m._base is not base:
         return None
     return {k: v - m._scale * base[k] if k in base else v for k, v in m._own.items()}
 
 
 def nonzero_entries(m: Mapping) -> dict:
-    """``{k: v for k, v in m.items() if v}``, faster on a :class:`ScaledMap`."""
-    return m.nonzero() if isinstance(m, ScaledMap) else {k: v for k, v in m.items() if v}
+    """``{k: v for k, v in m.items() if v}``, faster on a :class:`ScaledMap` or
+    an :class:`OffsetMap`."""
+    return m.nonzero() if isinstance(m, (ScaledMap, OffsetMap)) else {k: v for k, v in m.items() if v}
 
 
 def entries_differing(m: Mapping, base: Mapping) -> dict:
