@@ -1503,54 +1503,39 @@ def test_the_ranges_check_sums_each_end_as_its_definition_does(model, data):
     assert got == want and (got is None or type(got) is F)
 
 
+@pytest.mark.parametrize("kind", ["ScaledMap", "OffsetMap"])
 @settings(max_examples=300, deadline=None, derandomize=True)
 @given(st.lists(st.sampled_from("abcdefgh"), unique=True, max_size=8), st.data())
-def test_a_scaled_map_is_the_dict_it_stands_for(keys, data):
+def test_a_derived_map_is_the_dict_it_stands_for(kind, keys, data):
     # ScaledMap: own[k] where given, else scale * base[k] (0 where base lacks k);
-    # every way of reading it must give that dict, in key order, as Fractions
-    from exactlp.solver.result import ScaledMap, entries_differing, nonzero_entries
-
-    keys = {k: None for k in keys}
-    base = {k: v for k in keys if data.draw(st.booleans()) for v in [data.draw(_SMALL)]}
-    own = {k: v for k in keys if data.draw(st.booleans()) for v in [data.draw(_SMALL)]}
-    scale = data.draw(st.sampled_from([F(1), F(0), F(-2, 3), F(5)]))
-    want = {k: own[k] if k in own else scale * base.get(k, F(0)) for k in keys}
-    m = ScaledMap(keys, own, base, scale)
-    assert dict(m) == want and list(m) == list(want) and len(m) == len(want) and m == want
-    assert all(type(m[k]) is F for k in keys) and all(type(v) is F for v in m.values())
-    assert nonzero_entries(m) == {k: v for k, v in want.items() if v} and list(nonzero_entries(m)) == [
-        k for k, v in want.items() if v]
-    other = {k: data.draw(_SMALL) for k in keys}
-    assert entries_differing(m, other) == {k: v for k, v in want.items() if v != other[k]}
-    if scale == 1:
-        assert entries_differing(m, base | {k: F(7) for k in keys if k not in base}) == {
-            k: v for k, v in want.items() if v != base.get(k, F(7))}
-    with pytest.raises(KeyError):
-        m["z"]
-
-
-@settings(max_examples=300, deadline=None, derandomize=True)
-@given(st.lists(st.sampled_from("abcdefgh"), unique=True, max_size=8), st.data())
-def test_an_offset_map_is_the_dict_it_stands_for(keys, data):
-    # OffsetMap: own[k] + scale * base[k] (each term 0 where its map lacks k);
-    # every way of reading it must give that dict, in key order, as Fractions,
-    # and offsets_from gives back own itself (a copy) for its own base only
-    from exactlp.solver.result import OffsetMap, entries_differing, nonzero_entries, offsets_from
+    # OffsetMap: own[k] + scale * base[k] (each term 0 where its map lacks k).
+    # Every way of reading either must give that dict, in key order, as
+    # Fractions; offsets_from gives own's offsets back for its own base only
+    from exactlp.solver import result
 
     keys = {k: None for k in keys}
     base = {k: v for k in [*keys, "held"] if data.draw(st.booleans()) for v in [data.draw(_SMALL)]}
     own = {k: v for k in keys if data.draw(st.booleans()) for v in [data.draw(_SMALL)]}
     scale = data.draw(st.sampled_from([F(1), F(0), F(-2, 3), F(5)]))
-    want = {k: own.get(k, F(0)) + scale * base.get(k, F(0)) for k in keys}
-    m = OffsetMap(keys, own, base, scale)
+    if kind == "ScaledMap":
+        want = {k: own[k] if k in own else scale * base.get(k, F(0)) for k in keys}
+        offsets = {k: v - scale * base[k] if k in base else v for k, v in own.items()}
+    else:
+        want = {k: own.get(k, F(0)) + scale * base.get(k, F(0)) for k in keys}
+        offsets = own
+    m = getattr(result, kind)(keys, own, base, scale)
     assert dict(m) == want and list(m) == list(want) and len(m) == len(want) and m == want
     assert all(type(m[k]) is F for k in keys) and all(type(v) is F for v in m.values())
-    assert nonzero_entries(m) == {k: v for k, v in want.items() if v} and list(nonzero_entries(m)) == [
-        k for k, v in want.items() if v]
+    assert result.nonzero_entries(m) == {k: v for k, v in want.items() if v} and list(
+        result.nonzero_entries(m)) == [k for k, v in want.items() if v]
     other = {k: data.draw(_SMALL) for k in keys}
-    assert entries_differing(m, other) == {k: v for k, v in want.items() if v != other[k]}
-    got = offsets_from(m, base)
-    assert got == own and got is not own and offsets_from(m, dict(base)) is None
+    assert result.entries_differing(m, other) == {k: v for k, v in want.items() if v != other[k]}
+    if kind == "ScaledMap" and scale == 1:
+        assert result.entries_differing(m, base | {k: F(7) for k in keys if k not in base}) == {
+            k: v for k, v in want.items() if v != base.get(k, F(7))}
+    got = result.offsets_from(m, base)
+    assert got == offsets and got is not own and result.offsets_from(m, dict(base)) is None
+    assert repr(m) == f"{kind}({want!r})"
     with pytest.raises(KeyError):
         m["z"]
 

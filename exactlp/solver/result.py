@@ -35,7 +35,23 @@ def frozen_map(d: Mapping | None) -> Mapping:
 _ZERO = Fraction(0)
 
 
-class ScaledMap(Mapping):
+class _DerivedMap(Mapping):
+    """An immutable map over the keys of ``keys``, its values derived on access
+    from ``own`` entries, a ``base`` map and a ``scale`` (the subclasses say how)."""
+
+    __slots__ = ("_keys", "_own", "_base", "_scale")
+
+    def __iter__(self):
+        return iter(self._keys)
+
+    def __len__(self) -> int:
+        return len(self._keys)
+
+    def __repr__(self) -> str:
+        return f"{type(self).__name__}({dict(self)!r})"
+
+
+class ScaledMap(_DerivedMap):
     """An immutable map over the keys of ``keys`` whose value at ``k`` is
     ``own[k]`` where given, else ``scale * base[k]`` (0 where ``base`` has no
     ``k``; ``base[k]`` itself when ``scale`` is 1).
@@ -45,7 +61,7 @@ class ScaledMap(Mapping):
     optimum's (its duals are ``u - w y*`` with ``u`` short).  The shared values
     are formed on each access, exactly; nothing is stored per key."""
 
-    __slots__ = ("_keys", "_own", "_base", "_scale", "_one")
+    __slots__ = ("_one",)
 
     def __init__(self, keys: Mapping, own: dict, base: Mapping, scale: Fraction = Fraction(1)) -> None:
         self._keys, self._own, self._base, self._scale = keys, own, base, scale
@@ -61,15 +77,6 @@ class ScaledMap(Mapping):
         if b is None or not self._scale:
             return _ZERO
         return b if self._one else self._scale * b
-
-    def __iter__(self):
-        return iter(self._keys)
-
-    def __len__(self) -> int:
-        return len(self._keys)
-
-    def __repr__(self) -> str:
-        return f"ScaledMap({dict(self)!r})"
 
     def based_on(self, base: Mapping) -> bool:
         """Is this ``base`` itself with entries of its own (scale 1)?"""
@@ -104,7 +111,7 @@ class ScaledMap(Mapping):
         return out
 
 
-class OffsetMap(Mapping):
+class OffsetMap(_DerivedMap):
     """An immutable map over the keys of ``keys`` whose value at ``k`` is
     ``own[k] + scale * base[k]`` (each term 0 where its map has no ``k``).
 
@@ -113,7 +120,7 @@ class OffsetMap(Mapping):
     ``y*``, so the report reads ``u`` as it is (:func:`offsets_from`).  Each
     value is formed on access, exactly; nothing is stored per key."""
 
-    __slots__ = ("_keys", "_own", "_base", "_scale")
+    __slots__ = ()
 
     def __init__(self, keys: Mapping, own: dict, base: Mapping, scale: Fraction) -> None:
         self._keys, self._own, self._base, self._scale = keys, own, base, scale
@@ -124,15 +131,6 @@ class OffsetMap(Mapping):
             raise KeyError(k)
         v = _ZERO if got is None else got
         return v + self._scale * b if b and self._scale else v
-
-    def __iter__(self):
-        return iter(self._keys)
-
-    def __len__(self) -> int:
-        return len(self._keys)
-
-    def __repr__(self) -> str:
-        return f"OffsetMap({dict(self)!r})"
 
     def nonzero(self) -> dict:
         """The nonzero entries, in key order, each formed once."""
