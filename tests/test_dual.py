@@ -14,6 +14,7 @@ from fractions import Fraction as F
 import pytest
 from gmpy2 import mpq, mpz
 from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 import exactlp
 from exactlp.io import model_from_text
@@ -23,7 +24,7 @@ from exactlp.solver import rows as rows_module
 from exactlp.solver.events import Pivot, Start
 
 from .conftest import needs_netlib
-from .helpers import always_scaled, network as _network, solve_verified, sympy_solve
+from .helpers import always_scaled, calls_recorded, network as _network, solve_verified, sympy_solve
 from .models import FLIPS, KNOWN
 from .strategies import lp_models
 
@@ -381,6 +382,101 @@ def test_the_plain_dual_ratio_test_skips_only_what_cannot_win():
         fake, {0: mpq(8, 15), 1: mpq(15, 32)}, [mpq(15, 8), mpq(16, 15)], 1, False) == 1
 
 
+def _numpy_row(sums: dict, escale: dict):
+    """A :class:`rows.NumpyRow` as numpy's sums make one: the entries ``sums[j] /
+    escale[j]`` (an ``int`` where the scale is 1) and the same as arrays."""
+    np = pytest.importorskip("numpy")
+    row = rows_module.NumpyRow()
+    cols = sorted(sums)
+    for j in cols:
+        row[j] = sums[j] if escale[j] == 1 else mpq(sums[j], escale[j])
+    row.cols = np.array(cols, dtype=np.int64)
+    row.sums = np.array([sums[j] for j in cols], dtype=np.int64)
+    row.den_bits = (None if all(escale[j] == 1 for j in cols) else
+                    np.array([escale[j].bit_length() - 1 for j in cols], dtype=np.int64))
+    return row
+
+
+# |d_j| and the row's integers straddle powers of two, where a filter at 2^1 or 2^2
+# instead of 2^4 (or a bit length off by one) would pass over the winner
+_MAGNITUDES = [mpq(1), mpq(2), mpq(3), mpq(4), mpq(7, 2), mpq(15, 4), mpq(17, 4), mpq(31, 8), mpq(33, 8),
+               mpq(1, 3), mpq(5, 7), mpq(16), mpq(63, 4), mpq(3, 2), mpq(16, 15), mpq(32, 31), mpq(2**40 + 1, 3)]
+_SUMS = [1, 2, 3, 4, 5, 7, 8, 9, 15, 16, 17, 31, 33, 2**40 - 1, 2**40, 2**62 - 1]
+
+
+@settings(max_examples=400, deadline=None, derandomize=True)
+@given(data=st.data())
+def test_the_ratio_test_by_arrays_chooses_as_the_plain_test(data):
+    # the arrays' filter (DualPhase._ratio_candidates) hands the plain test a part
+    # of the row; the choice must be the one over the whole row, with and without
+    # Bland's rule, for every sign of the row, zero and fixed reduced costs,
+    # fractional scales e_j, and columns that are not candidates at all
+    class Fake(dual_module.DualPhase):  # only the column states are read
+        def __init__(self, state):
+            self.state = state
+
+    n = data.draw(st.integers(1, 14), label="columns")
+    state = data.draw(st.lists(st.sampled_from([0, 1, 2, 3]), min_size=n, max_size=n), label="state")
+    d, sums, escale = [], {}, {}
+    for j in range(n):
+        kind = data.draw(st.sampled_from(["value", "value", "zero", "fixed"]))
+        if state[j] == 0 or kind == "fixed":
+            d.append(None)  # basic or fixed
+        elif kind == "zero" or state[j] == 3:
+            d.append(mpq(0))
+        else:
+            mag = data.draw(st.sampled_from(_MAGNITUDES))
+            d.append(mag if state[j] == 1 else -mag)
+        if state[j] != 0 and data.draw(st.booleans()):
+            sums[j] = data.draw(st.sampled_from(_SUMS)) * data.draw(st.sampled_from([1, -1]))
+            escale[j] = data.draw(st.sampled_from([1, 1, 2, 3, 5, 8, 1024]))
+    row = _numpy_row(sums, escale)
+    s = data.draw(st.sampled_from([1, -1]))
+    fake = Fake(state)
+    saved = dual_module.ARRAY_RATIO_MIN
+    dual_module.ARRAY_RATIO_MIN = 0
+    try:
+        for bland in (False, True):
+            want = dual_module.DualPhase._dual_entering_plain(fake, dict(row), d, s, bland)
+            part = dual_module.DualPhase._ratio_candidates(fake, row, d, s)
+            assert part.items() <= row.items()
+            assert dual_module.DualPhase._dual_entering_plain(fake, row, d, s, bland) == want
+            assert dual_module.DualPhase._dual_entering_plain(fake, part, d, s, bland) == want
+            assert (want < 0) == (not part)
+    finally:
+        dual_module.ARRAY_RATIO_MIN = saved
+
+
+def test_the_ratio_test_by_arrays_keeps_every_zero_ratio():
+    # three candidates with d_j = 0 (ratio 0): Bland's rule takes the lowest
+    # column, whose |a_j| is the smallest; the other rule the largest |a_j|.  A
+    # filter by e_j = bits d_j - bits a_j would have kept the largest |a_j| only.
+    class Fake(dual_module.DualPhase):
+        def __init__(self, state):
+            self.state = state
+
+    fake = Fake([1, 1, 1, 1])
+    row = _numpy_row({0: 1, 1: 2**20, 2: 2**40, 3: 5}, {0: 1, 1: 1, 2: 1, 3: 1})
+    d = [mpq(0), mpq(0), mpq(0), mpq(1, 1000)]
+    assert dual_module.DualPhase._ratio_candidates(fake, row, d, 1) == {0: 1, 1: 2**20, 2: 2**40}
+    assert dual_module.DualPhase._dual_entering_plain(fake, row, d, 1, True) == 0
+    assert dual_module.DualPhase._dual_entering_plain(fake, row, d, 1, False) == 2
+    # the edges of the filter: a window of 2^3 instead of 2^4 loses (128/7) / 7 =
+    # 2.61 (e = 5 - 2 = 3) to (127/64) / (32/63) = 3.91 (e = 0 - 0); found by a
+    # search over small values, a window of 2^2 loses (65/4) / (31/2) = 65/62 to
+    # (63/8) / (33/5) = 105/88, and bit lengths that leave out the scale e_j = 15
+    # lose (65/2) / 15 = 13/6 to (127/64) / (4/15) = 1905/256
+    for (d0, n0, e0), (d1, n1, e1) in [((mpq(127, 64), 32, 63), (mpq(128, 7), 7, 1)),
+                                       ((mpq(63, 8), 33, 5), (mpq(65, 4), 31, 2)),
+                                       ((mpq(127, 64), 4, 15), (mpq(65, 2), 15, 1))]:
+        row = _numpy_row({0: n0, 1: n1}, {0: e0, 1: e1})
+        assert d1 / row[1] < d0 / row[0]
+        assert list(dual_module.DualPhase._ratio_candidates(Fake([1, 1]), row, [d0, d1], 1)) == [0, 1]
+        assert dual_module.DualPhase._dual_entering_plain(Fake([1, 1]), row, [d0, d1], 1, False) == 1
+    # no candidate: every entry has the wrong sign for its bound, or is fixed
+    assert dual_module.DualPhase._ratio_candidates(Fake([2, 2, 1, 1]), row, [mpq(-1), mpq(-1), None, None], 1) == {}
+
+
 @contextlib.contextmanager
 def rows_both_ways():
     """Make every tableau row by numpy's sums (NUMPY_ROW_NONZEROS = 0) and check
@@ -406,6 +502,14 @@ def rows_both_ways():
         met = original(self, p)
         rows_module.SPARSE_ROW_SHARE = share
         assert fast == slow == met
+        row = fast[0]
+        if type(row) is rows_module.NumpyRow and row.cols is not None:  # its arrays are its entries
+            escale = self._int_rows()[1]
+            assert row.cols.tolist() == sorted(row)
+            assert [mpq(v, escale[j]) for j, v in zip(row.cols.tolist(), row.sums.tolist())] == \
+                [row[j] for j in row.cols.tolist()]
+            assert (row.den_bits is None and all(escale[j] == 1 for j in row)) or \
+                row.den_bits.tolist() == [escale[j].bit_length() - 1 for j in row.cols.tolist()]
         assert all(type(v) in (int, type(mpq(0))) for v in fast[0].values())
         assert all(type(v) in (int, type(mpq(0))) for v in met[0].values())
         seen["rows"] += 1
@@ -429,6 +533,95 @@ def test_tableau_rows_by_numpy_are_the_loops_rows(model):
         r = solve_verified(model, warm_start=False)
         assert r.status is exactlp.solve(model, warm_start=False, pricing="bland").status
     assert seen["by_numpy"] == seen["rows"]
+
+
+def _log_text(model) -> str:
+    import io
+
+    from exactlp.audit import AuditLog
+
+    fh = io.StringIO()
+    exactlp.solve(model, warm_start=False, listener=AuditLog(fh, model, {}))
+    return fh.getvalue()
+
+
+@contextlib.contextmanager
+def ratio_by_arrays(on: bool):
+    """Every tableau row by numpy's sums, and the dual ratio test filtered by its
+    arrays (``on``) or run over the whole row."""
+    pytest.importorskip("numpy")
+    saved = rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE, dual_module.ARRAY_RATIO_MIN
+    rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE = 0, 10**9  # (never by the columns met)
+    dual_module.ARRAY_RATIO_MIN = 0 if on else 10**9
+    try:
+        yield
+    finally:
+        rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE, dual_module.ARRAY_RATIO_MIN = saved
+
+
+@st.composite
+def covering_models(draw):
+    """Models whose slack basis is dual feasible and not primal feasible, with
+    no column that has two bounds: minimise ``c^T x``, ``c >= 0``, ``x >= 0`` (a
+    free column now and then, with no cost), rows ``a_i x >= b_i``, ``b_i > 0``,
+    and a few ``<=`` rows; the start goes by the dual phase without flips."""
+    n = draw(st.integers(2, 9), label="columns")
+    m = draw(st.integers(2, 7), label="rows")
+    coef = st.sampled_from([0, 0, 1, 1, 2, 3, -1, F(1, 2), F(3, 4), F(5, 3), 7, 16, F(1, 16)])
+    free = [draw(st.booleans()) and draw(st.booleans()) for _ in range(n)]
+    cost = [0 if free[j] else draw(st.sampled_from([0, 1, 2, 3, F(1, 3), F(5, 2), 8]), label="cost")
+            for j in range(n)]
+    lines = ["minimize: " + " + ".join(f"{c} x{j}" for j, c in enumerate(cost)),
+             "variables:"] + [f"  x{j}: free" if free[j] else f"  x{j}: {{lower: 0}}" for j in range(n)]
+    lines.append("constraints:")
+    for i in range(m):
+        terms = [(draw(coef), j) for j in range(n)]
+        terms = [(a, j) for a, j in terms if a] or [(1, i % n)]
+        sense = ">=" if i < 2 or draw(st.booleans()) else "<="
+        rhs = draw(st.sampled_from([1, 2, 5, F(7, 2), 10, 33])) * (1 if sense == ">=" else 4)
+        text = f"{terms[0][0]} x{terms[0][1]}" + "".join(
+            f" {'-' if a < 0 else '+'} {abs(a)} x{j}" for a, j in terms[1:])
+        lines.append(f"  r{i}: {text} {sense} {rhs}")
+    return model_from_text("\n".join(lines) + "\n")
+
+
+@settings(max_examples=120, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@given(model=covering_models())
+def test_the_ratio_test_by_arrays_takes_the_same_pivots(model):
+    with ratio_by_arrays(False):
+        want = _log_text(model)
+    with ratio_by_arrays(True), calls_recorded(dual_module.DualPhase, "_ratio_candidates") as calls:
+        got = _log_text(model)
+        solve_verified(model, warm_start=False)
+    assert got == want
+    _FILTERED.append(bool(calls))
+
+
+_FILTERED: list[bool] = []
+
+
+def test_the_ratio_test_by_arrays_ran_on_most_covering_models():
+    # (the property test above, run again here to count: the filter must have
+    # had rows to filter, or that test checks nothing)
+    _FILTERED.clear()
+    test_the_ratio_test_by_arrays_takes_the_same_pivots()
+    assert sum(_FILTERED) >= len(_FILTERED) // 2, (sum(_FILTERED), len(_FILTERED))
+
+
+@needs_netlib
+@pytest.mark.parametrize("name", ["BEACONFD", "SCSD1", "SCORPION"])  # (dual pivots, no bound to flip)
+def test_the_ratio_test_by_arrays_takes_the_same_pivots_on_netlib(name):
+    from exactlp.io import read_mps
+
+    from .conftest import NETLIB, netlib_table
+
+    m = read_mps(NETLIB / netlib_table()[name]["file"])
+    with ratio_by_arrays(False):
+        want = _log_text(m)
+    with ratio_by_arrays(True), calls_recorded(dual_module.DualPhase, "_ratio_candidates") as calls:
+        got = _log_text(m)
+    assert got == want and '"rule":"dual"' in got.replace(" ", "")
+    assert calls, "the arrays' filter never ran"
 
 
 def test_tableau_rows_by_numpy_on_the_bound_flip_model():

@@ -80,6 +80,12 @@ ZERO = mpq(0)
 ONE = mpq(1)
 BASIC, AT_LOWER, AT_UPPER, AT_ZERO = 0, 1, 2, 3  # the column states of simplex.py (a test checks)
 
+#: the dual ratio test filters a row made by numpy's sums (rows.NumpyRow) in
+#: arrays when it has at least this many entries (see _ratio_candidates)
+ARRAY_RATIO_MIN = 256
+_POW2 = None  # 2^0 .. 2^62 as a numpy array, made on first use
+_FAR = 1 << 40  # past any difference of bit lengths met (see _ratio_candidates)
+
 #: the dual phase gives up (and the primal two-phase method starts from the slack
 #: basis) after this many pivots per row and column
 DUAL_LIMIT_FACTOR = 10
@@ -598,6 +604,9 @@ class DualPhase:
         the best's can neither be smaller nor tie, and is passed over without its
         division (the same rule as the primal ratio test, ``Simplex._ratio``).
         """
+        if collect is None and near is None and getattr(row, "cols", None) is not None \
+                and len(row) >= ARRAY_RATIO_MIN:
+            row = self._ratio_candidates(row, d, s)
         best, best_t, best_e, best_a = -1, None, 0, None
         pending, ready = collect if collect is not None else (None, None)
         state = self.state
@@ -646,6 +655,51 @@ class DualPhase:
                 elif a > best_a or (a == best_a and j < best):
                     best, best_e, best_a = j, e, a
         return best
+
+    def _ratio_candidates(self, row, d: list, s: int) -> dict:
+        """The entries of a numpy-made row (:class:`.rows.NumpyRow`) that the plain
+        ratio test could choose, as a dictionary it then runs over: the same
+        choice as over the whole row, with the candidates' signs tested and their
+        bit lengths compared in arrays instead of one by one.
+
+        The filter is the bit-length rule of :meth:`_dual_entering_plain`, taken
+        over all candidates at once: with ``e_j`` as there (for ``|a_j| = N_j /
+        E_j``, ``bits N_j - bits E_j``, or ``bits N_j - 1`` when ``E_j = 1``),
+        ``|t_j|`` lies strictly between ``2^(e_j - 2)`` and ``2^(e_j + 2)``, so with
+        ``e*`` the least ``e_j``, a candidate with ``e_j >= e* + 4`` has a ratio
+        above that of the candidate at ``e*``, and can neither be the least nor
+        tie with it.  A candidate with ``d_j = 0`` has the ratio 0: then only those
+        can be chosen.  What is left goes to the plain test, whose ties (to the
+        largest ``|a_j|``, then the lowest index; under Bland's choice the lowest)
+        do not depend on which other entries it meets.
+        """
+        import numpy as np
+
+        global _POW2
+        if _POW2 is None:
+            _POW2 = np.array([1 << k for k in range(63)], dtype=np.int64)
+        state = np.frombuffer(bytes(self.state), dtype=np.int8)[row.cols]  # (states 0..3)
+        sums = row.sums
+        up = sums > 0 if s > 0 else sums < 0  # a_j > 0 (s S alpha_pj, S > 0)
+        ok = (state == AT_ZERO) | np.where(up, state == AT_LOWER, state == AT_UPPER)
+        at = np.flatnonzero(ok)
+        cols = row.cols[at].tolist()
+        bits_a = np.searchsorted(_POW2, np.abs(sums[at]), side="right") - 1  # bits N_j - 1
+        if row.den_bits is not None:
+            bits_a -= row.den_bits[at]
+        # bits n - bits d of each d_j; a fixed column (d_j None) far above every
+        # other, a zero d_j (ratio 0) marked far below
+        bits_d = [x.numerator.bit_length() - x.denominator.bit_length() if x else
+                  (_FAR if x is None else -_FAR) for x in map(d.__getitem__, cols)]
+        bits_d = np.array(bits_d, dtype=np.int64)
+        pick = np.flatnonzero(bits_d == -_FAR)  # ratio 0: only these can be chosen
+        if not len(pick):
+            e = bits_d - bits_a
+            least = int(e.min()) if len(e) else _FAR
+            if least >= _FAR // 2:
+                return {}  # no candidate (every one fixed)
+            pick = np.flatnonzero(e < least + 4)
+        return {j: row[j] for j in map(cols.__getitem__, pick.tolist())}
 
     def _dual_phase(self):
         """Run dual pivots until the basis is primal feasible.

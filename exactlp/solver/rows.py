@@ -53,6 +53,16 @@ def _dual_ints(y):
     return [v.numerator * (dy // v.denominator) if v else 0 for v in y], dy
 
 
+class NumpyRow(dict):
+    """A tableau row (column -> ``S alpha_pj``, nonzeros only) that numpy's sums
+    made, with the same entries as arrays: ``cols`` (the columns, ascending),
+    ``sums`` (the 64-bit integers ``R . (e_j a_j)``, so ``S alpha_pj = sums /
+    e_j``) and ``den_bits`` (``bits(e_j) - 1`` for each, or None when every
+    ``e_j`` is 1).  The arrays are only read; the dictionary is the row."""
+
+    __slots__ = ("cols", "sums", "den_bits")
+
+
 def _row_sums(irows, rho) -> dict[int, int]:
     """``sum_i r_i (e_j a_ij)`` by column ``j``, over the pairs ``(i, r_i)`` of
     ``rho`` (Python integers) and the integer rows of :meth:`TableauRows._int_rows`;
@@ -227,6 +237,8 @@ class TableauRows:
                 if v and state[j] != BASIC:
                     ej = escale[j]
                     out[j] = v if ej == 1 else mpq(v, ej)
+        if fcols and type(out) is NumpyRow:
+            out.cols = None  # (its arrays would not hold the entries added below)
         for j, col in fcols:  # columns kept in fractions (see _int_cols)
             if state[j] != BASIC:
                 v = ZERO
@@ -288,6 +300,8 @@ class TableauRows:
                     b = min(limit.bit_length() - 1, ROW_LIMB_BITS or 63)
                     ids = col_ids.tolist()
                     wholes = whole_mask.tolist()
+                    all_whole = all(wholes)
+                    den_bits = np.array([escale[j].bit_length() - 1 for j in ids], dtype=np.int64)
 
                     def limbs(big, drop, longest, _np=np):
                         # R = sum_k R_k 2^(k b) with signed digits |R_k| < 2^b, so each
@@ -327,11 +341,16 @@ class TableauRows:
                         sums = _np.add.reduceat(vals_a * r[rows_a], starts)
                         nz = sums != 0
                         idx_w = _np.flatnonzero(nz & whole_mask)
-                        out = dict(zip(col_ids[idx_w].tolist(), sums[idx_w].tolist()))
+                        out = NumpyRow(zip(col_ids[idx_w].tolist(), sums[idx_w].tolist()))
                         for k in _np.flatnonzero(nz & ~whole_mask).tolist():
                             j = int(col_ids[k])
                             out[j] = mpq(int(sums[k]), escale[j])
                         out.pop(drop, None)
+                        # the same entries as arrays, for the dual ratio test's filter
+                        # (DualPhase._ratio_candidates)
+                        at = _np.flatnonzero(nz & (col_ids != (-1 if drop is None else drop)))
+                        out.cols, out.sums = col_ids[at], sums[at]
+                        out.den_bits = None if all_whole else den_bits[at]
                         return out
         self._np_rows_cache = (ncol, fn)
         return fn
