@@ -382,16 +382,17 @@ def test_the_plain_dual_ratio_test_skips_only_what_cannot_win():
         fake, {0: mpq(8, 15), 1: mpq(15, 32)}, [mpq(15, 8), mpq(16, 15)], 1, False) == 1
 
 
-def _numpy_row(sums: dict, escale: dict):
+def _numpy_row(sums: dict, escale: dict, by_limbs: bool = False):
     """A :class:`rows.NumpyRow` as numpy's sums make one: the entries ``sums[j] /
-    escale[j]`` (an ``int`` where the scale is 1) and the same as arrays."""
+    escale[j]`` (an ``int`` where the scale is 1) and the same as arrays (the
+    sums as Python integers, as the limbs give them, with ``by_limbs``)."""
     np = pytest.importorskip("numpy")
     row = rows_module.NumpyRow()
     cols = sorted(sums)
     for j in cols:
         row[j] = sums[j] if escale[j] == 1 else mpq(sums[j], escale[j])
     row.cols = np.array(cols, dtype=np.int64)
-    row.sums = np.array([sums[j] for j in cols], dtype=np.int64)
+    row.sums = np.array([sums[j] for j in cols], dtype=object if by_limbs else np.int64)
     row.den_bits = (None if all(escale[j] == 1 for j in cols) else
                     np.array([escale[j].bit_length() - 1 for j in cols], dtype=np.int64))
     return row
@@ -430,7 +431,10 @@ def test_the_ratio_test_by_arrays_chooses_as_the_plain_test(data):
         if state[j] != 0 and data.draw(st.booleans()):
             sums[j] = data.draw(st.sampled_from(_SUMS)) * data.draw(st.sampled_from([1, -1]))
             escale[j] = data.draw(st.sampled_from([1, 1, 2, 3, 5, 8, 1024]))
-    row = _numpy_row(sums, escale)
+    by_limbs = data.draw(st.booleans(), label="by limbs")
+    if by_limbs and data.draw(st.booleans()):  # (past 64 bits, as only limbs give)
+        sums = {j: v * 2**100 + (v > 0) - (v < 0) for j, v in sums.items()}
+    row = _numpy_row(sums, escale, by_limbs)
     s = data.draw(st.sampled_from([1, -1]))
     fake = Fake(state)
     saved = dual_module.ARRAY_RATIO_MIN
@@ -585,12 +589,17 @@ def covering_models(draw):
     return model_from_text("\n".join(lines) + "\n")
 
 
+@pytest.mark.parametrize("limb_bits", [None, 3])  # (3: the rows by limbs, their sums Python integers)
 @settings(max_examples=120, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(model=covering_models())
-def test_the_ratio_test_by_arrays_takes_the_same_pivots(model):
+def test_the_ratio_test_by_arrays_takes_the_same_pivots(model, limb_bits):
     with ratio_by_arrays(False):
         want = _log_text(model)
-    with ratio_by_arrays(True), calls_recorded(dual_module.DualPhase, "_ratio_candidates") as calls:
+    with contextlib.ExitStack() as stack:
+        stack.enter_context(ratio_by_arrays(True))
+        if limb_bits is not None:
+            stack.enter_context(limbs_of(limb_bits))
+        calls = stack.enter_context(calls_recorded(dual_module.DualPhase, "_ratio_candidates"))
         got = _log_text(model)
         solve_verified(model, warm_start=False)
     assert got == want
@@ -604,7 +613,7 @@ def test_the_ratio_test_by_arrays_ran_on_most_covering_models():
     # (the property test above, run again here to count: the filter must have
     # had rows to filter, or that test checks nothing)
     _FILTERED.clear()
-    test_the_ratio_test_by_arrays_takes_the_same_pivots()
+    test_the_ratio_test_by_arrays_takes_the_same_pivots(limb_bits=None)
     assert sum(_FILTERED) >= len(_FILTERED) // 2, (sum(_FILTERED), len(_FILTERED))
 
 

@@ -684,7 +684,10 @@ class DualPhase:
         ok = (state == AT_ZERO) | np.where(up, state == AT_LOWER, state == AT_UPPER)
         at = np.flatnonzero(ok)
         cols = row.cols[at].tolist()
-        bits_a = np.searchsorted(_POW2, np.abs(sums[at]), side="right") - 1  # bits N_j - 1
+        if sums.dtype == object:  # (Python integers: the row went by limbs)
+            bits_a = np.array([abs(v).bit_length() - 1 for v in sums[at].tolist()], dtype=np.int64)
+        else:
+            bits_a = np.searchsorted(_POW2, np.abs(sums[at]), side="right") - 1  # bits N_j - 1
         if row.den_bits is not None:
             bits_a -= row.den_bits[at]
         # bits n - bits d of each d_j; a fixed column (d_j None) far above every

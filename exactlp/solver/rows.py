@@ -56,9 +56,10 @@ def _dual_ints(y):
 class NumpyRow(dict):
     """A tableau row (column -> ``S alpha_pj``, nonzeros only) that numpy's sums
     made, with the same entries as arrays: ``cols`` (the columns, ascending),
-    ``sums`` (the 64-bit integers ``R . (e_j a_j)``, so ``S alpha_pj = sums /
-    e_j``) and ``den_bits`` (``bits(e_j) - 1`` for each, or None when every
-    ``e_j`` is 1).  The arrays are only read; the dictionary is the row."""
+    ``sums`` (the integers ``R . (e_j a_j)``, so ``S alpha_pj = sums / e_j``: 64-bit,
+    or Python integers in an object array when the row went by limbs) and
+    ``den_bits`` (``bits(e_j) - 1`` for each, or None when every ``e_j`` is 1).
+    The arrays are only read; the dictionary is the row."""
 
     __slots__ = ("cols", "sums", "den_bits")
 
@@ -320,11 +321,15 @@ class TableauRows:
                             part = _np.add.reduceat(vals_a * r[rows_a], starts).tolist()
                             total = part if total is None else [t + (x << sh) if x else t
                                                                 for t, x in zip(total, part)]
-                        out = {}
-                        for j, v, w in zip(ids, total, wholes):
-                            if v:
+                        out = NumpyRow()
+                        at = []
+                        for k, (j, v, w) in enumerate(zip(ids, total, wholes)):
+                            if v and j != drop:
                                 out[j] = v if w else mpq(v, escale[j])
-                        out.pop(drop, None)
+                                at.append(k)
+                        # (as in fn below, with the sums as Python integers)
+                        out.cols, out.sums = col_ids[at], _np.array([total[k] for k in at], dtype=object)
+                        out.den_bits = None if all_whole else den_bits[at]
                         return out
 
                     forced = ROW_LIMB_BITS is not None
