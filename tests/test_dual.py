@@ -670,6 +670,43 @@ def test_tableau_row_sums_past_64_bits_go_by_limbs_then_by_the_loops(monkeypatch
     assert fast([mpq(0)] * sx.m, sx.head[0]) == {}
 
 
+@pytest.mark.parametrize("coefs, built", [
+    ([2**60] + [1] * 7, True),  # longest column times largest entry 2^63: summed in Python
+    ([2**61, 3], True),  # summed in 64 bits
+    ([2**61 + 1, 2**61 + 1], False),  # 2^62 + 2, summed in 64 bits
+    ([2**61 + 1] * 4, False),  # 2^63 + 4: would wrap round in 64 bits, summed in Python
+    ([2**62], False),
+    ([2**64 + 1], False)])  # (past 64 bits: not put in an array at all)
+def test_numpys_sums_are_built_only_when_every_column_sum_fits(monkeypatch, coefs, built):
+    # numpy's sums are exact when max |R_i| times the largest column sum of
+    # |e_j a_ij| is below 2^63 (_np_rows), so that column sum must itself be
+    # exact: here column x holds ``coefs`` and y short integers, and x's sum
+    # decides whether the sums are built (under 2^62) or the loops make the rows
+    pytest.importorskip("numpy")
+    monkeypatch.setattr(rows_module, "NUMPY_ROW_NONZEROS", 0)
+    from exactlp.solver.form import build_form
+
+    rows = [f"  r{i}: {c} x + {i + 1} y >= {i + 1}" for i, c in enumerate(coefs)]
+    m = model_from_text("minimize: x + y\nvariables: {x: {lower: 0}, y: {lower: 0}}\nconstraints:\n"
+                        + "\n".join(rows) + "\n")
+    sx = simplex_module.Simplex(build_form(m), pricing="guarded")
+    fast = sx._np_rows()
+    assert (fast is not None) is built
+    if built:
+        irows, escale, _ = sx._int_rows()
+        r = [3, -5, 7, 11, -13, 17, 19, -23][:len(coefs)]
+        want: dict = {}
+        for i, (plus, minus, other) in enumerate(irows):
+            for j in plus:
+                want[j] = want.get(j, 0) + r[i]
+            for j in minus:
+                want[j] = want.get(j, 0) - r[i]
+            for j, a in other:
+                want[j] = want.get(j, 0) + r[i] * a
+        want = {j: (v if escale[j] == 1 else mpq(v, escale[j])) for j, v in want.items() if v}
+        assert fast(r, -1) == want and want[0] == sum(a * b for a, b in zip(r, coefs))
+
+
 @pytest.mark.parametrize("bits", [3, 17])
 @settings(max_examples=40, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(model=lp_models(max_vars=6, max_rows=6))

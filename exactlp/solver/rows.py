@@ -279,21 +279,35 @@ class TableauRows:
             except ImportError:  # the float extra's library: without it, the loops below
                 np = None
             if np is not None:
-                entries = []
+                # the nonzeros by (column, row): gathered by rows, then sorted in arrays
+                cs: list[int] = []
+                rs: list[int] = []
+                vs: list[int] = []
                 for i, (plus, minus, other) in enumerate(rows):
-                    entries.extend((j, i, 1) for j in plus)
-                    entries.extend((j, i, -1) for j in minus)
-                    entries.extend((j, i, a) for j, a in other)
-                entries.sort()
-                colsum: dict[int, int] = {}
-                for j, _, a in entries:
-                    colsum[j] = colsum.get(j, 0) + abs(a)
-                top = max(colsum.values(), default=0)  # the largest column sum of |e_j a_ij|
-                if entries and top < 2**62:
-                    cols_a = np.array([j for j, _, _ in entries], dtype=np.int64)
-                    rows_a = np.array([i for _, i, _ in entries], dtype=np.int64)
-                    vals_a = np.array([a for _, _, a in entries], dtype=np.int64)
+                    k = len(plus) + len(minus) + len(other)
+                    cs.extend(plus)
+                    cs.extend(minus)
+                    cs.extend(j for j, _ in other)
+                    rs.extend([i] * k)
+                    vs.extend([1] * len(plus))
+                    vs.extend([-1] * len(minus))
+                    vs.extend(a for _, a in other)
+                big = max(map(abs, vs), default=0)
+                top = None
+                if vs and big < 2**62:
+                    order = np.lexsort((np.array(rs, dtype=np.int64), np.array(cs, dtype=np.int64)))
+                    cols_a = np.array(cs, dtype=np.int64)[order]
+                    rows_a = np.array(rs, dtype=np.int64)[order]
+                    vals_a = np.array(vs, dtype=np.int64)[order]
                     starts = np.flatnonzero(np.r_[True, cols_a[1:] != cols_a[:-1]])
+                    most = int(np.diff(np.r_[starts, len(cols_a)]).max())  # the longest column
+                    if big * most < 2**63:  # the column sums of |e_j a_ij| exact in 64 bits
+                        top = int(np.add.reduceat(np.abs(vals_a), starts).max())
+                    else:
+                        top = max(sum(map(abs, vals_a[a:b].tolist()))
+                                  for a, b in zip(starts.tolist(), starts.tolist()[1:] + [len(vals_a)]))
+                # top: the largest column sum of |e_j a_ij|
+                if top is not None and top < 2**62:
                     col_ids = cols_a[starts]
                     whole_mask = np.array([escale[j] == 1 for j in col_ids.tolist()])
                     limit = (2**63 - 1) // max(top, 1)
