@@ -184,6 +184,29 @@ def test_phase_ends_only_on_an_exact_proof(monkeypatch):
     assert r.objective == _exact_path(model).objective and r.pivots_phase2 > 0
 
 
+def test_a_start_at_the_optimum_is_priced_once(monkeypatch):
+    # a solve from its own optimal basis (as each range probe's is): the exact
+    # reduced costs are priced, the short ones made from them find no improving
+    # column, and the exact ones, with no pivot since, are the proof as they
+    # are: one btran of the duals, not a second for the same values
+    from exactlp.floatlp import BasisHint
+
+    monkeypatch.setattr(steer_module, "STEER_BITS", 0)
+    monkeypatch.setattr(simplex_module.Simplex, "check_updates", True)
+    model = MODELS[1]
+    first = solve_verified(model, warm_start=False)
+    own = BasisHint.of_result(first, len(model.variables), len(model.constraints))
+    entered = _count(monkeypatch, "_steer_enter")
+    priced: list = []
+    plain = simplex_module.Simplex._duals_scaled
+    monkeypatch.setattr(simplex_module.Simplex, "_duals_scaled", lambda self, c: priced.append(1) or plain(self, c))
+    again = solve_verified(model, start_basis=own)
+    assert again.iterations == 0 and again.objective == first.objective
+    assert len(entered) == 1 and len(priced) == 1
+    assert again.duals == first.duals and again.reduced_costs == first.reduced_costs
+    assert all(type(v) is F for v in (*again.duals.values(), *again.reduced_costs.values()))
+
+
 def test_dead_zone_is_not_improving():
     # a short value that rounds to zero on the grid of 2^SNAP units (under half a
     # unit) is read as zero; past it, by its sign; ties of scores to the larger

@@ -1251,6 +1251,7 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
                    and not (self.warm is not None and self.warm.accepted))
         y: list[mpq] | None = None
         fresh = None  # (D y, D) while d holds reduced costs priced afresh from it (no pivot since)
+        afresh = False  # d holds reduced costs priced afresh (scaled or not), no pivot since
         # steered: while the factors are long, the reduced costs kept short (sd, in
         # fixed point) instead of exact (see steer.py); never under Bland's rule,
         # partial pricing or the tableau's display
@@ -1272,6 +1273,7 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
                 y, ys = self._duals_scaled(cost)  # current until the next pivot
                 d = self._reduced_costs(cost, y, ys)
                 fresh = ys
+                afresh = True
                 if self.check_updates:
                     assert y == self._duals(cost) and d == self._reduced_costs(cost, y), "scaled pricing drifted"
                 self.scores = None  # computed when first needed (not at all at an optimal start)
@@ -1307,8 +1309,14 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
             if first < 0 and sd is not None:
                 # the short values find no improving column: the proof is exact,
                 # from reduced costs computed afresh (and should one improve after
-                # all, under the dead zone, the phase ends on exact values)
-                sd = d = None
+                # all, under the dead zone, the phase ends on exact values).  With
+                # no pivot since d was priced afresh (afresh), d is those exact
+                # values still (the short ones were copied from it, and a pivot
+                # would have updated only them), so it is kept: a range probe
+                # that starts at its optimum pays one btran, not two
+                sd = None
+                if not afresh:
+                    d = None
                 steer = False
                 continue
             if first < 0:
@@ -1323,6 +1331,7 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
                                    for j, dj in enumerate(d)), "fixed columns' reduced costs wrong"
                 return Outcome("optimal", z, list(y) if y is not None else self._duals(cost), d=d)
             fresh = None  # a pivot follows: d is updated from here, not priced afresh
+            afresh = False
             if pricing == "dantzig" or (pricing in ("hybrid", "guarded") and not bland_mode):
                 q, rule = best, ("partial dantzig" if partial else "devex" if pricing == "guarded" else "dantzig")
             else:
