@@ -164,6 +164,62 @@ def _clip(lo, hi, value):
     return Interval(None if lo is None else value + lo, None if hi is None else value + hi)
 
 
+_ZERO_MARK = -(1 << 40)  # (below any difference of bit lengths met)
+
+
+def _limit_arrays(state: list, fixed: frozenset, d: list):
+    """What :func:`_limit_candidates` reads of the optimum, made once: the
+    column states, a mask of the fixed columns, and for each ``d_k`` its ``bits
+    n - bits d`` (``_ZERO_MARK`` for 0; the reduced costs do not change while
+    the limits are found, so these do not either)."""
+    import numpy as np
+
+    fixed_mask = np.zeros(len(state), dtype=bool)
+    fixed_mask[sorted(fixed)] = True
+    bits_d = np.array([dk.numerator.bit_length() - dk.denominator.bit_length() if dk else _ZERO_MARK
+                       for dk in d], dtype=np.int64)
+    return np.frombuffer(bytes(state), dtype=np.int8), fixed_mask, bits_d
+
+
+def _limit_candidates(acc, arrays) -> list[int]:
+    """The columns of a basic column's tableau row (a :class:`.solver.rows.NumpyRow`)
+    that can decide its cost limits, in increasing order: the same limits come
+    from these as from the whole row.
+
+    The limit of each side is the least ``|d_k / alpha_pk|`` over its columns
+    (up: at lower with ``alpha_pk > 0`` or at upper with ``alpha_pk < 0``; down:
+    the rest), so only the values matter, not which column gives them.  A
+    movable free column puts both limits at 0: it alone is kept.  Else, with
+    ``e_k = bits |d_k| - bits |alpha_pk|`` as in the loop (a ratio lies strictly
+    between ``2^(e_k - 2)`` and ``2^(e_k + 2)``), only the columns within 4 of
+    the side's least ``e_k`` can give its limit: the loop's own skipping rule,
+    taken over the side at once.  A zero ``d_k`` (limit 0) is marked far below
+    any ``e_k``, so on a side that has one only zeros are kept."""
+    import numpy as np
+
+    from .solver.rows import entry_bits
+    from .solver.simplex import AT_LOWER, AT_UPPER, AT_ZERO
+
+    states, fixed_mask, bits_d = arrays
+    cols = acc.cols
+    movable = ~fixed_mask[cols]
+    st = states[cols]
+    free = np.flatnonzero(movable & (st == AT_ZERO))
+    if len(free):
+        return [int(cols[free[0]])]
+    pos = acc.sums > 0
+    lower, upper = st == AT_LOWER, st == AT_UPPER
+    bits_a = entry_bits(acc)
+    keep: list[int] = []
+    for side in (movable & ((lower & pos) | (upper & ~pos)), movable & ((lower & ~pos) | (upper & pos))):
+        at = np.flatnonzero(side)
+        if not len(at):
+            continue
+        e = bits_d[cols[at]] - bits_a[at]
+        keep.extend(at[e < e.min() + 4].tolist())
+    return sorted(cols[keep].tolist())
+
+
 def sensitivity(model: Model, progress=None, **solve_options) -> Sensitivity:
     """Exact ranges over which the optimal basis stays optimal (costs) or feasible (bounds).
 
@@ -241,6 +297,7 @@ def sensitivity(model: Model, progress=None, **solve_options) -> Sensitivity:
     # columns thousands; the integer sums, over every nonbasic column, were 10-50%
     # slower on SC205, BANDM and a 400-row network)
     wide = sum(map(len, form.cols)) >= NUMPY_ROW_NONZEROS and sx._np_rows() is not None
+    by_arrays = _limit_arrays(sx.state, fixed, d) if wide else None
     by_rows: list[list] = [[] for _ in range(m)]  # the movable nonbasic columns' entries, by row
     if any(sx.state[j] == BASIC for j in range(n)):
         for i in range(m):
@@ -297,7 +354,8 @@ def sensitivity(model: Model, progress=None, **solve_options) -> Sensitivity:
             near: list = [None, None]
             near_e = [0, 0]
             state = sx.state
-            for k in sorted(acc):  # (the order of the nonbasic columns)
+            arrays = getattr(acc, "cols", None) is not None
+            for k in (_limit_candidates(acc, by_arrays) if arrays else sorted(acc)):  # (nonbasic order)
                 a = acc[k]
                 if not a or k in fixed:
                     continue

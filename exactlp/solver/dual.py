@@ -75,6 +75,7 @@ from . import steer as steer_mod
 from .basis import EtaBasis
 from .events import Pivot, Start
 from .form import frac
+from .rows import entry_bits
 
 ZERO = mpq(0)
 ONE = mpq(1)
@@ -83,7 +84,6 @@ BASIC, AT_LOWER, AT_UPPER, AT_ZERO = 0, 1, 2, 3  # the column states of simplex.
 #: the dual ratio test filters a row made by numpy's sums (rows.NumpyRow) in
 #: arrays when it has at least this many entries (see _ratio_candidates)
 ARRAY_RATIO_MIN = 256
-_POW2 = None  # 2^0 .. 2^62 as a numpy array, made on first use
 _FAR = 1 << 40  # past any difference of bit lengths met (see _ratio_candidates)
 
 #: the dual phase gives up (and the primal two-phase method starts from the slack
@@ -675,21 +675,13 @@ class DualPhase:
         """
         import numpy as np
 
-        global _POW2
-        if _POW2 is None:
-            _POW2 = np.array([1 << k for k in range(63)], dtype=np.int64)
         state = np.frombuffer(bytes(self.state), dtype=np.int8)[row.cols]  # (states 0..3)
         sums = row.sums
         up = sums > 0 if s > 0 else sums < 0  # a_j > 0 (s S alpha_pj, S > 0)
         ok = (state == AT_ZERO) | np.where(up, state == AT_LOWER, state == AT_UPPER)
         at = np.flatnonzero(ok)
         cols = row.cols[at].tolist()
-        if sums.dtype == object:  # (Python integers: the row went by limbs)
-            bits_a = np.array([abs(v).bit_length() - 1 for v in sums[at].tolist()], dtype=np.int64)
-        else:
-            bits_a = np.searchsorted(_POW2, np.abs(sums[at]), side="right") - 1  # bits N_j - 1
-        if row.den_bits is not None:
-            bits_a -= row.den_bits[at]
+        bits_a = entry_bits(row, at)
         # bits n - bits d of each d_j; a fixed column (d_j None) far above every
         # other, a zero d_j (ratio 0) marked far below
         bits_d = [x.numerator.bit_length() - x.denominator.bit_length() if x else

@@ -64,6 +64,31 @@ class NumpyRow(dict):
     __slots__ = ("cols", "sums", "den_bits")
 
 
+_POW2 = None  # 2^0 .. 2^62 as a numpy array, made on first use
+
+
+def entry_bits(row: NumpyRow, at=None):
+    """For the entries ``at`` (positions in ``row.cols``; all when None) of a
+    :class:`NumpyRow`: ``bits N - 1`` for a whole entry ``N``, ``bits N - bits
+    e_j`` for ``N / e_j``, as a numpy array.  ``|S alpha_pj|`` lies in ``[2^b,
+    2^(b + 1))`` or ``(2^(b - 1), 2^(b + 1))`` for its ``b``, the bounds that the
+    ratio tests' bit-length rule reads (no float: the powers of two are
+    searched)."""
+    import numpy as np
+
+    global _POW2
+    if _POW2 is None:
+        _POW2 = np.array([1 << k for k in range(63)], dtype=np.int64)
+    sums = row.sums if at is None else row.sums[at]
+    if sums.dtype == object:  # (Python integers: the row went by limbs)
+        bits = np.array([abs(v).bit_length() - 1 for v in sums.tolist()], dtype=np.int64)
+    else:
+        bits = np.searchsorted(_POW2, np.abs(sums), side="right") - 1
+    if row.den_bits is not None:
+        bits -= row.den_bits if at is None else row.den_bits[at]
+    return bits
+
+
 def _row_sums(irows, rho) -> dict[int, int]:
     """``sum_i r_i (e_j a_ij)`` by column ``j``, over the pairs ``(i, r_i)`` of
     ``rho`` (Python integers) and the integer rows of :meth:`TableauRows._int_rows`;
