@@ -227,6 +227,57 @@ def test_log16_is_monotone_and_close():
         assert 0 <= 16 * math.log2(v) - _log16(v) + 1e-9 <= 16 * 0.08
 
 
+def test_the_devex_update_skips_only_weights_that_cannot_grow():
+    # Simplex._update_reduced_costs takes no logarithm of (D alpha_pj) / (den S)
+    # where wq + 32 (2 - bits S + bits n - bits den) is at most w_j: that bound
+    # must lie above 2 _log16_of(n, den S) for every n, den, S, including each
+    # side of a power of two (where an off-by-one in a bit length would break it)
+    import random
+
+    from gmpy2 import mpz
+
+    from exactlp.solver.pricing import _log16_of
+
+    rng = random.Random(20261204)
+    edges = [1, 2, 3, 4, 7, 8, 9, 255, 256, 257, 2**64 - 1, 2**64, 2**64 + 1]
+    for _ in range(4000):
+        n, den, big_s = (rng.choice(edges) if rng.random() < 0.5 else rng.getrandbits(rng.randint(1, 200)) + 1
+                         for _ in range(3))
+        bound = 32 * (2 - mpz(big_s).bit_length() + n.bit_length() - den.bit_length())
+        assert 2 * _log16_of(mpz(n), mpz(den) * big_s) < bound
+        assert 2 * _log16_of(mpz(n), mpz(den)) < 32 * (1 + n.bit_length() - den.bit_length())
+
+
+@pytest.mark.parametrize("name", ["KNOWN", "klee_minty"])
+def test_the_devex_update_takes_the_same_pivots_with_its_skips(monkeypatch, name):
+    # the skipped logarithms change no weight, so no pivot: the same logs
+    import io
+
+    from exactlp.audit import AuditLog
+    from exactlp.solver import simplex as simplex_module
+
+    models = [model_from_text(text) for text in
+              ([text for _, text, *_ in KNOWN] if name == "KNOWN" else [klee_minty(k) for k in (4, 6, 8)])]
+    plain = simplex_module._log16_of
+    calls = {False: 0, True: 0}
+
+    def log(m, skip: bool) -> str:
+        def counted(n, d):
+            calls[skip] += 1
+            return plain(n, d)
+        with monkeypatch.context() as mp:
+            mp.setattr(simplex_module, "WEIGHT_SKIP", skip)
+            mp.setattr(simplex_module, "_log16_of", counted)
+            fh = io.StringIO()
+            exactlp.solve(m, warm_start=False, listener=AuditLog(fh, m, {}))
+        return fh.getvalue()
+
+    for m in models:
+        assert log(m, True) == log(m, False)
+    # (some were skipped among the known models; on the cube every weight grows)
+    assert calls[True] < calls[False] if name == "KNOWN" else calls[True] == calls[False] > 0
+
+
 def test_log16_depends_on_the_value_only():
     # the devex update reads alpha_pj as (D alpha_pj) / D without reducing it:
     # every fraction equal to v must give the same integer, or the pivot path

@@ -113,6 +113,7 @@ ONE = mpq(1)
 ONE_Z = mpz(1)
 
 BASIC, AT_LOWER, AT_UPPER, AT_ZERO = 0, 1, 2, 3
+WEIGHT_SKIP = True
 
 PRICING_RULES = ("guarded", "hybrid", "bland", "dantzig")
 #: under the guarded rule, Bland's rule takes over after this many degenerate
@@ -898,14 +899,25 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
             w = self.weights
             wq = w[q] - 2 * _log16(alpha_pq)
             log16 = _log16_of
+            # _log16_of(n, D) < 16 (bits n - bits D + 1), and bits(den S) >= bits den +
+            # bits S - 1: so where wq + 32 (bits n - bits den - bits S + 2) is at most
+            # w_j, the new weight cannot pass w_j and its logarithm is not taken
+            # (the same weights; the division it saves is most of the logarithm)
+            top = wq + 32 * (2 - (1 if scale is None else scale.bit_length()))
             for j, v in acc.items():
                 dj = d[j]
                 if dj is not None and v:
                     dj = d[j] = dj - step * v
                     n = v.numerator
-                    wj = wq + 2 * log16(-n if n < 0 else n, v.denominator if scale is None else v.denominator * scale)
-                    if wj > w[j]:
-                        w[j] = wj
+                    if n < 0:
+                        n = -n
+                    den = v.denominator
+                    if WEIGHT_SKIP and top + 32 * (n.bit_length() - den.bit_length()) <= w[j]:
+                        pass
+                    else:
+                        wj = wq + 2 * log16(n, den if scale is None else den * scale)
+                        if wj > w[j]:
+                            w[j] = wj
                     if dj:
                         n = dj.numerator
                         score[j] = 2 * log16(-n if n < 0 else n, dj.denominator) - w[j]
