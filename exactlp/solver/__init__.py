@@ -14,6 +14,7 @@ import threading
 import time
 from dataclasses import replace
 from fractions import Fraction
+from itertools import compress
 
 from gmpy2 import mpq
 
@@ -22,7 +23,7 @@ from ..model import Model, Sense
 from .events import Finish, PhaseEnd, Pivot, Start, WarmStart
 from .form import ZERO, build_form, frac
 from .result import ScaledMap, SolveResult, Status, frozen_map
-from .simplex import PRICING_RULES, REFINE_MAX_ROWS, Simplex
+from .simplex import AT_UPPER, PRICING_RULES, REFINE_MAX_ROWS, Simplex
 
 #: the interpreter's switch interval (seconds) while work is done beside HiGHS
 FILL_SWITCH_INTERVAL = 0.0002
@@ -238,10 +239,13 @@ def _run(model, form, sx: Simplex, pricing, time_limit, started, known=None) -> 
         sx.time_limit = max(time_limit - (time.monotonic() - started), 0.0)
     out = sx.run()
     n, m, sign = form.n, form.m, form.sign
-    vnames = [v.name for v in model.variables]
-    cnames = [c.name for c in model.constraints]
+    if known is not None:  # (the start's names, in order: a copy in C instead of a loop)
+        vnames, cnames = list(known[2][0]), list(known[2][1])
+    else:
+        vnames = [v.name for v in model.variables]
+        cnames = [c.name for c in model.constraints]
     state, labels, kinds = sx.state, sx.labels, sx.kinds
-    up = tuple(j for j in range(form.ncols) if state[j] == 2)
+    up = tuple(compress(range(form.ncols), map(AT_UPPER.__eq__, state)))  # (the loop in C)
     common = dict(
         basis=tuple(labels[c] for c in sx.head if kinds[c] != "artificial"),
         at_upper=tuple(labels[j] for j in up if not _fixed(sx.lower[j], sx.upper[j])),
@@ -350,6 +354,7 @@ class ObjectiveProbes:
         self.model, self.start, self.options = model, start, options
         self._state = None
         self._known = None  # the start's values and their Fractions (see _run)
+        self._index = None  # the variables' columns by name
         self._start_values = start_values
         self._form = build_form(model)
         if self._form.crossed is None:
@@ -381,7 +386,9 @@ class ObjectiveProbes:
             return solve(probe, start_basis=self.start, **self.options)
         started = time.monotonic()
         f = self._form
-        index = {v.name: j for j, v in enumerate(probe.variables)}
+        if self._index is None:  # (the probes share the start's variables: made once)
+            self._index = {v.name: j for j, v in enumerate(base.variables)}
+        index = self._index
         sign = 1 if probe.sense is Sense.MINIMIZE else -1
         cost = [ZERO] * f.ncols
         for name, c in probe.objective:
