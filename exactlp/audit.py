@@ -7,8 +7,11 @@ phase, exact objective).  Exact numbers are strings ``p/q`` or integers
 written as strings, never JSON floats.  Keys are sorted and no timing is
 written unless asked for (``timestamps=True`` adds wall-clock fields to the
 header and the closing record only), so the same model and settings give a
-byte-identical log.  Every record is flushed as it is written: a killed run
-leaves a log readable up to its last step.
+byte-identical log.  Every record is flushed as it is written (one write to
+the file each): a killed run leaves a log readable up to its last step.  A run
+killed outright (SIGKILL) can leave its last record cut short, with no newline
+after it: Linux ends a write early at a page boundary when a fatal signal is
+pending.  Every line before it is whole.
 """
 
 from __future__ import annotations

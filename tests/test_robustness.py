@@ -87,8 +87,16 @@ def test_sigkill_leaves_a_log_readable_to_the_last_pivot(tmp_path, long_model):
     wait_for_pivots(partial, 50)
     p.kill()
     p.wait(timeout=30)
-    lines = partial.read_text().splitlines()
-    records = [json.loads(line) for line in lines]  # every line is a whole record
+    text = partial.read_text()
+    lines = text.split("\n")
+    # every line is a whole record but the last, which SIGKILL can cut: Linux
+    # ends a write to a file early at a page boundary when a fatal signal is
+    # pending (seen here once: the file cut at 51 x 4096 bytes, within a record);
+    # then the file does not end with a newline, and what is cut is left out
+    cut = lines.pop()
+    assert (cut == "") == text.endswith("\n")
+    assert cut == "" or len(text.encode()) % 4096 == 0, len(text.encode())
+    records = [json.loads(line) for line in lines]
     assert records[0]["record"] == "header" and records[-1]["record"] == "pivot"
     assert [r["iteration"] for r in records[2:]] == list(range(1, len(records) - 1))
     assert not log.exists()
