@@ -21,6 +21,7 @@ from exactlp.io import model_from_text
 from exactlp.solver import dual as dual_module
 from exactlp.solver import simplex as simplex_module
 from exactlp.solver import rows as rows_module
+from exactlp.solver import whole as whole_module
 from exactlp.solver.events import Pivot, Start
 
 from .conftest import needs_netlib
@@ -554,13 +555,16 @@ def ratio_by_arrays(on: bool):
     """Every tableau row by numpy's sums, and the dual ratio test filtered by its
     arrays (``on``) or run over the whole row."""
     pytest.importorskip("numpy")
-    saved = rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE, dual_module.ARRAY_RATIO_MIN
+    saved = (rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE, dual_module.ARRAY_RATIO_MIN,
+             whole_module.WHOLE_COSTS)
     rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE = 0, 10**9  # (never by the columns met)
     dual_module.ARRAY_RATIO_MIN = 0 if on else 10**9
+    whole_module.WHOLE_COSTS = False  # (the list of mpq, whose filter this is: see test_whole.py)
     try:
         yield
     finally:
-        rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE, dual_module.ARRAY_RATIO_MIN = saved
+        (rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE, dual_module.ARRAY_RATIO_MIN,
+         whole_module.WHOLE_COSTS) = saved
 
 
 @st.composite

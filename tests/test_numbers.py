@@ -209,7 +209,7 @@ EXACT_MODULES = [
     "io/yaml_model.py", "io/yamltree.py", "certificate.py", "verifier.py", "audit.py", "report_check.py",
     "reports.py", "analysis.py", "solver/form.py", "solver/basis.py", "solver/simplex.py", "solver/dual.py",
     "solver/pricing.py", "solver/events.py", "solver/rows.py", "solver/lowest.py", "solver/shadow.py",
-    "solver/steer.py",
+    "solver/steer.py", "solver/whole.py",
 ]
 
 

@@ -329,8 +329,8 @@ def test_wrong_short_choice_goes_back_to_exact(monkeypatch, spoil):
     plain = dual_module.DualPhase._dual_entering
     done: list = []
 
-    def spoiling(self, row, d, s, bland, slope=None, near=None):
-        got = plain(self, row, d, s, bland, slope, near)
+    def spoiling(self, row, d, s, bland, slope=None, near=None, arrays=None):
+        got = plain(self, row, d, s, bland, slope, near, arrays)
         if near is not None:
             done.append(1)
             if len(done) == 4:

@@ -72,6 +72,7 @@ from gmpy2 import mpq
 
 from . import shadow
 from . import steer as steer_mod
+from . import whole
 from .basis import EtaBasis
 from .events import Pivot, Start
 from .form import frac
@@ -84,6 +85,8 @@ BASIC, AT_LOWER, AT_UPPER, AT_ZERO = 0, 1, 2, 3  # the column states of simplex.
 #: the dual ratio test filters a row made by numpy's sums (rows.NumpyRow) in
 #: arrays when it has at least this many entries (see _ratio_candidates)
 ARRAY_RATIO_MIN = 256
+
+
 _FAR = 1 << 40  # past any difference of bit lengths met (see _ratio_candidates)
 
 #: the dual phase gives up (and the primal two-phase method starts from the slack
@@ -495,7 +498,7 @@ class DualPhase:
         return got
 
     def _dual_entering(self, row: dict, d: list, s: int, bland: bool, slope=None,
-                       near=None) -> tuple[int, list[int]]:
+                       near=None, arrays=None) -> tuple[int, list[int]]:
         """The dual ratio test over the tableau row ``row`` (``S alpha_pj`` by column,
         ``S > 0`` the row's scale): ``(entering column, columns to flip)``, or
         ``(-1, flips)`` when no column can enter (the model is infeasible once the
@@ -519,7 +522,12 @@ class DualPhase:
         ``slope`` (Bland's choice) nothing is flipped.
         """
         lower, upper = self.lower, self.upper
-        if slope is None or not self._boxed:
+        flipping = slope is not None and self._boxed
+        if not flipping:
+            if arrays is not None:
+                # whole reduced costs: only the candidates that can be chosen go on,
+                # with their d_j
+                row, d = d.least(arrays, s, self.state)
             return self._dual_entering_plain(row, d, s, bland, near=near), []
         # The groups are taken off in the order of their ratios, and only the first
         # few are passed (a handful of flips against hundreds of candidates on a
@@ -534,10 +542,17 @@ class DualPhase:
         # best enters: the least of all ratios, as without flips.)
         pending: list = []  # (e_j - 2, j, d_j, |a_j|): not divided yet
         ready: list = []  # (|t_j|, -|a_j|, j)
-        self._dual_entering_plain(row, d, s, bland, collect=(pending, ready), near=near)
+        if arrays is not None:
+            # whole reduced costs: the same candidates by arrays, each d_j read when
+            # divided (d_j None in pending)
+            d.collect(arrays, s, self.state, pending, ready)
+        else:
+            self._dual_entering_plain(row, d, s, bland, collect=(pending, ready), near=near)
         if not pending and not ready:
             return -1, []
         if bland:  # nothing is flipped: the least ratio, ties to the lowest index
+            if arrays is not None:
+                pending = [(k, j, d[j], a) for k, j, _, a in pending]
             cands = ready + [((-t if t < 0 else t), -a, j) for t, j, a in
                              ((dj / a if near is None else near(dj / a), j, a) for _, j, dj, a in pending)]
             t0 = min(c[0] for c in cands)
@@ -554,6 +569,8 @@ class DualPhase:
                     if pending[0][0] >= t.numerator.bit_length() - t.denominator.bit_length() + 1:
                         return
                 _, j, dj, a = heapq.heappop(pending)
+                if dj is None:
+                    dj = d[j]
                 if near is None:
                     t = dj / a
                 else:  # (the ratio from the whole |a_j|, both read rounded)
@@ -707,6 +724,10 @@ class DualPhase:
 
         cost, m = self.dual_cost, self.m
         d = self._reduced_costs(cost, [ZERO] * m)  # y = 0 at the slack basis
+        if whole.WHOLE_COSTS and not self.tableau and len(self.cols) >= whole.MIN_COLUMNS:
+            # whole numbers over one denominator where they are short (networks:
+            # see whole.py); a list of mpq again as soon as they would not fit
+            d = whole.WholeCosts.of(d) or d
         budget = DUAL_LIMIT_FACTOR * (m + len(self.cols))
         guard_limit = GUARD_RUN_FACTOR * (m + 1)
         run_degenerate = 0
@@ -768,13 +789,18 @@ class DualPhase:
             else:
                 row, scale = self._tableau_row(p)
                 din = d
+            arrays = None
+            if type(din) is whole.WholeCosts:
+                arrays = whole.row_arrays(row)
+                if arrays is None:  # (an entry not whole in 64 bits)
+                    din = d = d.tolist()
             slope = None
             if not bland and BOUND_FLIPS:
                 slope = -delta if s < 0 else delta
                 if scale is not None:
                     slope = slope * scale
             q, flips = self._dual_entering(row, din, s, bland, slope,
-                                           near=None if sd is None else steer_mod.near_ratio)
+                                           near=None if sd is None else steer_mod.near_ratio, arrays=arrays)
             if sd is not None and q < 0:
                 # no column enters by the short row: the proof of infeasibility is
                 # made on exact values (the pivot again, unsteered)
@@ -845,7 +871,12 @@ class DualPhase:
             x[b] = self.lower[b] if s < 0 else self.upper[b]
             if sd is not None:
                 self._steer_update(sd, q, b, p, alpha_pq, dq, sums=sums)
+            elif type(d) is whole.WholeCosts and self.scores is None and d.update(
+                    arrays, scale, q, b, dq / alpha_pq, self.lower[b] is not None and self.lower[b] == self.upper[b]):
+                pass  # (the same values as below, in arrays)
             else:
+                if type(d) is whole.WholeCosts:
+                    d = d.tolist()  # (a bound would not hold: mpq from here on)
                 self._update_reduced_costs(d, q, b, p, alpha_pq, row=(row, scale))
             self._dual_weights_update(alpha, alpha_pq, p, q, b)
             self.state[b] = AT_LOWER if s < 0 else AT_UPPER
