@@ -125,6 +125,10 @@ def test_the_least_key_keeps_every_tie_and_the_zero_ratios():
     w = whole.WholeCosts.of([mpq(0), mpq(1, 7), mpq(0)])
     sub, _ = w.least(whole.row_arrays({0: 5, 1: 2**40, 2: -3}), 1, [1, 1, 2])
     assert sub == {0: 5, 2: -3}
+    # keys one apart at the finest place (h = 14 for 48-bit numerators): the
+    # second is not a tie and does not go on
+    w = whole.WholeCosts.of([mpq(2**48 - 2), mpq(2**48 - 1)])
+    assert w.least(whole.row_arrays({0: 2**14, 1: 2**14}), 1, [1, 1]) == ({0: 2**14}, {0: mpq(2**48 - 2)})
     # no candidate: wrong signs for their bounds, or fixed
     w = whole.WholeCosts.of([mpq(1), None, mpq(-1)])
     assert w.least(whole.row_arrays({0: -1, 1: 4, 2: 1}), 1, [1, 1, 2]) == ({}, {})
@@ -213,6 +217,22 @@ def test_an_update_that_would_not_fit_changes_nothing():
     assert not w.update(whole.row_arrays({0: 2**30, 1: 1}), None, 1, 2, mpq(2**40, 3), False)
     assert (w.num.tolist(), w.q, w.live.tolist()) == (before[0].tolist(), before[1], before[2].tolist())
     assert w.tolist() == d
+    # and just past the bound, where an int64 product would wrap round: k_n = 2^33
+    # times the entry 2^30 is 2^63
+    d = [mpq(1), mpq(2**33)]
+    w = whole.WholeCosts.of(d)
+    assert not w.update(whole.row_arrays({0: 2**30, 1: 1}), None, 1, 2, mpq(2**33), False)
+    assert w.tolist() == d
+    # the leaving column's -theta Q = -k_n S past the bound: 3 (2^39) over a
+    # pivot of 2^-23 (the row's scale S = 2^23) is 3 (2^62)
+    d = [mpq(1), mpq(3 * 2**39), None]
+    w = whole.WholeCosts.of(d)
+    assert not w.update(whole.row_arrays({0: 1, 1: 1}), 2**23, 1, 2, mpq(3 * 2**62), False)
+    assert w.tolist() == d
+    d = [mpq(1), mpq(2**31)]  # (2^61: within the bound, the update is made)
+    w = whole.WholeCosts.of(d + [None])
+    assert w.update(whole.row_arrays({0: 2**30, 1: 1}), None, 1, 2, mpq(2**31), False)
+    assert w.tolist() == [mpq(1 - 2**61), None, mpq(-(2**31))]
 
 
 @contextlib.contextmanager

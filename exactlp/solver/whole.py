@@ -142,7 +142,8 @@ class WholeCosts:
         top_n = int(np.abs(num).max()) if len(num) else 0
         top_v = int(np.abs(vv).max()) if len(vv) else 0
         # (each bound on Python integers: |N_j k_d - k_n v_j| <= top_n k_d + |k_n| top_v)
-        if top_n * kd + abs(kn) * top_v >= LIMIT or abs(kn) * s >= LIMIT or self.q * kd >= LIMIT:
+        # (Q is a Python integer: it needs no bound of its own)
+        if top_n * kd + abs(kn) * top_v >= LIMIT or abs(kn) * s >= LIMIT:
             return False
         if kd != 1:
             num *= kd  # (the dead entries are 0 and stay 0)
