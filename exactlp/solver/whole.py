@@ -54,6 +54,7 @@ BASIC, AT_LOWER, AT_UPPER, AT_ZERO = 0, 1, 2, 3  # the column states of simplex.
 ZERO = mpq(0)
 _POW2 = None  # the powers of two below 2^63, as an int64 array (made when first needed)
 
+
 def row_arrays(row):
     """``(cols, v, keys)``: a tableau row's columns and entries as int64 arrays,
     and its columns as a list; or None when an entry is not a whole number in 64
