@@ -231,15 +231,16 @@ def fraction_route(path: str, monkeypatch) -> None:
 
 
 @contextlib.contextmanager
-def calls_recorded(owner, name: str):
+def calls_recorded(owner, name: str, what=lambda got: got is not None):
     """Replace ``owner.name`` (a function) for the block by one that calls it and
-    records whether each call returned something other than None; yields the list."""
+    records ``what`` of each call's result (by default whether it is something
+    other than None); yields the list."""
     original = getattr(owner, name)
-    seen: list[bool] = []
+    seen: list = []
 
     def recording(*args):
         got = original(*args)
-        seen.append(got is not None)
+        seen.append(what(got))
         return got
     setattr(owner, name, recording)
     try:

@@ -21,7 +21,7 @@ from exactlp.solver import dual as dual_module
 from exactlp.solver import simplex as simplex_module
 from exactlp.solver import whole
 
-from .helpers import network, solve_verified
+from .helpers import calls_recorded, network, solve_verified
 
 np = pytest.importorskip("numpy")
 
@@ -284,28 +284,24 @@ def boxed_covering_models(draw):
 _RAN: list[bool] = []
 
 
+def _logs_both_ways(model, owner, name: str):
+    """The audit log with the whole form off and on, and what ``owner.name``
+    returned in the second solve."""
+    with whole_costs(False):
+        want = _log(model)
+    with whole_costs(True), calls_recorded(owner, name, what=lambda got: got) as seen:
+        got = _log(model)
+    return want, got, seen
+
+
 @settings(max_examples=150, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(model=boxed_covering_models())
 def test_a_solve_on_whole_costs_takes_the_lists_pivots(model):
-    with whole_costs(False):
-        want = _log(model)
-    seen = []
-    original = whole.WholeCosts.update
-
-    def counted(self, *args):
-        got = original(self, *args)
-        seen.append(got)
-        return got
-
-    with whole_costs(True):
-        whole.WholeCosts.update = counted
-        try:
-            got = _log(model)
-            solve_verified(model, warm_start=False)
-        finally:
-            whole.WholeCosts.update = original
+    want, got, updates = _logs_both_ways(model, whole.WholeCosts, "update")
     assert got == want
-    _RAN.append(any(seen))
+    with whole_costs(True):
+        solve_verified(model, warm_start=False)
+    _RAN.append(any(updates))
 
 
 def test_the_whole_costs_ran_on_most_of_those_models():
@@ -320,22 +316,7 @@ def test_a_network_solves_on_whole_costs_with_the_lists_pivots_and_flips():
     # a generated water network (cases/generated): the dual phase with bound
     # flips on every pivot's row, whole throughout (Q = 10: the costs' tenths)
     model = network(40, 60)
-    with whole_costs(False):
-        want = _log(model)
-    made = []
-    original = whole.WholeCosts.of
-
-    def kept(d):
-        w = original(d)
-        made.append(w)
-        return w
-
-    with whole_costs(True):
-        whole.WholeCosts.of = kept
-        try:
-            got = _log(model)
-        finally:
-            whole.WholeCosts.of = original
+    want, got, made = _logs_both_ways(model, whole.WholeCosts, "of")
     assert got == want and '"flipped": [{' in got
     assert len(made) == 1 and made[0] is not None and made[0].q == 10
     r = solve_verified(model, warm_start=False)
