@@ -286,11 +286,17 @@ _RAN: list[bool] = []
 
 def _logs_both_ways(model, owner, name: str):
     """The audit log with the whole form off and on, and what ``owner.name``
-    returned in the second solve."""
+    returned in the second solve, which checks at every pivot that the whole
+    reduced costs read as those priced afresh (``check_updates``)."""
     with whole_costs(False):
         want = _log(model)
-    with whole_costs(True), calls_recorded(owner, name, what=lambda got: got) as seen:
-        got = _log(model)
+    saved = simplex_module.Simplex.check_updates
+    simplex_module.Simplex.check_updates = True
+    try:
+        with whole_costs(True), calls_recorded(owner, name, what=lambda got: got) as seen:
+            got = _log(model)
+    finally:
+        simplex_module.Simplex.check_updates = saved
     return want, got, seen
 
 
