@@ -1,4 +1,4 @@
-"""The long differential run: python tests/long_differential.py N [--forced] [--partial] [--refine]
+"""The long differential run: python tests/long_differential.py N [--forced] [--partial] [--refine] [--whole]
 (N random models against scipy HiGHS).
 
 --forced: the nucleus of every factorisation on integer rows from its first
@@ -13,6 +13,8 @@ integers or, with nested denominators, on fractions).
 (solver/refine.py, forced on every basis, its float inverse made on a thread of
 its own beside the nonsingularity check), which must give the same exact
 result as the same start checked by factorisation.
+--whole: the dual phase's reduced costs kept whole (solver/whole.py) on every
+model, however few its columns.
 """
 import sys
 import time
@@ -43,6 +45,10 @@ if "--partial" in sys.argv[2:]:
     import exactlp.solver.simplex as simplex_module
 
     simplex_module.PARTIAL_FACTOR = 0
+if "--whole" in sys.argv[2:]:
+    import exactlp.solver.whole as whole_module
+
+    whole_module.MIN_COLUMNS = 0
 REFINE = "--refine" in sys.argv[2:]
 if REFINE:
     import exactlp.solver.simplex as simplex_module
