@@ -7,6 +7,7 @@ solves, the audit log with the whole form turned off."""
 from __future__ import annotations
 
 import contextlib
+import heapq
 import io
 from fractions import Fraction as F
 
@@ -107,11 +108,17 @@ def test_the_ratio_test_on_whole_costs_chooses_and_flips_as_on_the_list(case, s,
     fake = _Fake(state, [b[0] for b in bounds], [b[1] for b in bounds])
     w = whole.WholeCosts.of(d)
     arrays = whole.row_arrays(row)
-    for bland in (False, True):
-        for slope in (None, mpq(1, 3), mpq(7), mpq(10**6)):
-            want = dual_module.DualPhase._dual_entering(fake, dict(row), d, s, bland, slope)
-            got = dual_module.DualPhase._dual_entering(fake, dict(row), w, s, bland, slope, arrays=arrays)
-            assert got == want, (bland, slope)
+    saved = whole.BATCH
+    try:
+        for bland in (False, True):
+            for slope in (None, mpq(1, 3), mpq(7), mpq(10**6)):
+                want = dual_module.DualPhase._dual_entering(fake, dict(row), d, s, bland, slope)
+                for batch in (64, 1, 3):  # (the heap a batch at a time: every refill met)
+                    whole.BATCH = batch
+                    got = dual_module.DualPhase._dual_entering(fake, dict(row), w, s, bland, slope, arrays=arrays)
+                    assert got == want, (bland, slope, batch)
+    finally:
+        whole.BATCH = saved
 
 
 def test_the_least_key_keeps_every_tie_and_the_zero_ratios():
@@ -134,6 +141,38 @@ def test_the_least_key_keeps_every_tie_and_the_zero_ratios():
     assert w.least(whole.row_arrays({0: -1, 1: 4, 2: 1}), 1, [1, 1, 2]) == ({}, {})
 
 
+def test_the_batched_heap_gives_the_candidates_up_as_a_whole_heap_would(monkeypatch):
+    # keys with ties across the batch's edge: a batch takes every key up to its
+    # cut, the sentinel stands above them all, and the pops come in the order
+    # of a heap holding everything
+    import random
+
+    rng = random.Random(7)
+    monkeypatch.setattr(whole, "BATCH", 4)
+    for _ in range(200):
+        n = rng.randint(0, 30)
+        keys = [rng.randint(-5, 5) for _ in range(n)]
+        cols = rng.sample(range(100), n)
+        mags = [rng.randint(1, 9) for _ in range(n)]
+        want = [(k, j, None, a) for k, j, a in zip(keys, cols, mags)]
+        heap = list(want)
+        heapq.heapify(heap)
+        want = [heapq.heappop(heap) for _ in range(n)]
+        pending = whole.BatchedPending(np.array(keys, dtype=np.int64), np.array(cols, dtype=np.int64),
+                                       np.array(mags, dtype=np.int64))
+        assert sorted(pending.entries()) == sorted(want)
+        got = []
+        while pending:
+            e = heapq.heappop(pending)
+            if e[1] < 0:
+                assert all(e[0] > g[0] for g in got) and all(e[0] <= k for k in pending.keys.tolist())
+                pending.refill()
+                continue
+            got.append(e)
+        assert got == want
+        assert len(pending.keys) == 0
+
+
 def test_the_collected_bounds_are_strict_and_close():
     # K_j with 2^K_j < |t_j| <= 2^(K_j + 4): strict (the heap's need) and no
     # looser than the list's own bit lengths give
@@ -141,9 +180,9 @@ def test_the_collected_bounds_are_strict_and_close():
 
     for n_, q, v in itertools.product([1, 2, 3, 4, 7, 8, 2**20 - 1, 2**20], [1, 3, 4, 10, 1024], [1, 2, 3, 5, 8]):
         w = whole.WholeCosts.of([mpq(n_, q)])
-        pending, ready = [], []
-        w.collect(whole.row_arrays({0: v}), 1, [1], pending, ready)
-        (k, j, dj, a), = pending
+        ready = []
+        pending = w.collect(whole.row_arrays({0: v}), 1, [1], ready)
+        (k, j, dj, a), = pending.entries()
         t = mpq(n_, q) / v
         assert (j, dj, a, ready) == (0, None, v, [])
         assert mpq(2) ** k < t <= mpq(2) ** (k + 4), (n_, q, v, k)

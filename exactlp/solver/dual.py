@@ -540,24 +540,25 @@ class DualPhase:
         # is, no candidate left can equal it either, so its group is whole.  (When
         # no candidate has two bounds, the first group cannot be passed and its
         # best enters: the least of all ratios, as without flips.)
-        pending: list = []  # (e_j - 2, j, d_j, |a_j|): not divided yet
         ready: list = []  # (|t_j|, -|a_j|, j)
         if arrays is not None:
-            # whole reduced costs: the same candidates by arrays, each d_j read when
-            # divided (d_j None in pending)
-            d.collect(arrays, s, self.state, pending, ready)
+            # whole reduced costs: the same candidates by arrays, on a heap a batch
+            # at a time, each d_j read when divided (None till then)
+            pending = d.collect(arrays, s, self.state, ready)
         else:
+            pending: list = []  # (e_j - 2, j, d_j, |a_j|): not divided yet
             self._dual_entering_plain(row, d, s, bland, collect=(pending, ready), near=near)
         if not pending and not ready:
             return -1, []
         if bland:  # nothing is flipped: the least ratio, ties to the lowest index
             if arrays is not None:
-                pending = [(k, j, d[j], a) for k, j, _, a in pending]
+                pending = [(k, j, d[j], a) for k, j, _, a in pending.entries()]
             cands = ready + [((-t if t < 0 else t), -a, j) for t, j, a in
                              ((dj / a if near is None else near(dj / a), j, a) for _, j, dj, a in pending)]
             t0 = min(c[0] for c in cands)
             return min(j for t, _, j in cands if t == t0), []
-        heapq.heapify(pending)
+        if arrays is None:
+            heapq.heapify(pending)
         heapq.heapify(ready)
 
         def settle() -> None:
@@ -569,6 +570,9 @@ class DualPhase:
                     if pending[0][0] >= t.numerator.bit_length() - t.denominator.bit_length() + 1:
                         return
                 _, j, dj, a = heapq.heappop(pending)
+                if j < 0:  # (the sentinel of a BatchedPending: the next batch)
+                    pending.refill()
+                    continue
                 if dj is None:
                     dj = d[j]
                 if near is None:

@@ -32,6 +32,7 @@ stays.
 
 from __future__ import annotations
 
+import heapq
 from itertools import repeat
 
 from gmpy2 import lcm, mpq
@@ -49,6 +50,9 @@ NUM_BITS = 48
 MIN_COLUMNS = 4000
 #: every product and sum of the arrays stays below this
 LIMIT = 1 << 62
+#: the ratio test with flips puts this many of its least bounds on its heap at a
+#: time (see BatchedPending)
+BATCH = 64
 
 BASIC, AT_LOWER, AT_UPPER, AT_ZERO = 0, 1, 2, 3  # the column states of simplex.py (a test checks)
 ZERO = mpq(0)
@@ -203,12 +207,12 @@ class WholeCosts:
         q = self.q
         return dict(zip(js, v[pick].tolist())), dict(zip(js, (mpq(x, q) for x in self.num[js].tolist())))
 
-    def collect(self, arrays, s: int, state: list, pending: list, ready: list) -> None:
+    def collect(self, arrays, s: int, state: list, ready: list) -> "BatchedPending":
         """For the ratio test with bound flipping: every candidate, as the loop of
-        :meth:`DualPhase._dual_entering_plain` collects it, into ``pending`` as
-        ``(K_j, j, None, |v_j|)`` (``d_j`` left for the division, which only the
-        few taken off the heap need) or, when ``d_j = 0``, into ``ready`` as
-        ``(0, -|v_j|, j)``.
+        :meth:`DualPhase._dual_entering_plain` collects it, in a
+        :class:`BatchedPending` as ``(K_j, j, None, |v_j|)`` (``d_j`` left for the
+        division, which only the few taken off the heap need) or, when ``d_j =
+        0``, into ``ready`` as ``(0, -|v_j|, j)``.
 
         ``K_j`` is a strict lower bound, ``|t_j| > 2^K_j``, as the heap needs:
         ``|t_j| = |N_j| / (Q |v_j|)`` with ``|N_j| >= 2^(bits - 1)``, ``Q <
@@ -222,8 +226,6 @@ class WholeCosts:
             _POW2 = np.array([1 << k for k in range(63)], dtype=np.int64)
         cols, v, _ = arrays
         at = self._candidates(arrays, s, state)
-        if not len(at):
-            return
         n = np.abs(self.num[cols[at]])
         av = np.abs(v[at])
         zero = n == 0
@@ -233,4 +235,47 @@ class WholeCosts:
             n, av, at = n[nz], av[nz], at[nz]
         bound = (np.searchsorted(_POW2, n, side="right") - np.searchsorted(_POW2, av, side="right")
                  - (self.q.bit_length() + 1))
-        pending.extend(zip(bound.tolist(), cols[at].tolist(), repeat(None), av.tolist()))
+        return BatchedPending(bound, cols[at], av)
+
+
+class BatchedPending(list):
+    """A heap of the ratio test's candidates not yet divided, ``(K_j, j, None,
+    |a_j|)``, that holds at first only those whose ``K_j`` is at most the
+    BATCH-th least, and a sentinel ``(K, -1, None, None)`` with ``K`` the least
+    ``K_j`` of the rest, above every ``K_j`` held.  The sentinel comes off the
+    heap before any of the rest could, and then the next batch goes on
+    (:meth:`refill`): so the heap gives the candidates up in the order it would
+    holding them all, and a pivot that takes a few makes tuples for a batch,
+    not for the thousands of a long row (its rest stays in arrays)."""
+
+    __slots__ = ("keys", "cols", "mags")
+
+    def __init__(self, keys, cols, mags) -> None:
+        super().__init__()
+        self.keys, self.cols, self.mags = keys, cols, mags  # the rest, as int64 arrays
+        self.refill()
+
+    def refill(self) -> None:
+        """The next batch onto the heap, and a sentinel for what is left."""
+        import numpy as np
+
+        keys = self.keys
+        if not len(keys):
+            return
+        if len(keys) > BATCH:
+            take = keys <= np.partition(keys, BATCH - 1)[BATCH - 1]
+            rest = ~take
+            batch = zip(keys[take].tolist(), self.cols[take].tolist(), repeat(None), self.mags[take].tolist())
+            self.keys, self.cols, self.mags = keys[rest], self.cols[rest], self.mags[rest]
+        else:
+            batch = zip(keys.tolist(), self.cols.tolist(), repeat(None), self.mags.tolist())
+            self.keys = keys[:0]
+        self.extend(batch)
+        if len(self.keys):
+            self.append((int(self.keys.min()), -1, None, None))
+        heapq.heapify(self)
+
+    def entries(self) -> list:
+        """Every candidate not yet taken (the sentinel left out)."""
+        return [e for e in self if e[1] >= 0] + list(
+            zip(self.keys.tolist(), self.cols.tolist(), repeat(None), self.mags.tolist()))
