@@ -263,6 +263,8 @@ class BatchedPending(list):
         if not len(keys):
             return
         if len(keys) > BATCH:
+            # (every key up to the BATCH-th least: at least BATCH of them, so each
+            # refill makes progress, and ties stay together)
             take = keys <= np.partition(keys, BATCH - 1)[BATCH - 1]
             rest = ~take
             batch = zip(keys[take].tolist(), self.cols[take].tolist(), repeat(None), self.mags[take].tolist())
