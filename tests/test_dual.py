@@ -495,9 +495,9 @@ def rows_both_ways():
     share = rows_module.SPARSE_ROW_SHARE
     seen = {"rows": 0, "by_numpy": 0}
 
-    def both(self, p):
+    def both(self, p, arrays=False):
         rows_module.SPARSE_ROW_SHARE = 10**9  # (every row meets a column: never by the columns met)
-        fast = original(self, p)
+        fast = original(self, p, arrays)
         used = self._np_rows_cache is not None and self._np_rows_cache[1] is not None
         saved = self._np_rows_cache
         self._np_rows_cache = (len(self.cols), None)  # the loops, for the same basis
@@ -508,7 +508,7 @@ def rows_both_ways():
         rows_module.SPARSE_ROW_SHARE = share
         assert fast == slow == met
         row = fast[0]
-        if type(row) is rows_module.NumpyRow and row.cols is not None:  # its arrays are its entries
+        if type(row) in (rows_module.NumpyRow, rows_module.ArrayRow) and row.cols is not None:  # its arrays are its entries
             escale = self._int_rows()[1]
             assert row.cols.tolist() == sorted(row)
             assert [mpq(v, escale[j]) for j, v in zip(row.cols.tolist(), row.sums.tolist())] == \

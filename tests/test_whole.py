@@ -19,6 +19,7 @@ from hypothesis import strategies as st
 import exactlp
 from exactlp.io import model_from_text
 from exactlp.solver import dual as dual_module
+from exactlp.solver import rows as rows_module
 from exactlp.solver import simplex as simplex_module
 from exactlp.solver import whole
 
@@ -339,13 +340,20 @@ def _logs_both_ways(model, owner, name: str):
     return want, got, seen
 
 
+@pytest.mark.parametrize("numpy_rows", [False, True])  # (True: every row by numpy's sums, as ArrayRow)
 @settings(max_examples=150, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(model=boxed_covering_models())
-def test_a_solve_on_whole_costs_takes_the_lists_pivots(model):
-    want, got, updates = _logs_both_ways(model, whole.WholeCosts, "update")
-    assert got == want
-    with whole_costs(True):
-        solve_verified(model, warm_start=False)
+def test_a_solve_on_whole_costs_takes_the_lists_pivots(model, numpy_rows):
+    saved = rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE
+    if numpy_rows:
+        rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE = 0, 10**9
+    try:
+        want, got, updates = _logs_both_ways(model, whole.WholeCosts, "update")
+        assert got == want
+        with whole_costs(True):
+            solve_verified(model, warm_start=False)
+    finally:
+        rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE = saved
     _RAN.append(any(updates))
 
 
@@ -353,8 +361,31 @@ def test_the_whole_costs_ran_on_most_of_those_models():
     # (the property test above, run again to count: the arrays must have had
     # pivots to update, or that test checks nothing)
     _RAN.clear()
-    test_a_solve_on_whole_costs_takes_the_lists_pivots()
+    test_a_solve_on_whole_costs_takes_the_lists_pivots(numpy_rows=False)
     assert sum(_RAN) >= len(_RAN) // 2, (sum(_RAN), len(_RAN))
+    _RAN.clear()
+    made = []
+    original = rows_module.ArrayRow.__init__
+
+    def counted(self, *args):
+        made.append(1)
+        original(self, *args)
+
+    rows_module.ArrayRow.__init__ = counted
+    try:
+        test_a_solve_on_whole_costs_takes_the_lists_pivots(numpy_rows=True)
+    finally:
+        rows_module.ArrayRow.__init__ = original
+    assert sum(_RAN) >= len(_RAN) // 2 and len(made) >= len(_RAN), (sum(_RAN), len(_RAN), len(made))
+
+
+def test_an_array_row_reads_as_its_dictionary_and_is_not_one():
+    row = rows_module.ArrayRow(np.array([2, 5, 9], dtype=np.int64), np.array([3, -1, 2**40], dtype=np.int64))
+    assert not isinstance(row, dict) and len(row) == 3 and row._made is None  # (nothing made yet)
+    assert whole.row_arrays(row)[2] == [2, 5, 9] and row._made is None  # (the arrays alone)
+    assert dict(row) == {2: 3, 5: -1, 9: 2**40} and list(row) == [2, 5, 9]
+    assert row[5] == -1 and type(row[9]) is int and 7 not in row and row.get(7) is None
+    assert list(row.items()) == [(2, 3), (5, -1), (9, 2**40)]
 
 
 def test_a_network_solves_on_whole_costs_with_the_lists_pivots_and_flips():

@@ -791,7 +791,7 @@ class DualPhase:
                 row, din = self._steer_dual_row(sums, sd)
                 scale = unit
             else:
-                row, scale = self._tableau_row(p)
+                row, scale = self._tableau_row(p, arrays=type(d) is whole.WholeCosts)
                 din = d
             arrays = None
             if type(din) is whole.WholeCosts:

@@ -18,6 +18,7 @@ measurements behind each form ("Pricing", "Tableau rows by numpy").
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from operator import itemgetter as _itemgetter
 
 from gmpy2 import lcm as _lcm
@@ -62,6 +63,34 @@ class NumpyRow(dict):
     The arrays are only read; the dictionary is the row."""
 
     __slots__ = ("cols", "sums", "den_bits")
+
+
+class ArrayRow(Mapping):
+    """A :class:`NumpyRow` whose every entry is whole, given as its arrays only
+    (``cols``, 64-bit ``sums``; ``den_bits`` None): the dual phase's whole
+    reduced costs (:mod:`.whole`) read nothing else, so the dictionary is made
+    only when something reads the row as one (then it is the same, entry for
+    entry).  Not a ``dict``: a reader that took it for one would see its
+    dictionary, empty until made, instead of the row."""
+
+    __slots__ = ("cols", "sums", "den_bits", "_made")
+
+    def __init__(self, cols, sums) -> None:
+        self.cols, self.sums, self.den_bits, self._made = cols, sums, None, None
+
+    def _dict(self) -> dict:
+        if self._made is None:
+            self._made = dict(zip(self.cols.tolist(), self.sums.tolist()))
+        return self._made
+
+    def __getitem__(self, j):
+        return self._dict()[j]
+
+    def __iter__(self):
+        return iter(self._dict())
+
+    def __len__(self) -> int:
+        return len(self.cols)
 
 
 _POW2 = None  # 2^0 .. 2^62 as a numpy array, made on first use
@@ -179,21 +208,24 @@ class TableauRows:
             self._int_cols_cache = (ncol, out)
         return self._int_cols_cache[1]
 
-    def _tableau_row(self, p: int) -> tuple[dict[int, mpq], mpz | None]:
+    def _tableau_row(self, p: int, arrays: bool = False) -> tuple[dict[int, mpq], mpz | None]:
         """Row p of ``B^-1 A`` at the nonbasic columns, ``rho . a_j`` for each j,
         as ``(D rho . a_j, D)`` when the solves are scaled, else ``(..., None)``.
 
         ``rho = e_p^T B^-1`` by one btran; then only the rows of A where rho
-        is nonzero are read, which is cheap when rho is sparse.
+        is nonzero are read, which is cheap when rho is sparse.  With ``arrays``
+        (for readers of the row's arrays only), a row that numpy's sums make
+        with every entry whole comes as an :class:`ArrayRow`.
         """
         # the btran's scaled row ``D rho`` has (nearly) integer entries, so the
         # sums below meet only the short denominators of A; they are left scaled
         # (see basis.EtaBasis._set_scale and _update_reduced_costs)
         rho, d = self.basis.btran_unit(p)  # its nonzeros, by position
         self.last_rho = (rho, d)  # D rho and D (None: unscaled), for the dual's weights
-        return self._row_times_a(rho, d, self.head[p])
+        return self._row_times_a(rho, d, self.head[p], arrays)
 
-    def _row_times_a(self, rho: dict[int, mpq], d: mpz | None, drop: int) -> tuple[dict[int, mpq], mpz | None]:
+    def _row_times_a(self, rho: dict[int, mpq], d: mpz | None, drop: int,
+                     arrays: bool = False) -> tuple[dict[int, mpq], mpz | None]:
         """``(R . (e_j a_j), S)`` at the nonbasic columns ``j``, with ``rho . a_j``
         their quotients: the sums of :meth:`_tableau_row` for any row vector
         ``rho`` (its nonzeros by row, scaled by ``d`` unless that is None), such as
@@ -241,7 +273,7 @@ class TableauRows:
                 dense = [0] * self.m
                 for i, r in big.items():
                     dense[i] = r
-                out = fast(dense, drop)
+                out = fast(dense, drop, True) if arrays and not fcols else fast(dense, drop)
             else:
                 out = None
         if out is None:  # the loops (no numpy, a narrow model, or sums past 64 bits)
@@ -377,13 +409,16 @@ class TableauRows:
                     # function is kept with the matrix's copies and handed on to other
                     # solves of the same columns (solver.ObjectiveProbes), so it must not
                     # read the basis of the solve that made it)
-                    def fn(big, drop, _np=np):
+                    def fn(big, drop, lazy=False, _np=np):
                         longest = max(big, key=abs, default=0).__abs__()
                         if longest > limit or (forced and longest >> b):
                             return limbs(big, drop, int(longest).bit_length())  # a sum could leave 64 bits
                         r = _np.array([int(v) for v in big], dtype=_np.int64)
                         sums = _np.add.reduceat(vals_a * r[rows_a], starts)
                         nz = sums != 0
+                        if lazy and all_whole:  # (the arrays alone: see ArrayRow)
+                            at = _np.flatnonzero(nz & (col_ids != (-1 if drop is None else drop)))
+                            return ArrayRow(col_ids[at], sums[at])
                         idx_w = _np.flatnonzero(nz & whole_mask)
                         out = NumpyRow(zip(col_ids[idx_w].tolist(), sums[idx_w].tolist()))
                         for k in _np.flatnonzero(nz & ~whole_mask).tolist():
