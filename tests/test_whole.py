@@ -24,6 +24,7 @@ from exactlp.solver import simplex as simplex_module
 from exactlp.solver import whole
 
 from .helpers import calls_recorded, network, solve_verified
+from .test_dual import rows_both_ways
 
 np = pytest.importorskip("numpy")
 
@@ -344,16 +345,13 @@ def _logs_both_ways(model, owner, name: str):
 @settings(max_examples=150, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(model=boxed_covering_models())
 def test_a_solve_on_whole_costs_takes_the_lists_pivots(model, numpy_rows):
-    saved = rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE
-    if numpy_rows:
-        rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE = 0, 10**9
-    try:
+    # (with numpy_rows, each row is also made by the loops and summed over the
+    # columns met, and the three must be equal: see test_dual.rows_both_ways)
+    with rows_both_ways() if numpy_rows else contextlib.nullcontext():
         want, got, updates = _logs_both_ways(model, whole.WholeCosts, "update")
         assert got == want
         with whole_costs(True):
             solve_verified(model, warm_start=False)
-    finally:
-        rows_module.NUMPY_ROW_NONZEROS, rows_module.SPARSE_ROW_SHARE = saved
     _RAN.append(any(updates))
 
 
