@@ -26,6 +26,8 @@ from .helpers import calls_recorded, scipy_solve, sympy_solve
 _REPORT_LIMITS = exactlp.limits.Limits(max_number_chars=200_000)
 from .models import KNOWN
 
+ZERO_Q = __import__('gmpy2').mpq(0)
+
 THREE = KNOWN[0][1]  # maximize 5 x1 + 4 x2 + 3 x3; optimum 13 at (2, 0, 1), y = (1, 0, 1)
 
 
@@ -1114,6 +1116,77 @@ def test_probes_that_pivot_leave_the_shared_start_as_it_was():
         assert _same_but_time(again, got) == {}
     assert {(p.objective[0][0], p.sense.value): got.objective for p, got in first} == {
         ("x", "minimize"): F(1), ("x", "maximize"): F(3), ("y", "minimize"): F(1), ("y", "maximize"): F(3)}
+
+
+def _face_probe_pairs(m):
+    """(probe, shared-start result, own-start result) for every variable and sense
+    of the optimal face of ``m`` (the probes of allocation ranges), with the
+    shared start's factorisation."""
+    from exactlp.analysis import optimal_face_model
+    from exactlp.floatlp import BasisHint
+    from exactlp.model import Sense
+    from exactlp.solver import ObjectiveProbes
+
+    r = exactlp.solve(m, warm_start=False)
+    face = optimal_face_model(m, r)
+    start = BasisHint.of_result(r, len(m.variables), len(m.constraints))
+    shared = ObjectiveProbes(face, start, warm_start=False)
+    out = []
+    for v in m.variables:
+        for sense in ("minimize", "maximize"):
+            probe = replace(face, sense=Sense(sense), objective=((v.name, F(1)),), objective_constant=F(0))
+            out.append((probe, shared.solve(probe), exactlp.solve(probe, start_basis=start)))
+    return out, shared
+
+
+def test_face_probes_on_a_network_are_the_solves_from_their_own(monkeypatch):
+    # On the optimal face the optimum's decided columns are fixed, so the pivot
+    # loop leaves their reduced costs to the result; a probe's result sums only
+    # those that meet a row of nonzero dual when such rows are few (an eighth of
+    # the rows or less).  Each is here checked against every fixed column summed,
+    # and each whole result is the probe's own solve from the same start.
+    import exactlp.solver as solver_module
+
+    from .helpers import network
+
+    original = solver_module._sparse_reduced_costs
+    few = []
+
+    def checked(form, sx, kept, y, n):
+        got = original(form, sx, kept, y, n)
+        full = {}
+        for j in range(n):
+            d = kept[j] if kept[j] is not None else ZERO_Q if sx.state[j] == 0 else solver_module._reduced_cost(form, y, j)
+            if d:
+                full[j] = d
+        assert got == full
+        few.append(sum(1 for v in y if v) * 8 <= len(y))
+        return got
+
+    monkeypatch.setattr(solver_module, "_sparse_reduced_costs", checked)
+    m = network(20, 30, 6)
+    pairs, _ = _face_probe_pairs(m)
+    assert len(pairs) == 2 * len(m.variables) == 244
+    for probe, got, own in pairs:
+        assert _same_but_time(got, own) == {}
+    assert len(few) == len(pairs) and 0 < sum(few) < len(few)  # (both ways taken)
+    assert sum(got.iterations > 0 for _, got, _ in pairs) >= 20
+
+
+def test_face_probes_that_pivot_leave_the_start_factors_as_they_were():
+    # a probe's copy of the start's factorisation shares U's rows with it and
+    # copies each before its first change: the start's rows are the same after
+    # every probe, and solving the probes again in the other order gives the same
+    from .helpers import network
+
+    m = network(20, 30, 6)
+    pairs, shared = _face_probe_pairs(m)
+    start = shared._state.basis
+    rows = [dict(row) for row in start._urows]
+    assert sum(got.iterations > 0 for _, got, _ in pairs) >= 20
+    for probe, got, _ in reversed(pairs):
+        assert _same_but_time(shared.solve(probe), got) == {}
+    assert start._urows == rows and start._urows_shared is None
 
 
 def test_probes_fall_back_to_their_own_solve_when_nothing_can_be_shared():

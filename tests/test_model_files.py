@@ -341,6 +341,29 @@ def test_model_is_immutable():
         m.name = "x"  # type: ignore[misc]
 
 
+def test_variable_lookup_by_name():
+    # by a map kept on the model after the first lookup (a report check looks up
+    # every ranged variable); a model made from it by replace() has its own
+    import dataclasses
+
+    from exactlp.errors import ModelError
+
+    m = model_from_text(A)
+    assert [m.variable(v.name) for v in m.variables] == list(m.variables)
+    assert all(m.variable(v.name) is v for v in m.variables)
+    with pytest.raises(ModelError) as exc:
+        m.variable("z")
+    assert str(exc.value) == "no variable 'z'"
+    with pytest.raises(ModelError) as exc:
+        m.variable("xx")
+    assert str(exc.value) == "no variable 'xx' (did you mean 'x'?)"
+    renamed = dataclasses.replace(m, variables=tuple(dataclasses.replace(v, name=v.name + "2") for v in m.variables))
+    assert renamed.variable("x2").upper == F(4)
+    with pytest.raises(ModelError):
+        renamed.variable("x")
+    assert m == model_from_text(A)  # (the kept map is not part of the model's value)
+
+
 # --- round trips -----------------------------------------------------------------------------
 def test_contract_round_trip(write):
     m = exactlp.load(write("m.yaml", CONTRACT))

@@ -15,6 +15,7 @@ import time
 from dataclasses import replace
 from fractions import Fraction
 from itertools import compress
+from operator import is_not
 
 from gmpy2 import mpq
 
@@ -279,10 +280,18 @@ def _run(model, form, sx: Simplex, pricing, time_limit, started, known=None) -> 
         if known is not None:
             x0, (pbase, abase), (vkeys, ckeys) = known
             items = model.variables
-            own = {vnames[j]: value(j, items[j]) for j in range(n) if x[j] is not x0[j]}
+            # (the moved entries picked out in C: a probe moves few of them)
+            moved = compress(range(n + m), map(is_not, x, x0))
+            own = {}
+            rows_moved = []
+            for j in moved:
+                if j < n:
+                    own[vnames[j]] = value(j, items[j])
+                else:
+                    rows_moved.append(j - n)
             extra["primal"] = ScaledMap(vkeys, own, pbase)
             items = model.constraints
-            own = {cnames[i]: value(n + i, items[i]) for i in range(m) if x[n + i] is not x0[n + i]}
+            own = {cnames[i]: value(n + i, items[i]) for i in rows_moved}
             extra["activities"] = ScaledMap(ckeys, own, abase)
         else:
             extra["primal"] = frozen_map({v.name: value(j, v) for j, v in enumerate(model.variables)})
@@ -293,23 +302,30 @@ def _run(model, form, sx: Simplex, pricing, time_limit, started, known=None) -> 
         flip = sign < 0  # to the model's sense (a negation, not a multiplication, when needed)
         sparse = known is not None
         if sparse:
-            duals = {cnames[i]: frac(-y[i] if flip else y[i]) for i in range(m) if y[i]}
+            duals = {cnames[i]: frac(-y[i] if flip else y[i]) for i in compress(range(m), y)}
         else:
             duals = {cnames[i]: frac(-y[i] if flip else y[i]) for i in range(m)}
         rc = {}
         kept = out.d  # the pivot loop's own reduced costs, when it priced in full
-        for j in range(n):
-            if kept is not None and kept[j] is not None:
-                d = kept[j]  # equal to c_j - y^T a_j exactly (checked in the solver tests)
-            elif state[j] == 0:  # basic
-                d = ZERO
-            else:
-                d = form.cost[j]
-                for i, a in form.cols[j]:
-                    if y[i]:
-                        d -= y[i] * a
-            if d or not sparse:
+        if sparse and kept is not None:
+            # only the nonzero entries, in column order: those kept (picked out in C)
+            # and, of the nonbasic columns the loop did not price (fixed ones), those
+            # with a cost or an entry in a row of nonzero dual (the rest are 0); the
+            # loop below read every column for each probe
+            rc_of = _sparse_reduced_costs(form, sx, kept, y, n)
+            for j in sorted(rc_of):
+                d = rc_of[j]
                 rc[vnames[j]] = frac(-d if flip else d)
+        else:
+            for j in range(n):
+                if kept is not None and kept[j] is not None:
+                    d = kept[j]  # equal to c_j - y^T a_j exactly (checked in the solver tests)
+                elif state[j] == 0:  # basic
+                    d = ZERO
+                else:
+                    d = _reduced_cost(form, y, j)
+                if d or not sparse:
+                    rc[vnames[j]] = frac(-d if flip else d)
         if sparse:
             vkeys, ckeys = known[2]
             extra["duals"] = ScaledMap(ckeys, duals, _NOTHING, _NO_SCALE)
@@ -323,6 +339,40 @@ def _run(model, form, sx: Simplex, pricing, time_limit, started, known=None) -> 
     elif status is Status.UNBOUNDED:
         extra["ray"] = frozen_map({vnames[j]: frac(v) for j, v in sorted(out.ray.items()) if j < n and v})
     return SolveResult(status=status, seconds=time.monotonic() - started, **common, **extra)
+
+
+def _reduced_cost(form, y, j: int) -> mpq:
+    """``c_j - y^T a_j``."""
+    d = form.cost[j]
+    for i, a in form.cols[j]:
+        if y[i]:
+            d -= y[i] * a
+    return d
+
+
+def _sparse_reduced_costs(form, sx: Simplex, kept: list, y: list, n: int) -> dict[int, mpq]:
+    """The nonzero reduced costs of the structural columns, by column: ``kept``'s
+    own nonzero entries (``compress`` drops None and 0 alike), and for each
+    nonbasic column ``kept`` has None for (a fixed column: pricing skips them)
+    ``c_j - y^T a_j``, which is ``c_j`` unless the column meets a row of nonzero
+    dual.  Those columns are found from the rows of the nonzero duals when there
+    are few of them (a range probe's duals are a path through the basis), else
+    every such column is summed as before."""
+    out = {j: kept[j] for j in compress(range(n), kept)}
+    state, cost = sx.state, form.cost
+    duals_at = list(compress(range(len(y)), y))
+    if len(duals_at) * 8 <= len(y):
+        rows = sx._rows()
+        look = {j for i in duals_at for j, _ in rows[i] if j < n}
+        look.update(compress(range(n), cost))
+    else:
+        look = range(n)
+    for j in look:
+        if kept[j] is None and state[j] != 0:
+            d = _reduced_cost(form, y, j)
+            if d:
+                out[j] = d
+    return out
 
 
 class ObjectiveProbes:

@@ -351,6 +351,10 @@ class LUBasis(EtaBasis):
         self._fsrc = fsrc
         # the factors by rows, for the transposed solves (made by the first one)
         self._urows: list[dict[int, mpq]] | None = None
+        # the rows of _urows still shared with the basis this one was copied from
+        # (see fresh_copy): each is copied before its first change; None when
+        # every row is this basis's own
+        self._urows_shared: set[int] | None = None
         self._lrows = None
         self._lstep = None  # the step that pivoted on each row of L (see _lower_t_reach)
         # U's columns by name (pivot row), the integer copy's, and their order (see
@@ -387,7 +391,14 @@ class LUBasis(EtaBasis):
         twin.signs = list(self.signs)
         twin.etas = []
         if self._urows is not None:
-            twin._urows = [dict(row) for row in self._urows]
+            # U's rows shared, each copied before this copy's first change to it
+            # (an update changes the rows of the columns it moves: a few of m; a
+            # generated 1,000-row network's range probes had copied every row,
+            # 0.5 ms a probe)
+            twin._urows = list(self._urows)
+            twin._urows_shared = set(range(self.m))
+        else:
+            twin._urows_shared = None
         return twin
 
     def make_rows(self) -> None:
@@ -790,13 +801,26 @@ class FTBasis(LUBasis):
         if urows is not None:
             # U's rows in step: row p has left every later column (above), the
             # column it pivoted goes, and the spike comes in its place, named p again
+            shared = self._urows_shared
             urows[p] = {}
-            for ri in ucols[k][2]:
-                del urows[ri][p]
+            if shared:
+                shared.discard(p)
+                for ri in ucols[k][2]:
+                    if ri in shared:  # (still the original's row: copied first)
+                        shared.discard(ri)
+                        urows[ri] = dict(urows[ri])
+                    del urows[ri][p]
+            else:
+                for ri in ucols[k][2]:
+                    del urows[ri][p]
         del ucols[k]
         ucols.append((p, d, {i: v for i, v in sorted(spike.items()) if i != p and v}))
         if urows is not None:
+            shared = self._urows_shared
             for i, v in ucols[-1][2].items():
+                if shared and i in shared:
+                    shared.discard(i)
+                    urows[i] = dict(urows[i])
                 urows[i][p] = v
         if fc is not None:
             # the spike's rows scaled as the rest of U's (row p keeps its d_p)

@@ -90,6 +90,7 @@ from __future__ import annotations
 
 import time
 from dataclasses import dataclass
+from itertools import compress
 from math import isqrt
 from operator import mul as _mul
 
@@ -717,7 +718,8 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
         return out
 
     def _z(self, cost: list[mpq]) -> mpq:
-        return sum((cost[j] * self.x[j] for j in range(len(self.cols)) if cost[j] and self.x[j]), ZERO)
+        x = self.x  # (over the nonzero costs, picked out in C: a range probe's is one column)
+        return sum((cost[j] * x[j] for j in compress(range(len(self.cols)), cost) if x[j]), ZERO)
 
     # ------------------------------------------------------------------
     def _duals(self, cost: list[mpq]) -> list[mpq]:
@@ -1028,22 +1030,23 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
             # and |d_j| is needed only to break a tie of scores)
             best_score = None
             scores = self.scores  # 2 (16 log2 |d_j|) - 16 log2 w_j, kept with d and w
-            for j, dj in enumerate(d):
-                if dj is None:
-                    continue
+            # only the nonzero d_j can improve: ``compress`` picks them out in C
+            # (None and 0 are both false), in index order; most of a range probe's
+            # reduced costs are 0, and the loop below had read every column
+            for j in compress(range(len(d)), d):
+                dj = d[j]
                 if dj < 0:
                     if state[j] == AT_UPPER:
                         continue
-                elif dj > 0:
-                    if state[j] == AT_LOWER:
-                        continue
-                else:
+                elif state[j] == AT_LOWER:  # (dj > 0)
                     continue
                 if first < 0:
                     first = j
                     if scores is None:
                         w = self.weights
-                        scores = self.scores = [2 * _log16(v) - w[i] if v else 0 for i, v in enumerate(d)]
+                        scores = self.scores = [0] * len(d)
+                        for i in compress(range(len(d)), d):
+                            scores[i] = 2 * _log16(d[i]) - w[i]
                 score = scores[j]
                 if best_score is None or score > best_score:
                     best, best_score = j, score
@@ -1051,9 +1054,8 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
                     best = j
             return first, best
         best_abs = ZERO
-        for j, dj in enumerate(d):
-            if dj is None:
-                continue
+        for j in compress(range(len(d)), d):  # (the nonzero d_j: as above)
+            dj = d[j]
             a = _gain(dj, state[j])
             if a is None:
                 continue
