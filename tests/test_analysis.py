@@ -1165,11 +1165,15 @@ def test_face_probes_on_a_network_are_the_solves_from_their_own(monkeypatch):
 
     monkeypatch.setattr(solver_module, "_sparse_reduced_costs", checked)
     m = network(20, 30, 6)
-    pairs, _ = _face_probe_pairs(m)
+    # (a probe whose variable rests at the bound its sense seeks is optimal at the
+    # start: its outcome is made without the pivot loop, see _start_optimal)
+    with calls_recorded(solver_module, "_start_optimal") as known:
+        pairs, _ = _face_probe_pairs(m)
     assert len(pairs) == 2 * len(m.variables) == 244
     for probe, got, own in pairs:
         assert _same_but_time(got, own) == {}
     assert len(few) == len(pairs) and 0 < sum(few) < len(few)  # (both ways taken)
+    assert len(known) == len(pairs) and 0 < sum(known) < len(known)
     assert sum(got.iterations > 0 for _, got, _ in pairs) >= 20
 
 
