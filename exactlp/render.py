@@ -486,21 +486,39 @@ def ranges_report(console: Console, model: Model, rg, rows: int | None = ROWS, c
 
 def conflict_report(console: Console, model: Model, c, rows: int | None = ROWS, checked: str | None = None) -> None:
     n_items = len(c.constraints) + len(c.bounds)
-    console.print(Text(f"These {n_items} rules cannot all hold together; dropping any one of them makes the rest "
-                       f"feasible (checked by {c.solves} exact solves):"), soft_wrap=True)
+    checked_by = f"(checked by {c.solves} exact solves)"
+    crossed = c.result.crossed
+    if crossed is not None:
+        # one item whose own two sides cross: the proof is those two numbers, and
+        # there are no Farkas multipliers to show
+        kind, name = crossed
+        what = (f"The bounds of the variable '{name}' cannot both hold: the lower one is above the upper one"
+                if kind == "variable" else f"The constraint '{name}' cannot hold: its lower side is above its upper side")
+        console.print(Text(f"{what}; dropping it makes the rest feasible {checked_by}:"), soft_wrap=True)
+    elif n_items == 1:
+        console.print(Text(f"This rule cannot hold by itself; dropping it makes the rest feasible {checked_by}:"),
+                      soft_wrap=True)
+    else:
+        console.print(Text(f"These {n_items} rules cannot all hold together; dropping any one of them makes the "
+                           f"rest feasible {checked_by}:"), soft_wrap=True)
     t = Table(box=BOX)
     t.add_column("rule")
-    t.add_column("multiplier", justify="right")
+    if crossed is None:
+        t.add_column("multiplier", justify="right")
     t.add_column("formula")
     by_name = {x.name: x for x in model.constraints}
     shown, left = _cap([(True, k) for k in c.constraints] + [(False, k) for k in c.bounds], rows)
     for is_row, name in shown:
         if is_row:
-            add_row(t, name, format_number(c.result.farkas_rows.get(name, Fraction(0))), row_formula(by_name[name]))
+            cells = [name, row_formula(by_name[name])]
+            mult = c.result.farkas_rows.get(name, Fraction(0)) if crossed is None else None
         else:
             v = model.variable(name)
-            add_row(t, f"bound of {name}", format_number(c.result.farkas_bounds.get(name, Fraction(0))),
-                    f"{lo(v.lower)} <= {name} <= {hi(v.upper)}")
+            cells = [f"bound of {name}", f"{lo(v.lower)} <= {name} <= {hi(v.upper)}"]
+            mult = c.result.farkas_bounds.get(name, Fraction(0)) if crossed is None else None
+        if mult is not None:
+            cells.insert(1, format_number(mult))
+        add_row(t, *cells)
     console.print(t)
     _more(console, left, "rules", "--json and -o hold every multiplier")
     check_line(console, checked)

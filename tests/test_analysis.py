@@ -134,6 +134,27 @@ def test_conflict_on_the_overcommitted_case_is_minimal():
         assert exactlp.solve(_subset(m, rows, bounded - {name})).status.value == "optimal"
 
 
+@pytest.mark.parametrize("text, said, table", [
+    ("minimize: x\nvariables: {x: {lower: 5, upper: 3}}\n",
+     "The bounds of the variable 'x' cannot both hold: the lower one is above the upper one; dropping it makes "
+     "the rest feasible (checked by 2 exact solves):", ["rule         formula", "bound of x   5 <= x <= 3"]),
+    ("minimize: x\nvariables: {x: {}}\nconstraints:\n  r: {terms: {x: 1}, lower: 4, upper: 2}\n",
+     "The constraint 'r' cannot hold: its lower side is above its upper side; dropping it makes the rest "
+     "feasible (checked by 2 exact solves):", ["rule   formula", "r      4 <= x <= 2"]),
+])
+def test_conflict_of_one_crossed_item_says_so_without_multipliers(cli, tmp_path, text, said, table):
+    # a crossed item's proof is its own two sides: the screen says that, and has no
+    # multiplier column (it once showed a multiplier of 0, and "These 1 rules")
+    path = tmp_path / "m.yaml"
+    path.write_text(text)
+    code, out, err = cli("conflict", path)
+    assert code == 0 and err == ""
+    lines = out.splitlines()
+    assert lines[0] == said
+    assert "multiplier" not in out and "These" not in out
+    assert [ln.strip() for ln in lines[1:6] if ln.strip() and not ln.strip().startswith("─")] == table
+
+
 def test_conflict_of_a_feasible_model_is_refused():
     with pytest.raises(exactlp.InputError) as exc:
         conflict(exactlp.load(CASES / "grants.yaml"))
