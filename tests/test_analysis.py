@@ -155,6 +155,18 @@ def test_conflict_of_one_crossed_item_says_so_without_multipliers(cli, tmp_path,
     assert [ln.strip() for ln in lines[1:6] if ln.strip() and not ln.strip().startswith("─")] == table
 
 
+def test_conflict_of_one_rule_that_cannot_hold_alone(cli, tmp_path):
+    # a row whose terms are all 0 and whose side is not: one rule, with its multiplier
+    path = tmp_path / "m.yaml"
+    path.write_text("minimize: x\nvariables: {x: {}}\nconstraints:\n  r: {terms: {x: 0}, lower: 4}\n")
+    code, out, err = cli("conflict", path)
+    assert code == 0 and err == ""
+    lines = [ln.strip() for ln in out.splitlines() if ln.strip() and not ln.strip().startswith("─")]
+    assert lines[:3] == [
+        "This rule cannot hold by itself; dropping it makes the rest feasible (checked by 3 exact solves):",
+        "rule   multiplier   formula", "r               1   0 >= 4"]
+
+
 def test_conflict_of_a_feasible_model_is_refused():
     with pytest.raises(exactlp.InputError) as exc:
         conflict(exactlp.load(CASES / "grants.yaml"))
