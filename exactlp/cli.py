@@ -54,11 +54,25 @@ class _OneLineErrors(typer.core.TyperGroup):
         sys.exit(code if isinstance(code, int) else 0)
 
 
+#: an output option given to the command that names its output otherwise: the
+#: option it has instead (``solve`` writes a certificate and a log, the analyses
+#: a report)
+_OUTPUT_INSTEAD = {
+    **{("solve", o): "the certificate is written with -c/--certificate, the log with -l/--log"
+       for o in ("-o", "--output")},
+    **{(c, o): "the report is written with -o/--output"
+       for c in ("sensitivity", "ranges", "conflict") for o in ("-c", "--certificate")},
+}
+
+
 def _usage_line(e) -> str:
     """``exactlp: solve: Missing argument 'MODEL'. (see 'exactlp solve -h')``: the
     command, the command-line library's own words on one line, and where help is."""
     ctx = getattr(e, "ctx", None)
     text = " ".join(e.format_message().split())
+    instead = _OUTPUT_INSTEAD.get((getattr(ctx, "info_name", None), getattr(e, "option_name", None)))
+    if instead is not None and type(e).__name__ == "NoSuchOption":
+        text = f"{text.rstrip('.')}; {instead}"
     where = ""
     helper = "exactlp -h"
     if ctx is not None and ctx.command_path and ctx.command_path != ctx.find_root().info_name:

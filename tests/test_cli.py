@@ -348,6 +348,25 @@ def test_usage_errors_are_one_line(cli, args, where, names):
     assert names in err.lower()
 
 
+@pytest.mark.parametrize("command, option, instead", [
+    ("solve", "-o", "the certificate is written with -c/--certificate, the log with -l/--log"),
+    ("solve", "--output", "the certificate is written with -c/--certificate, the log with -l/--log"),
+    ("sensitivity", "-c", "the report is written with -o/--output"),
+    ("ranges", "--certificate", "the report is written with -o/--output"),
+    ("conflict", "-c", "the report is written with -o/--output"),
+])
+def test_an_output_option_of_another_command_names_this_ones(cli, tmp_path, command, option, instead):
+    # solve writes a certificate (-c) and the analyses a report (-o): the other's
+    # option is refused with the one this command has, and nothing is written
+    out_file = tmp_path / "out.yaml"
+    code, out, err = cli(command, DROUGHT, option, out_file)
+    assert (code, out) == (2, "")
+    # (the middle is the command-line library's wording, which its versions change)
+    assert err.startswith(f"exactlp: {command}: ") and option in err and err.count("\n") == 1
+    assert err.endswith(f"; {instead} (see 'exactlp {command} -h')\n")
+    assert not out_file.exists()
+
+
 def test_verify_with_its_arguments_swapped_or_doubled_says_so(cli, tmp_path):
     cert = tmp_path / "c.yaml"
     assert cli("solve", DROUGHT, "-c", cert)[0] == 0
