@@ -158,6 +158,22 @@ def test_wrong_short_value_goes_back_to_exact(monkeypatch):
 
     monkeypatch.setattr(steer_module.SteeredPricing, "_steer_update", spoiling)
     monkeypatch.setattr(steer_module.SteeredPricing, "_steer_dq", exact_dq)
+    # the exact values priced again after the return meet weights that the
+    # steered pivots have grown, and the scores made from them must read them
+    # (check_updates would also check the short values, which this test spoils)
+    from exactlp.solver.pricing import _log16
+
+    plain_price = simplex_module.Simplex._price
+    scored: list = []
+
+    def checked_price(self, d, weighted):
+        got = plain_price(self, d, weighted)
+        if self.scores is not None:
+            assert all(self.scores[j] == 2 * _log16(dj) - self.weights[j] for j, dj in enumerate(d) if dj)
+            scored.append(any(self.weights))
+        return got
+
+    monkeypatch.setattr(simplex_module.Simplex, "_price", checked_price)
     model = MODELS[1]
     r = solve_verified(model, warm_start=False)
     assert r.status is exactlp.Status.OPTIMAL and r.objective == _exact_path(model).objective
@@ -169,6 +185,7 @@ def test_wrong_short_value_goes_back_to_exact(monkeypatch):
     phase_of = lambda n: 2 if n else 1  # noqa: E731
     later = [n for k, n in log[first_wrong + 1:] if k == "update"]
     assert all(phase_of(n) != phase_of(log[first_wrong][1]) for n in later)
+    assert any(scored)  # (scores made over grown weights were checked)
 
 
 def test_phase_ends_only_on_an_exact_proof(monkeypatch):
