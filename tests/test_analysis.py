@@ -545,6 +545,63 @@ def test_conflict_report_tampering_is_caught():
     assert not check_report(m, bad).valid
 
 
+def test_conflict_report_with_values_of_the_wrong_kind_is_refused_by_name():
+    # a point's value or a drop's name that is not text is refused as such (a list
+    # there was an internal error, a TypeError, before)
+    import copy
+
+    from exactlp.report_check import check_report
+
+    m, rep = _conflict_report()
+    bad = copy.deepcopy(rep)
+    bad["minimality"][0]["point"]["north"] = [1]
+    assert check_report(m, bad).failure.detail == "minimality: dropping constraint 'fund': point.north is not an exact number"
+    bad = copy.deepcopy(rep)
+    bad["minimality"][0]["drop"]["name"] = ["fund"]
+    assert check_report(m, bad).failure.detail == (
+        "minimality: a drop's kind and name must be text, found 'constraint' and ['fund']")
+
+
+def test_every_leaf_of_a_report_replaced_by_the_wrong_kind_gives_a_verdict():
+    # each leaf of a conflict, a ranges and a sensitivity report replaced in turn
+    # by a list, a mapping, a null, a number, a boolean and a word: the check
+    # answers (valid or not) and never raises
+    import copy
+
+    from exactlp.analysis import ranges
+    from exactlp.report_check import check_report
+    from exactlp.reports import ranges_report, sensitivity_report
+
+    m, rep = _conflict_report()
+    berth = exactlp.load(CASES / "berth.yaml")
+    cases = [(m, rep), (berth, ranges_report(berth, ranges(berth))),
+             (berth, sensitivity_report(berth, sensitivity(berth)))]
+
+    def leaves(obj, path=()):
+        if isinstance(obj, dict):
+            for k, v in obj.items():
+                yield from leaves(v, path + (k,))
+        elif isinstance(obj, list):
+            for i, v in enumerate(obj):
+                yield from leaves(v, path + (i,))
+        else:
+            yield path
+
+    tried = 0
+    for model, report in cases:
+        assert check_report(model, report).valid
+        for path in leaves(report):
+            for value in ([1], {}, None, 5, True, "x"):
+                bad = copy.deepcopy(report)
+                at = bad
+                for key in path[:-1]:
+                    at = at[key]
+                at[path[-1]] = value
+                assert type(check_report(model, bad).valid) is bool
+                tried += 1
+    assert tried > 1000
+
+
 def test_ranges_report_tampering_is_caught():
     import copy
 
