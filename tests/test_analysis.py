@@ -132,6 +132,17 @@ def test_conflict_on_the_overcommitted_case_is_minimal():
         assert exactlp.solve(_subset(m, rows - {name}, bounded)).status.value == "optimal"
     for name in c.bounds:
         assert exactlp.solve(_subset(m, rows, bounded - {name})).status.value == "optimal"
+    # a witness per member: every variable, in the model's order, each a Fraction,
+    # read as a dictionary; all of them over one shared map of the names
+    names = [v.name for v in m.variables]
+    assert sorted(c.witnesses) == sorted([("constraint", n) for n in c.constraints] + [("bound", n) for n in c.bounds])
+    for (kind, name), point in c.witnesses.items():
+        assert list(point) == names and len(point) == len(names)
+        assert all(type(point[n]) is F for n in names) and dict(point) == {n: point[n] for n in names}
+        one_out = _subset(m, rows - {name} if kind == "constraint" else rows,
+                          bounded - {name} if kind == "bound" else bounded)
+        assert all(v.lower is None or point[v.name] >= v.lower for v in one_out.variables)
+    assert len({id(p._index) for p in c.witnesses.values()}) == 1
 
 
 @pytest.mark.parametrize("text, said, table", [
