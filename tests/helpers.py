@@ -267,3 +267,16 @@ def network(sources: int, districts: int, reach: int | None = None) -> Model:
     from exactlp.io import model_from_text
 
     return model_from_text(network_text(sources, districts, reach))
+
+
+def leaf_paths(doc, path=()):
+    """The path (keys and list positions) to every leaf of a document of
+    dictionaries and lists, depth first, in order."""
+    if isinstance(doc, dict):
+        for k, v in doc.items():
+            yield from leaf_paths(v, path + (k,))
+    elif isinstance(doc, list):
+        for i, v in enumerate(doc):
+            yield from leaf_paths(v, path + (i,))
+    else:
+        yield path

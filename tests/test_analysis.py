@@ -588,20 +588,12 @@ def test_every_leaf_of_a_report_replaced_by_the_wrong_kind_gives_a_verdict():
     cases = [(m, rep), (berth, ranges_report(berth, ranges(berth))),
              (berth, sensitivity_report(berth, sensitivity(berth)))]
 
-    def leaves(obj, path=()):
-        if isinstance(obj, dict):
-            for k, v in obj.items():
-                yield from leaves(v, path + (k,))
-        elif isinstance(obj, list):
-            for i, v in enumerate(obj):
-                yield from leaves(v, path + (i,))
-        else:
-            yield path
+    from .helpers import leaf_paths
 
     tried = 0
     for model, report in cases:
         assert check_report(model, report).valid
-        for path in leaves(report):
+        for path in leaf_paths(report):
             for value in ([1], {}, None, 5, True, "x"):
                 bad = copy.deepcopy(report)
                 at = bad

@@ -19,6 +19,7 @@ from exactlp.model import Constraint, Model
 from exactlp.numbers import format_number, parse_number
 from exactlp.verifier import verify
 
+from .helpers import leaf_paths
 from .models import KNOWN, klee_minty
 
 CERT_CASES = [(k[0], k[1]) for k in KNOWN] + [("klee-minty-3", klee_minty(3))]
@@ -78,19 +79,16 @@ def test_hand_built_valid_certificate_with_other_multipliers():
 NOT_PROOF = {("tool",), ("model", "name"), ("notice",)}
 
 
-def number_paths(doc, path=()):
-    if isinstance(doc, dict):
-        for k, v in doc.items():
-            yield from number_paths(v, path + (k,))
-    elif isinstance(doc, list):
-        for i, v in enumerate(doc):
-            yield from number_paths(v, path + (i,))
-    elif isinstance(doc, str):
-        try:
-            parse_number(doc)
-        except exactlp.InputError:
-            return
-        yield path
+def number_paths(doc):
+    """The paths to the leaves that are exact numbers written as text."""
+    for path in leaf_paths(doc):
+        value = get(doc, path)
+        if isinstance(value, str):
+            try:
+                parse_number(value)
+            except exactlp.InputError:
+                continue
+            yield path
 
 
 def entry_paths(doc, path=()):
