@@ -567,7 +567,7 @@ def trace(
 
 def _write_report(model_path: str, m, doc: dict, output: str, say=lambda text: None) -> None:
     """Check a report as a reviewer would, then write it atomically."""
-    from .certificate import dump_certificate
+    from .certificate import dump_certificate, dump_yaml_to
     from .io.atomic import write_atomic
     from .report_check import check_report
 
@@ -575,8 +575,10 @@ def _write_report(model_path: str, m, doc: dict, output: str, say=lambda text: N
     v = check_report(m, doc)
     if not v.valid:  # our own report fails its check: a bug, never written
         raise RuntimeError(f"the report failed its check: {v.failure.detail}")
-    write_atomic(output, dump_certificate(doc, "json" if output.endswith(".json") else "yaml"),
-                 protect=(model_path,))
+    if output.endswith(".json"):
+        write_atomic(output, dump_certificate(doc, "json"), protect=(model_path,))
+    else:  # (written as it is made: a large report's lines are not all held at once)
+        write_atomic(output, lambda fh: dump_yaml_to(doc, fh), protect=(model_path,))
 
 
 def _check_option():

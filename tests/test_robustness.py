@@ -302,3 +302,37 @@ def test_interrupt_or_termination_outside_a_solve_is_one_line_and_leaves_no_file
     assert capsys.readouterr().err == "exactlp: terminated; no file is left half-written\n"
     assert list(tmp_path.iterdir()) == []
     assert signal.getsignal(signal.SIGTERM) is before
+
+
+def test_a_report_written_as_it_is_made_is_the_same_text(tmp_path, monkeypatch):
+    # dump_yaml_to writes dump_yaml's characters in chunks of lines: the same
+    # file for any chunk size, an empty document included; and a writer that
+    # fails part way leaves no file, the target's old text and no temporary
+    from exactlp import certificate
+    from exactlp.analysis import conflict
+    from exactlp.io import atomic
+    from exactlp.reports import conflict_report
+
+    from .conftest import CASES
+
+    m = exactlp.load(CASES / "grants_overcommitted.yaml")
+    docs = [{}, [], {"a": []}, {"a": {}, "b": [1, None, True, "x y"]}, conflict_report(m, conflict(m))]
+    for size in (1, 2, 3, 7, certificate.SINK_LINES):
+        monkeypatch.setattr(certificate, "SINK_LINES", size)
+        for k, doc in enumerate(docs):
+            path = tmp_path / f"d{k}.yaml"
+            atomic.write_atomic(path, lambda fh, doc=doc: certificate.dump_yaml_to(doc, fh))
+            assert path.read_text(encoding="utf-8") == certificate.dump_yaml(doc)
+    assert certificate.dump_yaml({}) == "\n" and certificate.dump_yaml(docs[-1]).count("\n") > 50
+
+    target = tmp_path / "report.yaml"
+    target.write_text("old\n")
+    before = sorted(p.name for p in tmp_path.iterdir())
+
+    def fails(fh):
+        fh.write("half")
+        raise OSError("disk full")
+
+    with pytest.raises(OSError):
+        atomic.write_atomic(target, fails)
+    assert target.read_text() == "old\n" and sorted(p.name for p in tmp_path.iterdir()) == before

@@ -33,8 +33,11 @@ def same_file(a: str | os.PathLike, b: str | os.PathLike) -> bool:
         return os.path.abspath(a) == os.path.abspath(b)
 
 
-def write_atomic(path: str | os.PathLike, text: str, *, protect: tuple = ()) -> None:
-    """Write ``text`` to ``path`` atomically; refuse to overwrite ``protect`` paths."""
+def write_atomic(path: str | os.PathLike, text, *, protect: tuple = ()) -> None:
+    """Write ``text`` to ``path`` atomically; refuse to overwrite ``protect`` paths.
+
+    ``text`` is a string, or a function that writes the text to the open file
+    it is given (a large report, written as it is made)."""
     p = os.fspath(path)
     for other in protect:
         if other is not None and same_file(p, other):
@@ -51,7 +54,10 @@ def write_atomic(path: str | os.PathLike, text: str, *, protect: tuple = ()) -> 
                 os.fchmod(fh.fileno(), os.stat(p).st_mode & 0o7777)
             except OSError:  # (none there yet, or not ours to read)
                 pass
-            fh.write(text)
+            if callable(text):
+                text(fh)
+            else:
+                fh.write(text)
             fh.flush()
             os.fsync(fh.fileno())
         os.replace(tmp, p)
