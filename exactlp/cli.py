@@ -738,6 +738,10 @@ def conflict(
                 "bound_multipliers": {k: format_number(v) for k, v in c.result.farkas_bounds.items()},
                 "solves": c.solves,
             }
+            if c.result.crossed is not None:
+                # one item whose own sides cross: that is the proof, and there are no multipliers
+                kind, name = c.result.crossed
+                doc["crossed"] = {"kind": kind, "name": name}
             typer.echo(_dumps(doc))
         else:
             from .render import conflict_report

@@ -166,6 +166,20 @@ def test_conflict_of_one_crossed_item_says_so_without_multipliers(cli, tmp_path,
     assert [ln.strip() for ln in lines[1:6] if ln.strip() and not ln.strip().startswith("─")] == table
 
 
+def test_conflict_json_of_one_crossed_item_names_it(cli, tmp_path):
+    # --json says which item crosses (the screen's sentence), with no multipliers;
+    # a conflict of rules has no such key
+    path = tmp_path / "m.yaml"
+    path.write_text("minimize: x\nvariables: {x: {}}\nconstraints:\n  r: {terms: {x: 1}, lower: 4, upper: 2}\n")
+    code, out, err = cli("conflict", path, "--json")
+    doc = json.loads(out)
+    assert (code, err) == (0, "")
+    assert doc["crossed"] == {"kind": "constraint", "name": "r"}
+    assert (doc["constraints"], doc["bounds"], doc["multipliers"], doc["bound_multipliers"]) == (["r"], [], {}, {})
+    code, out, err = cli("conflict", CASES / "grants_overcommitted.yaml", "--json")
+    assert code == 0 and "crossed" not in json.loads(out)
+
+
 def test_conflict_of_one_rule_that_cannot_hold_alone(cli, tmp_path):
     # a row whose terms are all 0 and whose side is not: one rule, with its multiplier
     path = tmp_path / "m.yaml"
