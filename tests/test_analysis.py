@@ -1419,6 +1419,34 @@ def test_range_probes_leave_nothing_to_the_cyclic_collector(monkeypatch):
     assert left == 0
 
 
+def test_conflict_filter_leaves_nothing_to_the_cyclic_collector():
+    # the filter pauses the collector over its trials (as ranges do over their
+    # probes): none of them may make a reference cycle, or it would be kept
+    # until the collector runs again; here a network made infeasible with every
+    # source's yield cut to a tenth, whose conflict is many rules and bounds
+    import gc
+    import re
+
+    from .helpers import network_text
+
+    text = re.sub(r"^(  yield_\d+: .*<= )(\d+)$", lambda g: f"{g[1]}{int(g[2]) // 10}", network_text(6, 9, 3),
+                  flags=re.M)
+    m = model_from_text(text)
+    conflict(m)  # (once before: what the first run imports or caches is not counted)
+    gc.collect()
+    was = gc.isenabled()
+    gc.disable()
+    try:
+        c = conflict(m)
+        assert (len(c.constraints), len(c.bounds), c.solves) == (11, 4, 17)
+        del c
+        left = gc.collect()
+    finally:
+        if was:
+            gc.enable()
+    assert left == 0
+
+
 @needs_netlib
 def test_shared_start_probes_on_adlittle_match_their_own_solves():
     # a real model with a degenerate optimum (source of the data: the Netlib LP set)
