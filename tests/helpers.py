@@ -280,3 +280,23 @@ def leaf_paths(doc, path=()):
             yield from leaf_paths(v, path + (i,))
     else:
         yield path
+
+
+def left_in_cycles(make, check=lambda got: None) -> int:
+    """How many objects a second call of ``make()`` leaves to the cyclic
+    collector (the first call is not counted: what it imports or caches).
+    ``check`` is called with the second call's result before it is dropped."""
+    import gc
+
+    make()
+    gc.collect()
+    was = gc.isenabled()
+    gc.disable()
+    try:
+        got = make()
+        check(got)
+        del got
+        return gc.collect()
+    finally:
+        if was:
+            gc.enable()

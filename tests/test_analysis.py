@@ -1394,29 +1394,19 @@ def test_range_probes_leave_nothing_to_the_cyclic_collector(monkeypatch):
     # for every factorisation: a first version of the short copies' memo kept
     # an object that refers to its basis, and left 118 objects in cycles on
     # this network (0 without it)
-    import gc
-
     from exactlp.analysis import ranges
     from exactlp.solver import dual as dual_module, steer
 
-    from .helpers import network
+    from .helpers import left_in_cycles, network
 
     monkeypatch.setattr(steer, "STEER_BITS", 0)
     monkeypatch.setattr(dual_module, "TAU_SHORT_BITS", 0)
     m = network(6, 9, 3)
-    ranges(m)  # (once before: what the first run imports or caches is not counted)
-    gc.collect()
-    was = gc.isenabled()
-    gc.disable()
-    try:
-        rg = ranges(m)
+
+    def check(rg):
         assert sum(len(ends) for ends in rg.endpoints.values()) == 22
-        del rg
-        left = gc.collect()
-    finally:
-        if was:
-            gc.enable()
-    assert left == 0
+
+    assert left_in_cycles(lambda: ranges(m), check) == 0
 
 
 def test_conflict_filter_leaves_nothing_to_the_cyclic_collector():
@@ -1424,27 +1414,18 @@ def test_conflict_filter_leaves_nothing_to_the_cyclic_collector():
     # probes): none of them may make a reference cycle, or it would be kept
     # until the collector runs again; here a network made infeasible with every
     # source's yield cut to a tenth, whose conflict is many rules and bounds
-    import gc
     import re
 
-    from .helpers import network_text
+    from .helpers import left_in_cycles, network_text
 
     text = re.sub(r"^(  yield_\d+: .*<= )(\d+)$", lambda g: f"{g[1]}{int(g[2]) // 10}", network_text(6, 9, 3),
                   flags=re.M)
     m = model_from_text(text)
-    conflict(m)  # (once before: what the first run imports or caches is not counted)
-    gc.collect()
-    was = gc.isenabled()
-    gc.disable()
-    try:
-        c = conflict(m)
+
+    def check(c):
         assert (len(c.constraints), len(c.bounds), c.solves) == (11, 4, 17)
-        del c
-        left = gc.collect()
-    finally:
-        if was:
-            gc.enable()
-    assert left == 0
+
+    assert left_in_cycles(lambda: conflict(m), check) == 0
 
 
 @needs_netlib
