@@ -1,0 +1,318 @@
+"""Consistent forgeries: certificates whose every stated number agrees with their own
+vectors (the activities are ``A x``, the reduced costs ``c - A^T y``, the Farkas
+bounds ``-A^T y`` and its right-hand side, the ray's ``A r`` and ``c^T r``), but
+whose claim is false.
+
+The single-number mutations of test_certificates.py are refused at the first number
+the verifier recomputes; these get past every recomputed number and reach the
+checks behind them: the sides a multiplier or a reduced cost rests on, the zero
+gap, the Farkas contradiction and the sides it uses, a crossed pair of bounds, the
+ray's direction, and the priority tiers.  Each must be refused with its exact
+message.  The verdicts follow from weak duality and Farkas' lemma (common practice,
+no one source); every number below is worked by hand in the comment beside it, and
+the forged certificates are built here with ``fractions.Fraction`` alone.
+"""
+
+import copy
+import dataclasses
+from fractions import Fraction as F
+
+import pytest
+
+import exactlp
+from exactlp.io import model_from_text
+from exactlp.numbers import format_number
+from exactlp.verifier import FORMAT, verify
+
+from .conftest import CASES
+
+# minimise 2a + 3b over a + b >= 5, a - b <= 1, 0 <= a, 0 <= b <= 4: the optimum is
+# 12 at (3, 2), proven by y = (5/2, -1/2) (c - A^T y = (2 - 5/2 + 1/2, 3 - 5/2 - 1/2)
+# = 0, and 5 * 5/2 + 1 * (-1/2) = 12)
+MIN_ROWS = ("minimize: 2 a + 3 b\nvariables: {a: {}, b: {upper: 4}}\n"
+            "constraints:\n  need: a + b >= 5\n  cap: a - b <= 1\n")
+# maximise a + b over a + 2b <= 6, b free above -2, a >= 0
+MAX_ROWS = "maximize: a + b\nvariables: {a: {}, b: {lower: -2}}\nconstraints:\n  share: a + 2 b <= 6\n"
+# feasible only just: x + y >= 5 with x <= 3 and y <= 2 holds at (3, 2)
+TIGHT = "minimize: x + y\nvariables: {x: {upper: 3}, y: {upper: 2}}\nconstraints:\n  need: x + y >= 5\n"
+# y has no upper bound and z none below
+OPEN = ("minimize: x\nvariables: {x: {upper: 3}, y: {}, z: {lower: -inf, upper: 1}, e: {fixed: 2}}\n"
+        "constraints:\n  need: x + y >= 5\n  cap: x + z <= 1\n")
+# maximise x - z - w: x is held by 'link' through y <= 3, z by 'floor', w by nothing
+# but its cost (so no ray improves it)
+RAYS = ("maximize: x - z - w\nvariables: {x: {}, y: {upper: 3}, z: {lower: -inf, upper: 0}, w: {}}\n"
+        "constraints:\n  link: x - y <= 2\n  floor: y + z >= -1\n")
+
+
+def fr(values: dict) -> dict:
+    return {k: F(v) for k, v in values.items()}
+
+
+def txt(values: dict) -> dict:
+    return {k: format_number(F(v)) for k, v in values.items()}
+
+
+def head(m, status: str) -> dict:
+    return {"format": FORMAT, "model": {"name": m.name, "fingerprint": m.fingerprint},
+            "sense": m.sense.value, "status": status}
+
+
+def times(m, x: dict) -> dict:
+    """``A x`` by row."""
+    return {c.name: sum((a * x.get(n, 0) for n, a in c.terms), F(0)) for c in m.constraints}
+
+
+def transposed(m, y: dict) -> dict:
+    """``A^T y`` by variable."""
+    g = {v.name: F(0) for v in m.variables}
+    for c in m.constraints:
+        for n, a in c.terms:
+            g[n] += a * y.get(c.name, 0)
+    return g
+
+
+def dense(m, x: dict) -> dict:
+    """Every variable's value, zero where ``x`` leaves it out."""
+    return {v.name: F(x.get(v.name, 0)) for v in m.variables}
+
+
+def optimal(m, x, y, dual_objective="0") -> dict:
+    """An optimal claim with activities, objective and reduced costs made to agree."""
+    x, y = dense(m, x), fr(y)
+    cost = dict(m.objective)
+    g = transposed(m, y)
+    obj = sum((cost.get(n, 0) * v for n, v in x.items()), F(m.objective_constant))
+    d = {v.name: cost.get(v.name, 0) - g[v.name] for v in m.variables}
+    return {**head(m, "optimal"), "objective": format_number(obj), "primal": txt(x),
+            "activities": txt(times(m, x)), "duals": txt(y), "reduced_costs": txt(d),
+            "dual_objective": dual_objective}
+
+
+def farkas(m, y, rhs) -> dict:
+    """An infeasible claim whose bounds' multipliers are ``-A^T y``."""
+    y = fr(y)
+    mu = {n: -v for n, v in transposed(m, y).items() if v}
+    return {**head(m, "infeasible"), "farkas": {
+        "multipliers": txt(y), "bounds": txt(mu), "rhs": format_number(F(rhs)),
+        "constraints": [c.name for c in m.constraints if y.get(c.name)],
+        "bound_variables": [v.name for v in m.variables if mu.get(v.name)]}}
+
+
+def unbounded(m, x, r) -> dict:
+    """An unbounded claim with the point's and the ray's activities made to agree."""
+    x, r = dense(m, x), fr(r)
+    cost = dict(m.objective)
+    return {**head(m, "unbounded"), "primal": txt(x), "activities": txt(times(m, x)), "ray": txt(r),
+            "ray_activities": txt(times(m, r)),
+            "ray_objective": format_number(sum((cost.get(n, 0) * v for n, v in r.items()), F(0)))}
+
+
+def crossed(m, kind, name, lower, upper) -> dict:
+    return {**head(m, "infeasible"), "crossed_bounds": {"kind": kind, "name": name, "lower": lower, "upper": upper}}
+
+
+FORGERIES = [
+    # -- optimal: the recomputed numbers agree, the proof does not hold --------------------
+    ("a variable outside its bounds", MIN_ROWS,
+     lambda m: optimal(m, {"a": 0, "b": 5}, {"need": 0, "cap": 0}),
+     "bound of 'b' violated: value 5 outside [0, 4]"),
+    ("a variable below its lower bound", MIN_ROWS,
+     lambda m: optimal(m, {"a": -1, "b": 4}, {"need": 0, "cap": 0}),
+     "bound of 'a' violated: value -1 outside [0, inf]"),
+    ("a variable with no lower bound above its upper one", OPEN,
+     lambda m: optimal(m, {"x": 0, "y": 5, "z": 2, "e": 2}, {}),
+     "bound of 'z' violated: value 2 outside [-inf, 1]"),
+    ("a row below its lower side", MIN_ROWS,  # a + b = 2 < 5
+     lambda m: optimal(m, {"a": 1, "b": 1}, {"need": 0, "cap": 0}),
+     "constraint 'need' violated: activity 2 outside [5, inf]"),
+    ("a row above its upper side", MIN_ROWS,  # a - b = 6 > 1 (a + b = 6 >= 5 holds)
+     lambda m: optimal(m, {"a": 6, "b": 0}, {"need": 0, "cap": 0}),
+     "constraint 'cap' violated: activity 6 outside [-inf, 1]"),
+    ("a minimising dual on the side a row does not have", MIN_ROWS,
+     # y_need = -1 would hold 'need' at an upper side; d = (2 + 1, 3 + 1) = (3, 4) agrees
+     lambda m: optimal(m, {"a": 3, "b": 2}, {"need": -1, "cap": 0}),
+     "dual of constraint 'need' is -1, which needs a finite upper side, and it has none"),
+    ("a minimising dual of the right sign passes to the next row", MIN_ROWS,
+     # y = (3, 1): 'need' rests on 5 as it should, 'cap' (y > 0: a lower side) has none
+     lambda m: optimal(m, {"a": 3, "b": 2}, {"need": 3, "cap": 1}),
+     "dual of constraint 'cap' is 1, which needs a finite lower side, and it has none"),
+    ("a maximising dual on the side a row does not have", MAX_ROWS,
+     # maximising, y < 0 rests on a lower side, and 'share' has only an upper one
+     lambda m: optimal(m, {"a": 6, "b": 0}, {"share": -1}),
+     "dual of constraint 'share' is -1, which needs a finite lower side, and it has none"),
+    ("a minimising reduced cost on the side a variable does not have", MIN_ROWS,
+     # y = (3, 0): d_a = 2 - 3 = -1 would hold a at an upper bound, and a has none
+     lambda m: optimal(m, {"a": 3, "b": 2}, {"need": 3, "cap": 0}),
+     "reduced cost of 'a' is -1, which needs a finite upper side, and it has none"),
+    ("a maximising reduced cost on the side a variable does not have", MAX_ROWS,
+     # y = 0: d = (1, 1); maximising, d_a > 0 rests on an upper bound, and a has none
+     lambda m: optimal(m, {"a": 0, "b": 3}, {"share": 0}),
+     "reduced cost of 'a' is 1, which needs a finite upper side, and it has none"),
+    ("a suboptimal point with the optimal duals", MIN_ROWS,
+     # (1, 4) is feasible at 2 + 12 = 14; y = (5/2, -1/2) gives d = 0 and the dual 12
+     lambda m: optimal(m, {"a": 1, "b": 4}, {"need": "5/2", "cap": "-1/2"}, "12"),
+     "duality gap: primal 14, dual 12, gap 2"),
+    ("a stated dual objective the duals do not give", MIN_ROWS,
+     lambda m: optimal(m, {"a": 3, "b": 2}, {"need": "5/2", "cap": "-1/2"}, "13"),
+     "dual_objective: stated 13, but the duals give 12"),
+    ("a name the model does not have", MIN_ROWS,
+     lambda m: dict(optimal(m, {"a": 3, "b": 2}, {"need": "5/2", "cap": "-1/2"}, "12"),
+                    primal={"a": "3", "b": "2", "c": "0"}),
+     "primal: 'c' is not in the model"),
+    ("a name left out", MIN_ROWS,
+     lambda m: dict(optimal(m, {"a": 3, "b": 2}, {"need": "5/2", "cap": "-1/2"}, "12"), primal={"b": "2"}),
+     "primal: 'a' is missing"),
+    # -- infeasible: Farkas multipliers that cancel the variables but contradict nothing ------
+    ("a combination that gives 0 >= 0", TIGHT,
+     # 1 * (x + y >= 5) - (x <= 3) - (y <= 2): 0 >= 5 - 3 - 2 = 0
+     lambda m: farkas(m, {"need": 1}, 0),
+     "farkas: the combination gives 0 >= 0, which is no contradiction"),
+    ("a combination that gives 0 >= a negative number", TIGHT.replace(">= 5", ">= 4"),
+     lambda m: farkas(m, {"need": 1}, -1),  # 0 >= 4 - 3 - 2 = -1
+     "farkas: the combination gives 0 >= -1, which is no contradiction"),
+    ("a combination with a weight of the wrong sign", TIGHT,
+     # -1 * (x + y >= 5) would take an upper side of 'need', which it does not have
+     lambda m: farkas(m, {"need": -1}, 0),
+     "farkas uses the infinite upper side of constraint 'need'"),
+    ("a combination through a bound that is not there", OPEN,
+     # 1 * 'need': mu = (-1, -1, 0) uses x <= 3 and an upper bound of y, which is infinite
+     lambda m: farkas(m, {"need": 1}, 0),
+     "farkas uses the infinite upper side of bound of 'y'"),
+    ("a combination through a lower bound that is not there", OPEN,
+     # -1 * 'cap' (x + z <= 1): mu = (1, 0, 1) uses x >= 0 and a lower bound of z
+     lambda m: farkas(m, {"cap": -1}, 0),
+     "farkas uses the infinite lower side of bound of 'z'"),
+    ("a right-hand side the multipliers do not give", TIGHT.replace(">= 5", ">= 6"),
+     lambda m: farkas(m, {"need": 1}, 2),  # 6 - 3 - 2 = 1, not 2
+     "farkas.rhs: stated 2, but the multipliers give 1"),
+    ("a list of rows that is not the multipliers' support", "minimize: x\nvariables: {x: {upper: 3}}\n"
+     "constraints:\n  need: x >= 5\n",
+     lambda m: {**farkas(m, {"need": 1}, 2), "farkas": {**farkas(m, {"need": 1}, 2)["farkas"], "constraints": []}},
+     "farkas.constraints: stated [], but the nonzero multipliers are ['need']"),
+    ("a list of bounds that is not the multipliers' support", "minimize: x\nvariables: {x: {upper: 3}}\n"
+     "constraints:\n  need: x >= 5\n",
+     lambda m: {**farkas(m, {"need": 1}, 2),
+                "farkas": {**farkas(m, {"need": 1}, 2)["farkas"], "bound_variables": ["x", "x"]}},
+     "farkas.bound_variables: stated ['x', 'x'], but the nonzero multipliers are ['x']"),
+    # -- infeasible: bounds that are said to cross ------------------------------------------
+    ("bounds that do not cross", TIGHT, lambda m: crossed(m, "variable", "x", "0", "3"),
+     "crossed_bounds: the bounds of variable 'x' do not cross"),
+    ("bounds that are equal", OPEN, lambda m: crossed(m, "variable", "e", "2", "2"),
+     "crossed_bounds: the bounds of variable 'e' do not cross"),
+    ("a bound that is not there", OPEN, lambda m: crossed(m, "variable", "y", "0", "0"),
+     "crossed_bounds: the bounds of variable 'y' do not cross"),
+    ("a row's sides that do not cross", TIGHT, lambda m: crossed(m, "constraint", "need", "5", "4"),
+     "crossed_bounds: the bounds of constraint 'need' do not cross"),
+    ("an item the model does not have", TIGHT, lambda m: crossed(m, "variable", "q", "1", "0"),
+     "crossed_bounds: the model has no variable 'q'"),
+    ("a kind that is neither", TIGHT, lambda m: crossed(m, "bound", "x", "1", "0"),
+     "crossed_bounds: needs kind (variable or constraint) and name"),
+    ("crossed bounds stated other than the model's", "minimize: x\nvariables: {x: {lower: 5, upper: 3}}\n",
+     lambda m: crossed(m, "variable", "x", "6", "3"),
+     "crossed_bounds: the stated bounds differ from the model's"),
+    # -- unbounded: a feasible point and a direction that is not a ray of improvement ---------
+    ("a ray into an upper bound", RAYS, lambda m: unbounded(m, {}, {"y": 1}),
+     "ray.y = 1 runs into a finite bound of 'y'"),
+    ("a ray into a lower bound", RAYS, lambda m: unbounded(m, {}, {"x": -1}),
+     "ray.x = -1 runs into a finite bound of 'x'"),
+    ("a ray out through a row's upper side", RAYS, lambda m: unbounded(m, {}, {"x": 1}),  # A r = (1, 0)
+     "the ray leaves constraint 'link' (A r = 1 runs into a finite side)"),
+    ("a ray out through a row's lower side", RAYS, lambda m: unbounded(m, {}, {"z": -1}),  # A r = (0, -1)
+     "the ray leaves constraint 'floor' (A r = -1 runs into a finite side)"),
+    ("a ray that does not move the objective", RAYS, lambda m: unbounded(m, {}, {}),
+     "the ray does not improve the objective (c^T r = 0)"),
+    ("a maximising ray that worsens it", RAYS, lambda m: unbounded(m, {}, {"w": 1}),  # c^T r = -1
+     "the ray does not improve the objective (c^T r = -1)"),
+    ("a minimising ray that worsens it", "minimize: x\nvariables: {x: {}}\n",
+     lambda m: unbounded(m, {}, {"x": 2}), "the ray does not improve the objective (c^T r = 2)"),
+    ("a ray from a point outside the rows", RAYS, lambda m: unbounded(m, {"x": 3}, {"w": 1}),
+     "constraint 'link' violated: activity 3 outside [-inf, 2]"),
+]
+
+
+@pytest.mark.parametrize("name, text, forge, detail", FORGERIES, ids=[f[0] for f in FORGERIES])
+def test_a_consistent_forgery_is_refused_by_name(name, text, forge, detail):
+    m = model_from_text(text)
+    v = verify(m, forge(m))
+    assert (v.valid, v.failure.detail) == (False, detail)
+    assert v.checks[-1].name == "certificate" and not v.checks[-1].ok
+
+
+def test_the_forgeries_builders_make_valid_certificates_when_the_claim_holds():
+    # the builders are not forging by construction: with the true numbers each is accepted
+    m = model_from_text(MIN_ROWS)
+    v = verify(m, optimal(m, {"a": 3, "b": 2}, {"need": "5/2", "cap": "-1/2"}, "12"))
+    assert (v.valid, v.status) == (True, "optimal")
+    m = model_from_text(TIGHT.replace(">= 5", ">= 6"))
+    v = verify(m, farkas(m, {"need": 1}, 1))  # 0 >= 6 - 3 - 2 = 1
+    assert (v.valid, v.status) == (True, "infeasible")
+    m = model_from_text(RAYS.replace("- w", "+ w"))  # w grows without limit
+    v = verify(m, unbounded(m, {}, {"w": 1}))
+    assert (v.valid, v.status) == (True, "unbounded")
+    m = model_from_text(MAX_ROWS)
+    # maximising a + b with a = 6 - 2b on the row: 6 - b, largest at b = -2 (a = 10, 8);
+    # y = 1 rests on the row's upper side 6 and d = (1 - 1, 1 - 2) = (0, -1) rests b on
+    # its lower bound -2 (maximising, d < 0): the dual 6 * 1 + (-1) * (-2) = 8
+    v = verify(m, optimal(m, {"a": 10, "b": -2}, {"share": 1}, "8"))
+    assert (v.valid, v.status) == (True, "optimal")
+
+
+def test_the_verdicts_are_frozen():
+    m = model_from_text(MIN_ROWS)
+    v = verify(m, optimal(m, {"a": 3, "b": 2}, {"need": "5/2", "cap": "-1/2"}, "12"))
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        v.valid = False
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        v.checks[0].ok = False
+
+
+# -- priority tiers ------------------------------------------------------------------------
+def _tiers():
+    from exactlp.stages import solve_stages, staged_certificate
+
+    m = exactlp.load(CASES / "water_priority.yaml")
+    return m, staged_certificate(m, solve_stages(m))
+
+
+TIER_FORGERIES = [
+    ("no tiers", lambda c: c.update(stages=[]), "stages: expected one certificate per tier, in order"),
+    ("not a list", lambda c: c.update(stages={"senior": 1}), "stages: expected one certificate per tier, in order"),
+    ("a tier too many", lambda c: c["stages"].append(copy.deepcopy(c["stages"][-1])),
+     "stages: expected one certificate per tier, in order"),
+    ("tiers out of order", lambda c: c["stages"].reverse(), "stages.1: expected the certificate of tier 'senior'"),
+    ("a tier without its certificate", lambda c: c["stages"][1].pop("certificate"),
+     "stages.2: expected the certificate of tier 'benefit'"),
+    ("the last tier left out", lambda c: c["stages"].pop(), "stages: tier 'benefit' is missing"),
+    # the first tier's optimum holds both seniors at their caps and the juniors at 0:
+    # the river carries 300 + 250 = 550, and 549 with senior_a at 299
+    ("a tier's own proof broken", lambda c: c["stages"][0]["certificate"]["primal"].update(senior_a="299"),
+     "stage 'senior': activities.river: stated 550, but A x gives 549"),
+    ("the top-level status not the last tier's", lambda c: c.update(status="infeasible"),
+     "status and objective must be those of the last stage"),
+]
+
+
+@pytest.mark.parametrize("name, change, detail", TIER_FORGERIES, ids=[f[0] for f in TIER_FORGERIES])
+def test_a_forged_tier_is_refused_by_name(name, change, detail):
+    m, cert = _tiers()
+    assert verify(m, cert).valid
+    bad = copy.deepcopy(cert)
+    change(bad)
+    assert verify(m, bad).failure.detail == detail
+
+
+def test_an_infeasible_tier_ends_the_tiers():
+    # 'floor' asks senior_a >= 400 of a holder whose entitlement is 300: the first tier
+    # is infeasible (Farkas: 1 * floor - 1 * (senior_a <= 300) gives 0 >= 100), so its
+    # certificate stands alone, and no later tier may follow it
+    from exactlp.stages import solve_stages, staged_certificate
+
+    text = (CASES / "water_priority.yaml").read_text() + "  floor: senior_a >= 400\n"
+    m = model_from_text(text)
+    cert = staged_certificate(m, solve_stages(m))
+    assert [s["name"] for s in cert["stages"]] == ["senior"] and cert["status"] == "infeasible"
+    v = verify(m, cert)
+    assert (v.valid, v.status) == (True, "infeasible")
+    bad = copy.deepcopy(cert)
+    bad["stages"].append({"name": "benefit", "certificate": copy.deepcopy(cert["stages"][0]["certificate"])})
+    assert verify(m, bad).failure.detail == "stage 'senior' is infeasible, so no later stage can follow it"
