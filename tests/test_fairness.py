@@ -74,6 +74,28 @@ def test_priority_tiers_by_hand(tmp_path):
     assert exactlp.verify(m, bad).failure.detail == "status and objective must be those of the last stage"
 
 
+def test_three_tiers_hold_each_optimum_in_turn():
+    # by hand: p first (10, its cap); then q with p = 10 held (15 - 10 = 5 left in
+    # 'total'); then r - q with p = 10 and q = 5 held: r <= 0, so r = 0 and -5
+    import dataclasses
+
+    from exactlp.stages import solve_stages, staged_certificate
+
+    m = model_from_text(
+        "name: three tiers\nobjectives:\n  - name: first\n    maximize: p\n  - name: second\n    maximize: q\n"
+        "  - name: third\n    maximize: r - q\nvariables: {p: {upper: 10}, q: {upper: 10}, r: {upper: 10}}\n"
+        "constraints:\n  total: p + q + r <= 15\n")
+    events = []
+    st = solve_stages(m, listener=events.append)
+    assert [(n, r.objective) for n, _, r in st.stages] == [("first", 10), ("second", 5), ("third", -5)]
+    assert st.final.objective == -5 and type(st.final.objective) is F
+    assert [e for e in events if type(e) is tuple] == [("stage", 1, "first"), ("stage", 2, "second"),
+                                                       ("stage", 3, "third")]
+    assert exactlp.verify(m, staged_certificate(m, st)).valid
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        st.stages = ()
+
+
 def test_priority_through_cli(cli, tmp_path):
     cert = tmp_path / "c.yaml"
     code, out, _ = cli("solve", CASES / "water_priority.yaml", "-c", cert)

@@ -78,7 +78,7 @@ def dense(m, x: dict) -> dict:
 
 def optimal(m, x, y, dual_objective="0") -> dict:
     """An optimal claim with activities, objective and reduced costs made to agree."""
-    x, y = dense(m, x), fr(y)
+    x, y = dense(m, x), {c.name: F(y.get(c.name, 0)) for c in m.constraints}
     cost = dict(m.objective)
     g = transposed(m, y)
     obj = sum((cost.get(n, 0) * v for n, v in x.items()), F(m.objective_constant))
@@ -162,6 +162,10 @@ FORGERIES = [
     ("a name left out", MIN_ROWS,
      lambda m: dict(optimal(m, {"a": 3, "b": 2}, {"need": "5/2", "cap": "-1/2"}, "12"), primal={"b": "2"}),
      "primal: 'a' is missing"),
+    ("a reduced cost of a variable the objective leaves out", OPEN,
+     # y has no cost and every dual is 0, so d_y = 0 - 0
+     lambda m: {**(c := optimal(m, {"y": 5, "e": 2}, {})), "reduced_costs": {**c["reduced_costs"], "y": "5"}},
+     "reduced_costs.y: stated 5, but c - A^T y gives 0"),
     # -- infeasible: Farkas multipliers that cancel the variables but contradict nothing ------
     ("a combination that gives 0 >= 0", TIGHT,
      # 1 * (x + y >= 5) - (x <= 3) - (y <= 2): 0 >= 5 - 3 - 2 = 0
@@ -194,6 +198,10 @@ FORGERIES = [
      lambda m: {**farkas(m, {"need": 1}, 2),
                 "farkas": {**farkas(m, {"need": 1}, 2)["farkas"], "bound_variables": ["x", "x"]}},
      "farkas.bound_variables: stated ['x', 'x'], but the nonzero multipliers are ['x']"),
+    ("a bound's multiplier left out", TIGHT.replace(">= 5", ">= 6"),
+     # 'need' weighs x by 1, so its bound needs -1; left out, it reads as 0
+     lambda m: {**(c := farkas(m, {"need": 1}, 1)), "farkas": {**c["farkas"], "bounds": {"y": "-1"}}},
+     "farkas.bounds.x: stated 0, but -A^T y gives -1"),
     # -- infeasible: bounds that are said to cross ------------------------------------------
     ("bounds that do not cross", TIGHT, lambda m: crossed(m, "variable", "x", "0", "3"),
      "crossed_bounds: the bounds of variable 'x' do not cross"),
