@@ -63,6 +63,13 @@ def test_parse_number_errors(text, message):
     assert exc.value.message == message
 
 
+def test_the_limits_themselves_are_allowed():
+    # the caps refuse what is past them (above), not what is at them
+    assert parse_number("1" * 400) == (10**400 - 1) // 9
+    assert parse_number("1e400") == 10**400 and parse_number("-1e-400") == Fraction(-1, 10**400)
+    assert type(parse_number("1e400")) is Fraction
+
+
 def test_bounds_accept_infinity():
     assert parse_bound("inf") == "+inf"
     assert parse_bound("-inf") == "-inf"
@@ -107,6 +114,20 @@ def test_format_number(value, text):
         (Fraction(1, 10**8), 3, "1e-8"),
         (Fraction(999999), 3, "1e+6"),
         (Fraction(0), 5, "0"),
+        # the edges of each form, worked by hand: 1 itself; the exponent e = digits - 1,
+        # the last written in full (no decimal point), and e = digits, the first with
+        # an exponent; e = -5, the last written as a plain decimal, and e = -6
+        (Fraction(1), 12, "1"),
+        (Fraction(-1), 3, "-1"),
+        (Fraction(123456789012), 12, "123456789012"),
+        (Fraction(1234567890123), 12, "1.23456789012e+12"),
+        (Fraction(12, 10**6), 12, "0.000012"),
+        (Fraction(1, 10**6), 12, "1e-6"),
+        (Fraction(15 * 10**19), 12, "1.5e+20"),
+        (Fraction(-25, 10**7), 2, "-2.5e-6"),
+        # 9.9999999999999 to 12 digits rounds up into a new digit: 10, not 10.0000000000
+        (Fraction(99999999999999, 10**13), 12, "10"),
+        (Fraction(-99999999999999, 10**13), 12, "-10"),
     ],
 )
 def test_format_decimal_rounds_the_exact_value(value, digits, text):
