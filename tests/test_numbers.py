@@ -94,6 +94,17 @@ def test_to_fraction_refuses_floats_and_says_how():
     )
     assert to_fraction("0.1") == Fraction(1, 10)
     assert to_fraction(3) == Fraction(3)
+    from gmpy2 import mpq
+
+    got = to_fraction(mpq(-3, 4))  # an exact type with integer numerator and denominator
+    assert type(got) is Fraction and got == Fraction(-3, 4)
+
+    class Half:  # a numerator without a denominator is no number
+        numerator = 1
+
+    with pytest.raises(NumberError) as exc:
+        to_fraction(Half(), "share")
+    assert exc.value.message.startswith("share: <") and exc.value.message.endswith("(Half) is not an exact number")
     with pytest.raises(NumberError):
         to_fraction(True)
 
@@ -120,6 +131,7 @@ def test_format_number(value, text):
         (Fraction(1), 12, "1"),
         (Fraction(-1), 3, "-1"),
         (Fraction(123456789012), 12, "123456789012"),
+        (Fraction(123456789012, 10), 12, "12345678901.2"),  # one place after the point
         (Fraction(1234567890123), 12, "1.23456789012e+12"),
         (Fraction(12, 10**6), 12, "0.000012"),
         (Fraction(1, 10**6), 12, "1e-6"),
