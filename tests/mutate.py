@@ -9,6 +9,8 @@ that only picks the quicker of two exact ways); each survivor is printed with
 its line for a person to decide which.  A run that takes longer than
 ``EXACTLP_MUTANT_SECONDS`` (300 unless set) is stopped and counted as killed
 (a change that makes a loop endless, such as a step of 0).
+``EXACTLP_MUTANTS=3,17,40`` runs only those mutants (by the numbers a sweep
+prints), to try the survivors of one sweep against more tests.
 
 The changes, one per run: a comparison turned into its neighbour (``<`` and
 ``<=``, ``==`` and ``!=``, ``is`` and ``is not``, ``in`` and ``not in``), an
@@ -90,6 +92,8 @@ def main(argv: list[str]) -> int:
     tree = ast.parse(source)
     places = sites(tree)
     limit = float(os.environ.get("EXACTLP_MUTANT_SECONDS", "300"))
+    only = os.environ.get("EXACTLP_MUTANTS")
+    chosen = {int(k) for k in only.split(",")} if only else set(range(len(places)))
     print(f"{module}: {len(places)} mutants, against {' '.join(tests)}", flush=True)
     survivors = []
     with tempfile.TemporaryDirectory() as tmp:
@@ -99,6 +103,8 @@ def main(argv: list[str]) -> int:
         target = copy / module
         env = {**os.environ, "PYTHONPATH": str(copy)}
         for k, (node, i) in enumerate(places):
+            if k not in chosen:
+                continue
             target.write_text(mutant(tree, node, i))
             try:
                 code = subprocess.run([sys.executable, "-m", "pytest", "-x", "-q", "-p", "no:cacheprovider", *tests],
@@ -109,9 +115,10 @@ def main(argv: list[str]) -> int:
             text = (ast.get_source_segment(source, node) or "").replace("\n", " ")[:70]
             print(f"{k:4} line {node.lineno:4} {type(node).__name__:9} {verdict:8} {text}", flush=True)
             if not code:
-                survivors.append((node.lineno, text))
+                survivors.append((k, node.lineno, text))
         target.write_text(source)
-    print(f"{len(survivors)} of {len(places)} survived" + "".join(f"\n  line {n}: {t}" for n, t in survivors))
+    print(f"{len(survivors)} of {len(chosen & set(range(len(places))))} survived" + "".join(f"\n  {k:4} line {n}: {t}" for k, n, t in survivors)
+          + (f"\nagain: EXACTLP_MUTANTS={','.join(str(k) for k, _, _ in survivors)}" if survivors else ""))
     return 0
 
 

@@ -158,6 +158,63 @@ def test_tokenizer_matches_a_scan_one_token_at_a_time(text):
     assert got == want
 
 
+def test_both_sides_share_a_name():
+    # lhs - rhs: 2a + b - (a + 3) = a + b - 3 <= 0; a + b >= b + 1 leaves a alone
+    c = parse_comparison("2 a + b <= a + 3")
+    assert c.terms == (("a", F(1)), ("b", F(1))) and (c.lower, c.upper) == (None, F(3))
+    c = parse_comparison("a + b >= b + 1")
+    assert c.terms == (("a", F(1)),) and (c.lower, c.upper) == (F(1), None)
+
+
+def test_function_names_are_variables_unless_called():
+    # abs, max and min are calls only with '(' after them; otherwise plain names
+    e = parse_expression("max + 2 min - abs")
+    assert e.terms == (("max", F(1)), ("min", F(2)), ("abs", F(-1))) and e.calls == ()
+
+
+def test_weighted_calls_and_calls_on_the_right():
+    e = parse_expression("2 abs(x - 1) - 3 max(a, b)")
+    assert [(c.coefficient, c.function, c.text) for c in e.calls] == [
+        (F(2), "abs", "abs(x - 1)"), (F(-3), "max", "max(a, b)")]
+    assert e.calls[0].args[0].terms == (("x", F(1)),) and e.calls[0].args[0].constant == -1
+    # x <= 2 abs(y) is x - 2 abs(y) <= 0: the call's weight changes sign as it moves left
+    c = parse_comparison("x <= 2 abs(y)")
+    assert [(k.coefficient, k.function) for k in c.calls] == [(F(-2), "abs")] and c.upper == 0
+
+
+def test_the_parts_of_an_expression_are_frozen():
+    import dataclasses
+
+    e = parse_expression("2 abs(x) + y")
+    for part, field in ((e, "constant"), (e.calls[0], "coefficient"), (parse_comparison("x <= 1"), "upper")):
+        with pytest.raises(dataclasses.FrozenInstanceError):
+            setattr(part, field, F(5))
+
+
+@pytest.mark.parametrize("text, message, offset", [
+    ("", "empty expression", 0),
+    ("   ", "empty expression", 3),
+    ("-", "expected a number or a variable name at the end", 1),
+    ("x +", "expected a number or a variable name at the end", 3),
+    ("x )", "unexpected ')': parentheses are not part of a linear expression here", 2),
+    ("abs(x <= 3)", "expected ',' or ')' to close abs(, found '<='", 6),
+])
+def test_objective_errors(text, message, offset):
+    with pytest.raises(InputError) as exc:
+        parse_expression(text)
+    assert (exc.value.message, exc.value.offset) == (message, offset)
+
+
+def test_the_length_limit_itself_is_allowed():
+    from exactlp.limits import Limits
+
+    tight = Limits(max_expression_chars=5)
+    assert parse_expression("x + y", tight).terms == (("x", F(1)), ("y", F(1)))
+    with pytest.raises(InputError) as exc:
+        parse_expression("x + yy", tight)
+    assert (exc.value.message, exc.value.offset) == ("expression has 6 characters, more than the limit of 5", 0)
+
+
 def test_objective_refuses_comparison():
     with pytest.raises(InputError) as exc:
         parse_expression("x <= 3")
