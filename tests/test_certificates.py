@@ -263,6 +263,32 @@ def test_float_in_a_certificate_is_refused():
     assert "the JSON float 13.0 is not exact" in str(exc.value)
 
 
+def test_the_written_text_of_a_certificate_is_fixed():
+    # the one spelling of each form, byte for byte: keys sorted at every level,
+    # two spaces a level, a list's items under their key, every string quoted
+    # (YAML would read y as a boolean), non-ASCII written as itself
+    from exactlp.certificate import NOTICE, dump_yaml
+
+    m, cert = certificate_for("name: R\u00edo Seco\n" + KNOWN[3][1])
+    fp, tool = m.fingerprint, cert["tool"]
+    assert dump_certificate(cert) == (
+        'farkas:\n  bound_variables:\n    - "x"\n    - "y"\n  bounds:\n    x: "-1"\n    "y": "-1"\n'
+        '  constraints:\n    - "need"\n  multipliers:\n    need: "1"\n  rhs: "1"\n'
+        'format: "exactlp-certificate/1"\n'
+        f'model:\n  fingerprint: "{fp}"\n  name: "R\u00edo Seco"\n'
+        f'notice: "{NOTICE}"\nsense: "minimize"\nstatus: "infeasible"\ntool: "{tool}"\n')
+    assert dump_certificate(cert, "json") == (
+        '{\n  "farkas": {\n    "bound_variables": [\n      "x",\n      "y"\n    ],\n'
+        '    "bounds": {\n      "x": "-1",\n      "y": "-1"\n    },\n'
+        '    "constraints": [\n      "need"\n    ],\n    "multipliers": {\n      "need": "1"\n    },\n'
+        '    "rhs": "1"\n  },\n  "format": "exactlp-certificate/1",\n'
+        f'  "model": {{\n    "fingerprint": "{fp}",\n    "name": "R\u00edo Seco"\n  }},\n'
+        f'  "notice": "{NOTICE}",\n  "sense": "minimize",\n  "status": "infeasible",\n  "tool": "{tool}"\n}}\n')
+    # the emitter's other shapes: a list in a list, empty containers, a bare scalar
+    assert dump_yaml([[1], {}, [], {"a": [1]}]) == "-\n  - 1\n- {}\n- []\n-\n  a:\n    - 1\n"
+    assert dump_yaml(5) == "5\n" and dump_yaml({}) == "\n"
+
+
 def test_verify_api_accepts_a_path(tmp_path):
     m, cert = certificate_for(KNOWN[0][1])
     p = tmp_path / "c.yaml"
