@@ -64,9 +64,7 @@ def test_single_equals_is_equality():
     assert (c.lower, c.upper) == (F(3), F(3))
 
 
-@pytest.mark.parametrize(
-    "text, message, offset",
-    [
+FORMULA_ERRORS = [(parse_comparison, *case) for case in [
         ("x <= y <= z", "in a chained comparison the outer parts must be numbers (write 'number <= expression <= number')", 0),
         ("0 <= x <= y", "in a chained comparison the outer parts must be numbers (write 'number <= expression <= number')", 10),
         ("0 <= x >= 1", "a chained comparison must be 'a <= expression <= b' or 'a >= expression >= b'", 7),
@@ -100,13 +98,22 @@ def test_single_equals_is_equality():
         ("x <= 1 <= 2 <= 3", "at most two comparisons may be chained", 12),
         ("-inf <= x <= 4", "'inf' cannot stand in a formula: leave out the side with no limit", 0),
         ("0 <= x <= Infinity", "'Infinity' cannot stand in a formula: leave out the side with no limit", 10),
-    ],
-)
-def test_formula_errors(text, message, offset):
+]]
+# an objective's own errors, text: (message, offset)
+OBJECTIVE_ERRORS = [(parse_expression, text, *said) for text, said in {
+    "": ("empty expression", 0), "   ": ("empty expression", 3),
+    "-": ("expected a number or a variable name at the end", 1),
+    "x +": ("expected a number or a variable name at the end", 3),
+    "x )": ("unexpected ')': parentheses are not part of a linear expression here", 2),
+    "abs(x <= 3)": ("expected ',' or ')' to close abs(, found '<='", 6),
+}.items()]
+
+
+@pytest.mark.parametrize("parse, text, message, offset", FORMULA_ERRORS + OBJECTIVE_ERRORS)
+def test_formula_errors(parse, text, message, offset):
     with pytest.raises(InputError) as exc:
-        parse_comparison(text)
-    assert exc.value.message == message
-    assert exc.value.offset == offset
+        parse(text)
+    assert (exc.value.message, exc.value.offset) == (message, offset)
 
 
 def test_tokens_and_their_offsets():
@@ -189,20 +196,6 @@ def test_the_parts_of_an_expression_are_frozen():
     for part, field in ((e, "constant"), (e.calls[0], "coefficient"), (parse_comparison("x <= 1"), "upper")):
         with pytest.raises(dataclasses.FrozenInstanceError):
             setattr(part, field, F(5))
-
-
-@pytest.mark.parametrize("text, message, offset", [
-    ("", "empty expression", 0),
-    ("   ", "empty expression", 3),
-    ("-", "expected a number or a variable name at the end", 1),
-    ("x +", "expected a number or a variable name at the end", 3),
-    ("x )", "unexpected ')': parentheses are not part of a linear expression here", 2),
-    ("abs(x <= 3)", "expected ',' or ')' to close abs(, found '<='", 6),
-])
-def test_objective_errors(text, message, offset):
-    with pytest.raises(InputError) as exc:
-        parse_expression(text)
-    assert (exc.value.message, exc.value.offset) == (message, offset)
 
 
 def test_the_length_limit_itself_is_allowed():

@@ -202,22 +202,7 @@ FORGERIES = [
      # 'need' weighs x by 1, so its bound needs -1; left out, it reads as 0
      lambda m: {**(c := farkas(m, {"need": 1}, 1)), "farkas": {**c["farkas"], "bounds": {"y": "-1"}}},
      "farkas.bounds.x: stated 0, but -A^T y gives -1"),
-    # -- infeasible: bounds that are said to cross ------------------------------------------
-    ("bounds that do not cross", TIGHT, lambda m: crossed(m, "variable", "x", "0", "3"),
-     "crossed_bounds: the bounds of variable 'x' do not cross"),
-    ("bounds that are equal", OPEN, lambda m: crossed(m, "variable", "e", "2", "2"),
-     "crossed_bounds: the bounds of variable 'e' do not cross"),
-    ("a bound that is not there", OPEN, lambda m: crossed(m, "variable", "y", "0", "0"),
-     "crossed_bounds: the bounds of variable 'y' do not cross"),
-    ("a row's sides that do not cross", TIGHT, lambda m: crossed(m, "constraint", "need", "5", "4"),
-     "crossed_bounds: the bounds of constraint 'need' do not cross"),
-    ("an item the model does not have", TIGHT, lambda m: crossed(m, "variable", "q", "1", "0"),
-     "crossed_bounds: the model has no variable 'q'"),
-    ("a kind that is neither", TIGHT, lambda m: crossed(m, "bound", "x", "1", "0"),
-     "crossed_bounds: needs kind (variable or constraint) and name"),
-    ("crossed bounds stated other than the model's", "minimize: x\nvariables: {x: {lower: 5, upper: 3}}\n",
-     lambda m: crossed(m, "variable", "x", "6", "3"),
-     "crossed_bounds: the stated bounds differ from the model's"),
+    # -- infeasible: bounds that are said to cross (see CROSSED below) ------------------------
     # -- unbounded: a feasible point and a direction that is not a ray of improvement ---------
     ("a ray into an upper bound", RAYS, lambda m: unbounded(m, {}, {"y": 1}),
      "ray.y = 1 runs into a finite bound of 'y'"),
@@ -236,6 +221,22 @@ FORGERIES = [
     ("a ray from a point outside the rows", RAYS, lambda m: unbounded(m, {"x": 3}, {"w": 1}),
      "constraint 'link' violated: activity 3 outside [-inf, 2]"),
 ]
+
+# bounds said to cross: (what, model, kind, name, lower, upper, detail); every one but
+# the last names an item whose sides do not cross, or no item the model has
+CROSSED = [
+    ("bounds that do not cross", TIGHT, "variable", "x", "0", "3", "the bounds of variable 'x' do not cross"),
+    ("bounds that are equal", OPEN, "variable", "e", "2", "2", "the bounds of variable 'e' do not cross"),
+    ("a bound that is not there", OPEN, "variable", "y", "0", "0", "the bounds of variable 'y' do not cross"),
+    ("a row's sides that do not cross", TIGHT, "constraint", "need", "5", "4",
+     "the bounds of constraint 'need' do not cross"),
+    ("an item the model does not have", TIGHT, "variable", "q", "1", "0", "the model has no variable 'q'"),
+    ("a kind that is neither", TIGHT, "bound", "x", "1", "0", "needs kind (variable or constraint) and name"),
+    ("crossed bounds stated other than the model's", "minimize: x\nvariables: {x: {lower: 5, upper: 3}}\n",
+     "variable", "x", "6", "3", "the stated bounds differ from the model's"),
+]
+FORGERIES += [(what, text, (lambda m, a=(kind, name, lo, hi): crossed(m, *a)), f"crossed_bounds: {detail}")
+              for what, text, kind, name, lo, hi, detail in CROSSED]
 
 
 @pytest.mark.parametrize("name, text, forge, detail", FORGERIES, ids=[f[0] for f in FORGERIES])
