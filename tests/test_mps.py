@@ -1,5 +1,6 @@
 """MPS import (issue 2): conventions on small files, and the whole Netlib set."""
 
+import dataclasses
 from fractions import Fraction as F
 import gzip
 
@@ -123,6 +124,110 @@ def test_mps_errors(text, message):
     with pytest.raises(InputError) as exc:
         mps_from_text(text)
     assert str(exc.value) == message
+
+
+def _sides(m):
+    return {c.name: (c.lower, c.upper) for c in m.constraints}
+
+
+def _bounds(m):
+    return {v.name: (v.lower, v.upper) for v in m.variables}
+
+
+# The edges of the conventions, each a change to SMALL and what it reads as (by
+# hand from the conventions tested above; common practice for the format, which
+# has no one published standard).
+@pytest.mark.parametrize("change, expect", [
+    # OBJSENSE: its word on the same line, on the next line indented or not
+    (("NAME          TINY", "NAME          TINY\nOBJSENSE MAX"), lambda m: m.sense is Sense.MAXIMIZE),
+    (("NAME          TINY", "NAME          TINY\nOBJSENSE\nMAX"), lambda m: m.sense is Sense.MAXIMIZE),
+    (("NAME          TINY", "NAME          TINY\nOBJSENSE\n    MAXIMIZE"), lambda m: m.sense is Sense.MAXIMIZE),
+    (("NAME          TINY", "NAME          TINY\nOBJSENSE MIN"), lambda m: m.sense is Sense.MINIMIZE),
+    (("NAME          TINY", "NAME          TINY\nOBJSENSE\n    MINIMIZE"), lambda m: m.sense is Sense.MINIMIZE),
+    # an equality row's range of less than 1 either way: [7, 7 + 1/2] and [3 - 1/2, 3]
+    (("    RNG       MYEQN        2     EQNEG       -2", "    RNG       MYEQN        0.5   EQNEG       -0.5"),
+     lambda m: (_sides(m)["MYEQN"], _sides(m)["EQNEG"]) == ((F(7), F(15, 2)), (F(5, 2), F(3)))),
+    # a second RHS set and a second RANGES set are not read (the first set named is the one)
+    (("RANGES", "    RHS2      LIM1         9\nRANGES"), lambda m: _sides(m)["LIM1"] == (F(3, 2), F(4))),
+    (("BOUNDS\n", "    RNG2      LIM1         9\nBOUNDS\n"), lambda m: _sides(m)["LIM1"] == (F(3, 2), F(4))),
+    # lines without a set name: RHS 'row value', bounds 'UP col value' and 'FR col'
+    (("    RHS       COST        -4.5\n    RHS       LIM1         4.0   LIM2         1.0\n"
+      "    RHS       MYEQN        7.0   EQNEG        3", "    COST -4.5\n    LIM1 4.0 LIM2 1.0\n    MYEQN 7.0 EQNEG 3"),
+     lambda m: m.objective_constant == F(9, 2) and _sides(m) == _sides(mps_from_text(SMALL))),
+    ((" UP BND       X1           4.0\n MI BND       X2\n UP BND       X2           1.0\n FR BND       X3",
+      " UP X1 4.0\n MI X2\n UP X2 1.0\n FR X3"),
+     lambda m: [_bounds(m)[n] for n in ("X1", "X2", "X3")] == [(F(0), F(4)), (None, F(1)), (None, None)]),
+    # UP 0 keeps the lower bound 0 (only a negative UP without LO drops it); a
+    # negative UP after LO keeps LO; PL takes the upper bound away; a value after
+    # PL is ignored by convention
+    ((" UP BND       X4          -2", " UP BND       X4           0"), lambda m: _bounds(m)["X4"] == (F(0), F(0))),
+    ((" UP BND       X4          -2", " LO BND       X4          -5\n UP BND       X4          -2"),
+     lambda m: _bounds(m)["X4"] == (F(-5), F(-2))),
+    ((" UP BND       X4          -2", " UP BND       X4           3\n PL BND       X4           7"),
+     lambda m: _bounds(m)["X4"] == (F(0), None)),
+    # a row the RHS section does not name has the right-hand side 0
+    (("    RHS       MYEQN        7.0   EQNEG        3", "    RHS       MYEQN        7.0"),
+     lambda m: _sides(m)["EQNEG"] == (F(-2), F(0))),
+])
+def test_mps_conventions_at_their_edges(change, expect):
+    old, new = change
+    assert SMALL.count(old) == 1
+    assert expect(mps_from_text(SMALL.replace(old, new)))
+
+
+def test_mps_size_limits_allow_what_is_at_them():
+    # SMALL: 4 rows (SPARE, a second N row, is dropped), 4 columns, 7 nonzeros
+    # (LIM1 2, LIM2 2, MYEQN 2, EQNEG 1; SPARE's entry is not kept)
+    from exactlp.limits import DEFAULT_LIMITS
+
+    at = dataclasses.replace(DEFAULT_LIMITS, max_constraints=4, max_variables=4, max_nonzeros=7)
+    assert mps_from_text(SMALL, limits=at).nonzeros == 7
+    for field, line, what in (("max_constraints", 8, "3 rows"), ("max_variables", 17, "3 columns"),
+                              ("max_nonzeros", 17, "6 nonzeros")):
+        with pytest.raises(InputError) as exc:
+            mps_from_text(SMALL, limits=dataclasses.replace(at, **{field: 3 if field != "max_nonzeros" else 6}))
+        assert str(exc.value).endswith(f":{line}:1: {'ROWS' if field == 'max_constraints' else 'COLUMNS'}: "
+                                       f"more than the limit of {what}")
+
+
+@pytest.mark.parametrize("text, message", [
+    (SMALL.replace(" N  SPARE", " N  COST"), "<text>:9:1: ROWS: row 'COST' is declared twice"),
+    (SMALL.replace(" N  SPARE", " N  SPARE\n L  SPARE"), "<text>:10:1: ROWS: row 'SPARE' is declared twice"),
+    (SMALL.replace("    RNG       LIM1", "    RNG       COST"),
+     "<text>:23:1: RANGES: RANGES cannot apply to the free row 'COST'"),
+    (SMALL.replace("    RNG       LIM1", "    RNG       SPARE"),
+     "<text>:23:1: RANGES: RANGES cannot apply to the free row 'SPARE'"),
+    (SMALL.replace(" UP BND       X1", " XX BND       X1"), "<text>:26:1: BOUNDS: unknown bound type 'XX'"),
+    (SMALL.replace("NAME          TINY", "NAME          TINY\n  stray"),
+     "<text>:3:1: NAME: unexpected data in the NAME section"),
+    (SMALL.replace("ROWS", "FOO\nROWS", 1), "<text>:3:1: MPS: unknown section 'FOO'"),
+    (SMALL.replace("NAME          TINY", "NAME          TINY\nOBJSENSE\n    UP"),
+     "<text>:4:1: OBJSENSE: OBJSENSE must be MIN or MAX, not 'UP'"),
+    ("* only a comment\n", "<text>: no MPS sections found: is this an MPS file?"),
+    ("NAME          EMPTY\n", "<text>: no MPS sections found: is this an MPS file?"),
+    (FIXED.replace(_fixed("", "y two", "profit", "2", "cap one", "1"), _fixed("", "y two", "profit", "", "cap one", "1")),
+     "<text>:9:1: COLUMNS: '' is not a number"),
+    # a sense word at the start of a line belongs to OBJSENSE only
+    (SMALL.replace("COLUMNS", "MAX\nCOLUMNS"), "<text>:10:1: MPS: unknown section 'MAX'"),
+])
+def test_mps_errors_at_the_edges(text, message):
+    with pytest.raises(InputError) as exc:
+        mps_from_text(text)
+    assert str(exc.value) == message
+
+
+def test_a_file_of_rows_alone_is_a_model_with_no_variables():
+    m = mps_from_text("NAME          BARE\nROWS\n N  COST\n L  CAP\nRHS\n    RHS       CAP          5\nENDATA\n")
+    assert (m.variables, [(c.name, c.terms, c.lower, c.upper) for c in m.constraints]) == ((), [("CAP", (), None, F(5))])
+
+
+def test_a_fixed_format_file_is_read_as_fixed_from_disk(tmp_path):
+    # names with blanks make the free reading fail its field counts; the file
+    # reader then reads by columns, as mps_from_text does
+    path = tmp_path / "fixed.mps"
+    path.write_text(FIXED)
+    m = read_mps(path)
+    assert [v.name for v in m.variables] == ["x one", "y two"] and m.constraints[0].name == "cap one"
 
 
 # An entry given twice: readers differ (some add, some keep the last), so such a
