@@ -245,6 +245,69 @@ def test_file_size_limit(write):
     assert str(exc.value) == f"{path}: file is larger than the limit of 100 bytes"
 
 
+def test_file_size_limit_allows_what_is_at_it(write):
+    # the limit is on the bytes read (after decompression for .gz): a file of
+    # exactly the limit is read whole, one byte more is refused, not cut short
+    import gzip
+
+    from exactlp.io import load_yaml_model
+    from exactlp.limits import Limits
+
+    text = "minimize: 0\nvariables: {}\n"
+    text += "#" * (100 - len(text) - 1) + "\n"
+    assert len(text.encode()) == 100
+    for name, data in (("at.yaml", text.encode()), ("at.yaml.gz", gzip.compress(text.encode()))):
+        assert load_yaml_model(write(name, data), Limits(max_file_bytes=100)).variables == ()
+    for name, data in (("past.yaml", text.encode() + b"\n"), ("past.yaml.gz", gzip.compress(text.encode() + b"\n"))):
+        path = write(name, data)
+        with pytest.raises(InputError) as exc:
+            load_yaml_model(path, Limits(max_file_bytes=100))
+        assert str(exc.value) == f"{path}: file is larger than the limit of 100 bytes"
+
+
+@pytest.mark.parametrize("text, message", [
+    # a tag on a number would make the YAML loader's float of it: refused, as any tag
+    ("maximize: x\nvariables:\n  x: {upper: !!float 0.1}\n",
+     "<text>:3:14: YAML tags (tag:yaml.org,2002:float) are not allowed in exactlp files"),
+    ("maximize: x\nvariables:\n  x: {upper: !custom 3}\n",
+     "<text>:3:14: YAML tags (!custom) are not allowed in exactlp files"),
+    # a key given twice three levels down names its own path
+    ("maximize: x\nvariables:\n  x: {lower: 1, lower: 2}\n",
+     "<text>:3:17: variables.x.lower: key 'lower' is given twice (first on line 3)"),
+    # in a list, the path counts items from 1, as the tiers' own messages do
+    ("objectives:\n  - name: a\n    maximize: x\n    extra: {p: 1, p: 2}\nvariables: {x: {}}\n",
+     "<text>:4:19: objectives.1.extra.p: key 'p' is given twice (first on line 4)"),
+    ("objectives:\n  - name: a\n    maximize: x\n  - name: b\n    maximise: x\nvariables: {x: {}}\n",
+     "<text>:5:5: objectives.2.maximise: unknown key 'maximise' (did you mean 'maximize'?)"),
+    ("? {a: 1}\n: 2\n", "<text>:1:3: a key must be plain text, not a mapping"),
+    ("? [a]\n: 2\n", "<text>:1:3: a key must be plain text, not a list"),
+    # a control character stops the YAML reader before any line is parsed
+    ("maximize: x\nvariables:\n  x: {upper: \x07}\n",
+     "<text>: invalid YAML: unacceptable character #x0007: control characters are not allowed"),
+])
+def test_yaml_level_errors(text, message):
+    with pytest.raises(InputError) as exc:
+        model_from_text(text)
+    assert str(exc.value) == message
+
+
+def test_yaml_scalars_that_are_text_not_null():
+    # the non-specific tag '!' makes a scalar plain text, which reads as its number;
+    # a quoted "null" is the text null, a plain one no value
+    m = model_from_text("name: \"null\"\nmaximize: x\nvariables:\n  x: {upper: ! 3}\n")
+    assert m.name == "null" and m.variables[0].upper == 3 and type(m.variables[0].upper) is F
+    assert model_from_text("name: null\nmaximize: x\nvariables:\n  x: {}\n").name is None
+
+
+def test_a_byte_that_is_not_utf8_is_placed_by_line_and_column(write):
+    from exactlp.io import load_yaml_model
+
+    path = write("bad.yaml", b"\n\xff")
+    with pytest.raises(InputError) as exc:
+        load_yaml_model(path)
+    assert str(exc.value) == f"{path}:2:1: bytes that are not UTF-8 text (byte 0xff)"
+
+
 def test_alias_bomb_is_refused_quickly(write):
     lines = ["a0: &a0 [x, x, x, x, x, x, x, x, x]"]
     for i in range(1, 10):

@@ -237,7 +237,9 @@ def parse_yaml(text: str, path: str, limits: Limits = DEFAULT_LIMITS) -> Node:
                 if type(parent) is Mapping:
                     names.append(pending_key[-1])
                 elif type(parent) is Sequence:
-                    names.append(str(len(parent.items)))
+                    # counted from 1, as the model's own messages count tiers
+                    # (objectives.1 is the first)
+                    names.append(str(len(parent.items) + 1))
                 else:
                     names.append(None)
                 attach(node, mark)
