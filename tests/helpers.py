@@ -300,3 +300,16 @@ def left_in_cycles(make, check=lambda got: None) -> int:
     finally:
         if was:
             gc.enable()
+
+
+def refused(read, *args, **kw) -> str:
+    """The one line with which ``read(*args, **kw)`` refuses its input (an
+    InputError's text: file, line, column, field and message); fails the test
+    if it reads the input instead."""
+    import pytest
+
+    from exactlp.errors import InputError
+
+    with pytest.raises(InputError) as exc:
+        read(*args, **kw)
+    return str(exc.value)

@@ -96,6 +96,34 @@ def test_three_tiers_hold_each_optimum_in_turn():
         st.stages = ()
 
 
+# Each allowed use of abs(), max() and min(), in the objective and in a row, on
+# either side and with either sense; every optimum by hand in the comment.
+CALL_USES = [
+    ("maximize: min(a, b)\nvariables: {a: {upper: 4}, b: {upper: 6}}\n", 4),  # min(4, 6)
+    ("maximize: 7 - abs(x - 3)\nvariables: {x: {upper: 10}}\n", 7),  # x = 3
+    ("minimize: x\nvariables: {x: {}}\nconstraints:\n  c: abs(x - 3) <= 2\n", 1),  # 1 <= x <= 5
+    ("minimize: a + b\nvariables: {a: {}, b: {}}\nconstraints:\n  c: min(a, b) >= 1\n", 2),  # a, b >= 1
+    ("maximize: a + b\nvariables: {a: {}, b: {}}\nconstraints:\n  c: max(a, b) <= 3\n", 6),  # a, b <= 3
+    ("maximize: x\nvariables: {x: {}, y: free}\nconstraints:\n  c: x + 2 abs(y - 1) <= 4\n", 4),  # y = 1
+    ("maximize: x\nvariables: {x: {}}\nconstraints:\n  c: 6 >= x + max(x, 2)\n", 3),  # 2x <= 6
+    ("maximize: {terms: {x: 1}}\nvariables: {x: {upper: 2}}\n", 2),  # no constant: 0
+]
+
+
+@pytest.mark.parametrize("text, optimum", CALL_USES)
+def test_each_use_of_a_call_solves_to_its_optimum_by_hand(text, optimum):
+    m = model_from_text(text)
+    r = solve_verified(m)
+    assert (r.status.value, r.objective, type(r.objective)) == ("optimal", optimum, F)
+
+
+def test_the_last_tier_gives_the_models_sense_and_objective():
+    m = model_from_text(
+        "objectives:\n  - name: one\n    maximize: p\n  - name: two\n    maximize: q\n"
+        "  - name: three\n    minimize: 2 r + 1\nvariables: {p: {upper: 1}, q: {upper: 1}, r: {upper: 1}}\n")
+    assert (m.sense.value, m.objective, m.objective_constant) == ("minimize", (("r", F(2)),), 1)
+
+
 def test_priority_through_cli(cli, tmp_path):
     cert = tmp_path / "c.yaml"
     code, out, _ = cli("solve", CASES / "water_priority.yaml", "-c", cert)
