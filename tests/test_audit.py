@@ -45,6 +45,48 @@ def test_log_records_and_fields():
     assert steps[-1]["objective"] == "13"
 
 
+def test_an_interrupted_run_closes_its_log_once():
+    # the header's text byte for byte (non-ASCII as itself); an interruption
+    # writes one closing record with nothing proven; after a normal close, nothing
+    from exactlp.audit import plain
+    from exactlp.solver.events import Finish
+
+    m = model_from_text("name: R\u00edo\n" + KNOWN[0][1])
+    buf = io.StringIO()
+    log = AuditLog(buf, m, {"pricing": "guarded"})
+    assert buf.getvalue() == (
+        '{"format": "exactlp-log/1", "model": {"fingerprint": "' + m.fingerprint + '", "name": "R\u00edo"}, '
+        '"record": "header", "settings": {"pricing": "guarded"}, "tool": "exactlp ' + exactlp.__version__ + '"}\n')
+    log(("stage", 1, "first"))
+    log.close_interrupted("interrupted")
+    log.close_interrupted("interrupted")
+    lines = [json.loads(x) for x in buf.getvalue().splitlines()]
+    assert lines[1:] == [{"record": "stage", "index": 1, "name": "first"},
+                         {"record": "close", "outcome": "interrupted", "objective": None,
+                          "pivots_phase1": 0, "pivots_phase2": 0, "bound_flips": 0}]
+    buf = io.StringIO()
+    log = AuditLog(buf, m, {})
+    log(Finish("optimal", F(13), 0, 2, 0))
+    log.close_interrupted("interrupted")
+    assert [json.loads(x)["record"] for x in buf.getvalue().splitlines()] == ["header", "close"]
+    assert [plain(v) for v in (None, True, 3, "a", F(-1, 2), (F(1), None))] == [None, True, 3, "a", "-1/2", ["1", None]]
+
+
+@pytest.mark.parametrize("content, message", [
+    ("", "not an exactlp audit log (the first record is not a header)"),
+    ('{"record": "start"}\n', "not an exactlp audit log (the first record is not a header)"),
+    ('{"record": "header"}\n{"x": 1}\n', ":2:1: not a log record (no 'record' key)"),
+    ('{"record": "header"}\n[1]\n', ":2:1: not a log record (no 'record' key)"),
+])
+def test_read_log_refuses_what_is_not_a_log(tmp_path, content, message):
+    from .helpers import refused
+
+    path = tmp_path / "x.log"
+    path.write_text(content)
+    said = refused(read_log, str(path))
+    assert said == f"{path}{message}" if message.startswith(":") else said == f"{path}: {message}"
+
+
 def test_exact_numbers_are_strings_never_floats():
     m = model_from_text(KNOWN[2][1])  # Beale: fractions everywhere
     _, text, recs = solve_logged(m, pricing="bland")

@@ -107,6 +107,9 @@ CALL_USES = [
     ("maximize: x\nvariables: {x: {}, y: free}\nconstraints:\n  c: x + 2 abs(y - 1) <= 4\n", 4),  # y = 1
     ("maximize: x\nvariables: {x: {}}\nconstraints:\n  c: 6 >= x + max(x, 2)\n", 3),  # 2x <= 6
     ("maximize: {terms: {x: 1}}\nvariables: {x: {upper: 2}}\n", 2),  # no constant: 0
+    # weights that are not 1: 1/2 |x - 4| + 1/3 max(x, 6) is 2 at x = 4 and grows either side
+    ("minimize: 1/2 abs(x - 4) + 1/3 max(x, 6)\nvariables: {x: {}}\n", 2),
+    ("maximize: 1/2 min(a, b)\nvariables: {a: {upper: 4}, b: {upper: 6}}\n", 2),
 ]
 
 
@@ -122,6 +125,24 @@ def test_the_last_tier_gives_the_models_sense_and_objective():
         "objectives:\n  - name: one\n    maximize: p\n  - name: two\n    maximize: q\n"
         "  - name: three\n    minimize: 2 r + 1\nvariables: {p: {upper: 1}, q: {upper: 1}, r: {upper: 1}}\n")
     assert (m.sense.value, m.objective, m.objective_constant) == ("minimize", (("r", F(2)),), 1)
+
+
+def test_auxiliary_rows_are_named_and_evaluated_as_written():
+    # max(a, b) in the objective becomes objective.max1 >= a and >= b, rows
+    # objective.max1.1 and .2 (counted from 1); evaluate gives each function's
+    # value at a point, exactly
+    import dataclasses
+
+    from exactlp.reform import evaluate
+
+    m = model_from_text("minimize: max(a, b) + abs(a - 5) - min(b, 1)\nvariables: {a: {}, b: {}}\n")
+    assert [c.name for c in m.constraints] == ["objective.max1.1", "objective.max1.2", "objective.abs1.pos",
+                                              "objective.abs1.neg", "objective.min1.1", "objective.min1.2"]
+    point = {"a": F(3), "b": F(7, 2)}
+    assert [(x.name, evaluate(x, point)) for x in m.auxiliary] == [
+        ("objective.max1", F(7, 2)), ("objective.abs1", F(2)), ("objective.min1", F(1))]
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        m.auxiliary[0].name = "other"
 
 
 def test_priority_through_cli(cli, tmp_path):
@@ -148,6 +169,10 @@ def test_show_expanded(cli):
          "asking it to be large describes two separate regions, which is not a linear program"),
         ("minimize: min(a, b)\nvariables: {a: {}, b: {}}\n",
          "1:11: minimize: min(a, b): min() can only be kept large: maximised, or bounded below ('min(...) >= b'); "
+         "pushing a minimum down is not a linear program"),
+        # a weight that is not 1 keeps its sign's verdict
+        ("minimize: 1/2 min(a, b)\nvariables: {a: {}, b: {}}\n",
+         "1:15: minimize: min(a, b): min() can only be kept large: maximised, or bounded below ('min(...) >= b'); "
          "pushing a minimum down is not a linear program"),
         ("maximize: max(a, b)\nvariables: {a: {upper: 1}, b: {upper: 1}}\n",
          "1:11: maximize: max(a, b): max() can only be kept small: minimised, or bounded above ('max(...) <= b'); "
