@@ -442,6 +442,72 @@ def test_build_model_in_code_matches_the_file():
     assert m.fingerprint == model_from_text(A).fingerprint
 
 
+def test_build_model_reads_infinite_bounds_on_their_own_side_only():
+    m = build_model(variables={"a": ("-inf", " +Infinity "), "b": {"lower": "-infinity"}, "c": {"upper": 2}})
+    assert [(v.lower, v.upper) for v in m.variables] == [(None, None), (None, None), (0, 2)]
+    for variables, message in (({"a": ("inf", 3)}, "variables.a: lower bound 'inf' is infinite on the wrong side"),
+                               ({"a": {"upper": "-inf"}}, "variables.a: upper bound '-inf' is infinite on the wrong side")):
+        assert refused(build_model, variables=variables).endswith(message)
+
+
+def test_what_a_model_is_compared_by():
+    # the mathematics, not where it came from or how it was written
+    import dataclasses
+
+    from exactlp.model import Constraint
+
+    m = model_from_text(A)
+    for field, value in (("source", "elsewhere.yaml"), ("auxiliary", ("x",)), ("written", (("c1", "x"),)),
+                         ("written_objective", "3 x + 2 y")):
+        assert dataclasses.replace(m, **{field: value}) == m
+    assert [Constraint("r", (), lo, hi).is_equality for lo, hi in ((None, None), (F(1), F(1)), (F(1), F(2)))] == [
+        False, True, False]
+
+
+def test_the_model_parts_defaults_and_immutability():
+    import dataclasses
+
+    from exactlp.model import Constraint, Stage, Model, stage_model
+
+    v, st, bare = Variable("x"), Stage("s", Sense.MINIMIZE, ()), Model(Sense.MINIMIZE, (), ())
+    assert (v.lower, v.upper, st.constant, bare.objective_constant, bare.constraints) == (0, None, 0, 0, ())
+    assert all(type(x) is F for x in (v.lower, st.constant, bare.objective_constant))
+    for part in (v, Constraint("r", ()), st, bare):
+        with pytest.raises(dataclasses.FrozenInstanceError):
+            part.name = "other" if hasattr(part, "name") else None
+    # an earlier tier's constant is taken off its held value: p + 5 held at 6 is p == 1
+    m = model_from_text("objectives:\n  - name: one\n    maximize: p + 5\n  - name: two\n    minimize: q\n"
+                        "variables: {p: {upper: 1}, q: {}}\n")
+    held = stage_model(m, 1, [F(6)]).constraints[-1]
+    assert (held.name, held.terms, held.lower, held.upper) == ("one.held", (("p", F(1)),), 1, 1)
+
+
+def test_the_canonical_form_and_its_fingerprint_are_fixed():
+    # A certificate names its model by this fingerprint, so the canonical form may
+    # not change within a format version: the name, units and notes are left out,
+    # exact numbers are text, names are escaped to ASCII, keys are sorted.  Anyone
+    # can recompute it: the SHA-256 of the canonical text.
+    import hashlib
+
+    m = model_from_text("name: R\u00edo\nmaximize: {terms: {\u00e9: 3, b: 1/2}, constant: -1}\n"
+                        "variables: {\u00e9: {upper: 4, unit: ML}, b: free}\n"
+                        "constraints:\n  cap: {terms: {\u00e9: 1, b: 1}, upper: 5}\n  eq: b == 1\n")
+    tiers = model_from_text("objectives:\n  - name: one\n    maximize: p\n  - name: two\n    minimize: q + 1\n"
+                            "variables: {p: {upper: 1}, q: {}}\n")
+    for model, canonical, fingerprint in (
+        (m, '{"constraints":[["cap",[["\\u00e9","1"],["b","1"]],null,"5"],["eq",[["b","1"]],"1","1"]],'
+            '"format":"exactlp-model/1","objective":{"constant":"-1","terms":[["\\u00e9","3"],["b","1/2"]]},'
+            '"sense":"maximize","variables":[["\\u00e9","0","4"],["b",null,null]]}',
+         "sha256:bb3e9cdc8ec57c77bc618c76f5e95f640f592cab5e62b070e6b5c1cb4bcb87d9"),
+        (tiers, '{"constraints":[],"format":"exactlp-model/1","objective":{"constant":"1","terms":[["q","1"]]},'
+                '"sense":"minimize","stages":[["one","maximize",[["p","1"]],"0"],["two","minimize",[["q","1"]],"1"]],'
+                '"variables":[["p","0","1"],["q","0",null]]}',
+         "sha256:1e9c9d1245aab35dd9edfe76f737c80a41c12927f851319c2df24e3bbe5e093e"),
+    ):
+        assert model.canonical() == canonical
+        assert model.fingerprint == fingerprint == "sha256:" + hashlib.sha256(canonical.encode("ascii")).hexdigest()
+
+
 def test_build_model_refuses_floats():
     with pytest.raises(InputError) as exc:
         build_model(objective={"x": 0.1}, variables={"x": None})
