@@ -98,6 +98,8 @@ FORMULA_ERRORS = [(parse_comparison, *case) for case in [
         ("x <= 1 <= 2 <= 3", "at most two comparisons may be chained", 12),
         ("-inf <= x <= 4", "'inf' cannot stand in a formula: leave out the side with no limit", 0),
         ("0 <= x <= Infinity", "'Infinity' cannot stand in a formula: leave out the side with no limit", 10),
+        ("0 <= abs(a) + abs(b) <= 1",
+         "abs(), max() and min() cannot stand in a chained comparison: write each side as its own constraint", 5),
 ]]
 # an objective's own errors, text: (message, offset)
 OBJECTIVE_ERRORS = [(parse_expression, text, *said) for text, said in {
@@ -106,6 +108,7 @@ OBJECTIVE_ERRORS = [(parse_expression, text, *said) for text, said in {
     "x +": ("expected a number or a variable name at the end", 3),
     "x )": ("unexpected ')': parentheses are not part of a linear expression here", 2),
     "abs(x <= 3)": ("expected ',' or ')' to close abs(, found '<='", 6),
+    "abs(max(a, 1))": ("max() cannot stand inside another abs(), max() or min()", 4),
 }.items()]
 
 
