@@ -66,6 +66,21 @@ def test_unbounded_certificate_by_hand():
     assert ray.get("x", F(0)) > 0 and ray.get("x", 0) - ray.get("y", 0) > 0  # objective x - y grows
 
 
+def test_infeasible_certificates_leave_out_what_they_do_not_use():
+    # 1 * (x >= 5) - 1 * (x <= 3): 0 >= 5 - 3 = 2; the row 'spare' and the bounds of z
+    # (2 <= z <= 4) play no part, and the certificate names neither
+    m, cert = certificate_for("minimize: x\nvariables: {x: {upper: 3}, z: {lower: 2, upper: 4}}\n"
+                              "constraints:\n  need: x >= 5\n  spare: z <= 9\n")
+    assert cert["farkas"] == {"multipliers": {"need": "1"}, "bounds": {"x": "-1"}, "constraints": ["need"],
+                              "bound_variables": ["x"], "rhs": "2"}
+    assert verify(m, cert).valid
+    # -1 * (x <= 3) + 1 * (x >= 5), the bound now the lower side: 0 >= -3 + 5 = 2
+    m, cert = certificate_for("maximize: x\nvariables: {x: {lower: 5}}\nconstraints:\n  cap: x <= 3\n")
+    assert cert["farkas"] == {"multipliers": {"cap": "-1"}, "bounds": {"x": "1"}, "constraints": ["cap"],
+                              "bound_variables": ["x"], "rhs": "2"}
+    assert verify(m, cert).valid
+
+
 def test_hand_built_valid_certificate_with_other_multipliers():
     # x + y >= 6 with x <= 3, y <= 2: doubling every multiplier is another valid proof (0 >= 2)
     m, cert = certificate_for(KNOWN[3][1])
