@@ -355,7 +355,9 @@ def test_model_size_limits_allow_what_is_at_them():
     from exactlp.limits import Limits
 
     text = "maximize: x\nvariables: {x: {upper: 1}, y: {}}\nconstraints:\n  a: x + y <= 3\n  b: x - y >= 0\n"
-    assert len(model_from_text(text, limits=Limits(max_variables=2, max_constraints=2)).variables) == 2
+    assert len(model_from_text(text, limits=Limits(max_variables=2, max_constraints=2, max_nonzeros=4)).variables) == 2
+    assert refused(model_from_text, text, limits=Limits(max_nonzeros=3)) == (
+        "<text>:5:6: constraints.b: more than the limit of 3 nonzeros")
     assert refused(model_from_text, text, limits=Limits(max_variables=1)) == (
         "<text>:2:12: variables: 2 variables, more than the limit of 1")
     assert refused(model_from_text, text, limits=Limits(max_constraints=1)) == (
