@@ -10,7 +10,10 @@ its line for a person to decide which.  A run that takes longer than
 ``EXACTLP_MUTANT_SECONDS`` (300 unless set) is stopped and counted as killed
 (a change that makes a loop endless, such as a step of 0).
 ``EXACTLP_MUTANTS=3,17,40`` runs only those mutants (by the numbers a sweep
-prints), to try the survivors of one sweep against more tests.
+prints), to try the survivors of one sweep against more tests, and
+``EXACTLP_MUTANT_LINES=68-150`` only those on the module's lines 68 to 150
+(a part of a large module, against the tests of that part; pytest's own
+options such as ``-k conflict`` may follow the test files).
 
 The changes, one per run: a comparison turned into its neighbour (``<`` and
 ``<=``, ``==`` and ``!=``, ``is`` and ``is not``, ``in`` and ``not in``), an
@@ -94,7 +97,11 @@ def main(argv: list[str]) -> int:
     limit = float(os.environ.get("EXACTLP_MUTANT_SECONDS", "300"))
     only = os.environ.get("EXACTLP_MUTANTS")
     chosen = {int(k) for k in only.split(",")} if only else set(range(len(places)))
-    print(f"{module}: {len(places)} mutants, against {' '.join(tests)}", flush=True)
+    if lines := os.environ.get("EXACTLP_MUTANT_LINES"):
+        first, last = (int(x) for x in lines.split("-"))
+        chosen = {k for k in chosen if first <= places[k][0].lineno <= last}
+    print(f"{module}: {len(places)} mutants, {len(chosen & set(range(len(places))))} run, "
+          f"against {' '.join(tests)}", flush=True)
     survivors = []
     with tempfile.TemporaryDirectory() as tmp:
         copy = Path(tmp) / "checkout"

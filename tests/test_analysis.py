@@ -570,6 +570,56 @@ def test_conflict_report_tampering_is_caught():
     assert not check_report(m, bad).valid
 
 
+def test_the_conflict_check_holds_points_on_their_limits_and_refuses_past_them():
+    # Any feasible witness will do, so a point may sit exactly on a side: dropping
+    # 'uplands_floor', (4, 4, 0, 2) fills the fund (10 of 10) and meets metro_floor
+    # (2 >= 2) and the bounds of north and coast exactly as the members kept ask
+    import copy
+
+    from exactlp.report_check import check_report
+
+    m, rep = _conflict_report()
+    tight = copy.deepcopy(rep)
+    tight["minimality"][1]["point"] = {"north": "4", "coast": "4", "uplands": "0", "metro": "2"}
+    assert tight["minimality"][1]["drop"] == {"kind": "constraint", "name": "uplands_floor"}
+    v = check_report(m, tight)
+    assert v.valid, v.failure
+    assert [(c.name, c.ok, c.detail) for c in v.checks][1:] == [
+        ("the conflict is infeasible", True, "certificate valid (infeasible)"),
+        ("minimal", True, "each of the 5 members is needed")]
+    for point, problem in (
+        ({"north": "4", "coast": "4", "uplands": "0", "metro": "2001/1000"},
+         "constraint 'fund' fails at the point (10001/1000)"),
+        ({"north": "34/10", "coast": "4", "uplands": "0", "metro": "2"}, "'north' = 17/5 breaks its bounds"),
+    ):
+        bad = copy.deepcopy(tight)
+        bad["minimality"][1]["point"] = point
+        assert check_report(m, bad).failure.detail == f"minimality: dropping constraint 'uplands_floor': {problem}"
+    for change, detail in (
+        (lambda r: r.update(constraints=["fund", "no_such_rule"]),
+         "the report names constraints or variables the model does not have"),
+        (lambda r: r.update(constraints="fund"), "constraints: expected a list, found 'fund'"),
+    ):
+        bad = copy.deepcopy(rep)
+        change(bad)
+        assert check_report(m, bad).failure.detail == detail
+
+
+def test_the_conflict_check_sums_fractional_coefficients_exactly():
+    # 1/2 a + 1/3 b >= 1 with a, b <= 1 reaches 5/6 at most: infeasible, and each
+    # member is needed; the witnesses meet the row exactly (1/2 * 2 = 1 when a's
+    # bound is dropped), so a fault in the fractional sums would refuse them
+    from exactlp.reports import conflict_report
+    from exactlp.report_check import check_report
+
+    m = model_from_text("minimize: 0\nvariables: {a: {upper: 1}, b: {upper: 1}}\nconstraints:\n"
+                        "  need: 1/2 a + 1/3 b >= 1\n")
+    rep = conflict_report(m, conflict(m))
+    assert (rep["constraints"], rep["bounds"]) == (["need"], ["a", "b"])
+    v = check_report(m, rep)
+    assert v.valid, v.failure
+
+
 def test_conflict_report_with_values_of_the_wrong_kind_is_refused_by_name():
     # a point's value or a drop's name that is not text is refused as such (a list
     # there was an internal error, a TypeError, before)
