@@ -605,6 +605,49 @@ def test_the_conflict_check_holds_points_on_their_limits_and_refuses_past_them()
         assert check_report(m, bad).failure.detail == detail
 
 
+def test_the_rank_test_behind_unique_optima():
+    # modulo the prime p a full rank is a full rank; a rank lost modulo p (p divides
+    # a nonzero minor) is settled in fractions; a singular system is singular either way
+    from exactlp.report_check import _PRIME, _full_rank, _full_rank_mod
+
+    assert _full_rank([{"x": F(_PRIME)}], ["x"]) is True
+    assert (_full_rank_mod([{"x": F(_PRIME)}], ["x"]), _full_rank_mod([{"x": F(_PRIME)}], ["x"], None)) == (False, True)
+    twice = [{"x": F(2), "y": F(1)}, {"x": F(4), "y": F(2)}]  # the second row is twice the first
+    assert (_full_rank_mod(twice, ["x", "y"]), _full_rank_mod(twice, ["x", "y"], None)) == (False, False)
+    halves = [{"x": F(1, 2), "y": F(1, 3)}, {"x": F(1, 4), "y": F(-1, 3)}]  # det = -1/6 - 1/12 = -1/4
+    assert (_full_rank_mod(halves, ["x", "y"]), _full_rank_mod(halves, ["x", "y"], None)) == (True, True)
+    # the third row is the first less the second: eliminating x puts y into the
+    # second row (fill-in), which must then meet the third
+    fill = [{"x": F(1), "y": F(1)}, {"x": F(1), "z": F(1)}, {"y": F(1), "z": F(-1)}]
+    assert (_full_rank_mod(fill, ["x", "y", "z"]), _full_rank_mod(fill, ["x", "y", "z"], None)) == (False, False)
+    fill[2]["z"] = F(1)  # det = -2: now full rank
+    assert (_full_rank_mod(fill, ["x", "y", "z"]), _full_rank_mod(fill, ["x", "y", "z"], None)) == (True, True)
+
+
+def test_a_ranges_report_may_not_call_a_unique_optimum_open():
+    # the three-resource example's optimum (2, 0, 1) is unique: every range has zero width
+    from exactlp.analysis import ranges
+    from exactlp.reports import ranges_report
+    from exactlp.report_check import check_report
+
+    from .models import KNOWN
+
+    m = model_from_text(KNOWN[0][1])
+    rep = ranges_report(m, ranges(m))
+    assert rep["unique"] is True and check_report(m, rep).valid
+    for said in (False, "false"):
+        rep["unique"] = said
+        assert check_report(m, rep).failure.detail == "unique: every range has zero width, so the optimum is unique"
+    rep["unique"] = True
+    rep["ranges"]["x2"]["method"] = "fixed bounds"  # x2 is at 0 by its reduced cost, not fixed
+    assert check_report(m, rep).failure.detail == "ranges.x2: the variable is not fixed at 0"
+    # a fixed variable is one of the equations that pin the optimum: x by its
+    # reduced cost, y by its bounds, so the optimum is unique with only x ranged
+    m = model_from_text("maximize: x\nvariables: {x: {upper: 3}, y: {fixed: 1}}\n")
+    rep = ranges_report(m, ranges(m, ["x"]))
+    assert (rep["unique"], list(rep["ranges"])) == (True, ["x"]) and check_report(m, rep).valid
+
+
 def test_the_conflict_check_sums_fractional_coefficients_exactly():
     # 1/2 a + 1/3 b >= 1 with a, b <= 1 reaches 5/6 at most: infeasible, and each
     # member is needed; the witnesses meet the row exactly (1/2 * 2 = 1 when a's
