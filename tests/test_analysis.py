@@ -622,6 +622,9 @@ def test_the_rank_test_behind_unique_optima():
     assert (_full_rank_mod(fill, ["x", "y", "z"]), _full_rank_mod(fill, ["x", "y", "z"], None)) == (False, False)
     fill[2]["z"] = F(1)  # det = -2: now full rank
     assert (_full_rank_mod(fill, ["x", "y", "z"]), _full_rank_mod(fill, ["x", "y", "z"], None)) == (True, True)
+    # fractions made whole row by row (times 6 and times 3): still twice the same row
+    thirds = [{"x": F(1, 2), "y": F(1, 3)}, {"x": F(1), "y": F(2, 3)}]
+    assert (_full_rank_mod(thirds, ["x", "y"]), _full_rank_mod(thirds, ["x", "y"], None)) == (False, False)
 
 
 def test_a_ranges_report_may_not_call_a_unique_optimum_open():
@@ -634,7 +637,10 @@ def test_a_ranges_report_may_not_call_a_unique_optimum_open():
 
     m = model_from_text(KNOWN[0][1])
     rep = ranges_report(m, ranges(m))
-    assert rep["unique"] is True and check_report(m, rep).valid
+    v = check_report(m, rep)
+    assert rep["unique"] is True and v.valid
+    assert (v.checks[-1].name, v.checks[-1].ok, v.checks[-1].detail) == (
+        "ranges", True, "3 variables' ranges over the optimal set re-derived")
     for said in (False, "false"):
         rep["unique"] = said
         assert check_report(m, rep).failure.detail == "unique: every range has zero width, so the optimum is unique"
