@@ -927,7 +927,13 @@ def test_sensitivity_report_tampering_is_caught():
 
     m = model_from_text(THREE)
     rep = sensitivity_report(m, sensitivity(m))
-    assert check_report(m, rep).valid
+    v = check_report(m, rep)
+    assert (v.valid, v.status, [(c.name, c.ok, c.detail) for c in v.checks[1:]]) == (
+        True, "its sensitivity ranges", [("the optimum", True, "certificate valid (optimal)"),
+                                         ("sensitivity", True, "every range end re-derived from the optimum and its direction")])
+    from exactlp.verifier import Check, Verification
+
+    assert check_report(m, [rep]) == Verification(False, None, (Check("report", False, "expected a mapping at the top of the report"),))
     bad = copy.deepcopy(rep)
     bad["objective_ranges"]["x1"]["upper"] = "13/2"  # widen a range beyond what holds
     assert not check_report(m, bad).valid
