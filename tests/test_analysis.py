@@ -1594,6 +1594,13 @@ def test_a_limit_without_end_is_proven_by_its_direction():
     bad["rhs_ranges"]["demand"]["lower"] = "5"  # (the range narrowed to the limit: that end holds as it is)
     assert check_report(m, bad).failure.detail == "rhs_ranges.demand.upper: the objective does not move at the dual's rate"
     assert not _proven_the_long_way(m, bad)
+    # a direction that leaves the row where it is, one that moves it twice as fast,
+    # and one that runs x below its bound 0
+    for direction, problem in (({}, "the direction does not follow the limit"),
+                               ({"x": "2"}, "the direction does not follow the limit"),
+                               ({"x": "-1"}, "the direction runs into a bound of 'x'")):
+        bad["rhs_ranges"]["demand"]["allocation_direction"] = direction
+        assert check_report(m, bad).failure.detail == f"rhs_ranges.demand.upper: {problem}"
     for bad in _tampered(rep):
         assert check_report(m, bad).valid == _proven_the_long_way(m, bad)
 
