@@ -1601,6 +1601,14 @@ def test_a_limit_without_end_is_proven_by_its_direction():
                                ({"x": "-1"}, "the direction runs into a bound of 'x'")):
         bad["rhs_ranges"]["demand"]["allocation_direction"] = direction
         assert check_report(m, bad).failure.detail == f"rhs_ranges.demand.upper: {problem}"
+    # with 'other: x - y <= 3' beside it the demand is followed along x + y = y + 3
+    # (the report's own direction, half each); x alone meets 'other' at one unit a
+    # unit of the limit, and leaves it
+    m = model_from_text(DEMAND + "  other: x - y <= 3\n")
+    rep = sensitivity_report(m, sensitivity(m))
+    assert rep["rhs_ranges"]["demand"]["allocation_direction"] == {"x": "1/2", "y": "1/2"} and check_report(m, rep).valid
+    rep["rhs_ranges"]["demand"].update(lower="5", allocation_direction={"x": "1"})
+    assert check_report(m, rep).failure.detail == "rhs_ranges.demand.upper: the direction leaves constraint 'other'"
     for bad in _tampered(rep):
         assert check_report(m, bad).valid == _proven_the_long_way(m, bad)
 
