@@ -1613,6 +1613,29 @@ def test_a_limit_without_end_is_proven_by_its_direction():
         assert check_report(m, bad).valid == _proven_the_long_way(m, bad)
 
 
+def test_a_finite_end_is_checked_on_the_moved_row_when_its_direction_misses_it():
+    # 'demand: x >= 2', w outside every row: raising the demand to 5 moves x to 5
+    # with it (the row at its new side), and the objective by the dual 1 a unit.
+    # A forged direction along w instead moves the objective by the same 3, keeps
+    # w within its bounds and meets no row, so every sum agrees; only the moved row
+    # itself, still at 2 against its new side 5, shows the end is not reached
+    import copy
+
+    from exactlp.report_check import check_report
+    from exactlp.reports import sensitivity_report
+
+    m = model_from_text("minimize: x + w\nvariables: {x: {lower: 0}, w: {lower: 0}}\nconstraints:\n  demand: x >= 2\n")
+    rep = sensitivity_report(m, sensitivity(m))
+    assert rep["rhs_ranges"]["demand"] == {"bound": "lower", "value": "2", "dual": "1", "lower": "0", "upper": None,
+                                           "allocation_direction": {"x": "1"}}
+    rep["rhs_ranges"]["demand"].update(lower="2", upper="5")  # (narrowed: a finite end each side)
+    assert check_report(m, rep).valid and _proven_the_long_way(m, rep)
+    bad = copy.deepcopy(rep)
+    bad["rhs_ranges"]["demand"]["allocation_direction"] = {"w": "1"}
+    assert check_report(m, bad).failure.detail == "rhs_ranges.demand.upper: the moved allocation breaks constraint 'demand' (2)"
+    assert not _proven_the_long_way(m, bad)
+
+
 
 # -- ranges reports: each solved end's duals and moved entries ----------------
 
