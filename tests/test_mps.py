@@ -111,6 +111,11 @@ def test_fixed_mps_with_blanks_in_names_and_objsense():
     [
         (SMALL.replace("    X4        COST", "    MARKER                 'MARKER'                 'INTORG'\n    X4        COST"),
          "<text>:17:1: COLUMNS: integer markers are not supported: exactlp solves linear programs (remove the integer markers to solve the relaxation)"),
+        # either word alone (a marker line cut short) is still a marker, not a column
+        (SMALL.replace("    X4        COST", "    M1        'INTEND'\n    X4        COST"),
+         "<text>:17:1: COLUMNS: integer markers are not supported: exactlp solves linear programs (remove the integer markers to solve the relaxation)"),
+        (SMALL.replace("    X4        COST", "    M1        'MARKER'\n    X4        COST"),
+         "<text>:17:1: COLUMNS: integer markers are not supported: exactlp solves linear programs (remove the integer markers to solve the relaxation)"),
         (SMALL.replace(" UP BND       X1", " BV BND       X1"),
          "<text>:26:1: BOUNDS: bound type BV makes an integer or semi-continuous variable, which exactlp does not support (it solves linear programs)"),
         (SMALL.replace("RHS       LIM1         4.0", "RHS       LIM1         4.x"),
