@@ -10,7 +10,9 @@ gap, the Farkas contradiction and the sides it uses, a crossed pair of bounds, t
 ray's direction, and the priority tiers.  Each must be refused with its exact
 message.  The verdicts follow from weak duality and Farkas' lemma (common practice,
 no one source); every number below is worked by hand in the comment beside it, and
-the forged certificates are built here with ``fractions.Fraction`` alone.
+the forged certificates are built here with ``fractions.Fraction`` alone.  The last
+table does the same for the ends of a ranges report (their moved entries, duals
+and rays), which the report check re-proves one condition at a time.
 """
 
 import copy
@@ -325,3 +327,91 @@ def test_an_infeasible_tier_ends_the_tiers():
     bad = copy.deepcopy(cert)
     bad["stages"].append({"name": "benefit", "certificate": copy.deepcopy(cert["stages"][0]["certificate"])})
     assert verify(m, bad).failure.detail == "stage 'senior' is infeasible, so no later stage can follow it"
+
+
+# -- range ends of a ranges report -----------------------------------------------------------
+# A ranges report proves each solved end of a variable's range over the optimal set
+# by the entries that moved from the optimum and the duals of the probe (the model
+# with 'c^T x = z*' held, the variable minimised or maximised), or by a ray where the
+# end is infinite.  report_check._probe_end re-proves each end from those alone; a
+# forged end must be refused by name at the condition it breaks.
+# maximise x + y, 0 <= x, y <= 3, x + y <= 4: the optimum 4 at (1, 3), and every
+# point of x + y = 4 with 1 <= x <= 3 is optimal; x's max end is (3, 1), proven by
+# no duals at all (its reduced cost 1 rests on x's upper bound 3)
+FACE = "maximize: x + y\nvariables: {x: {upper: 3}, y: {upper: 3}}\nconstraints:\n  cap: x + y <= 4\n"
+# minimise x + y, 0 <= x, y <= 3, x + y >= 4: the optimum 4 at (3, 1); x's min end
+# (1, 3) is proven by the dual 1 on 'need' (d_y = -1 rests on y's upper bound 3:
+# 4 * 1 - 3 = 1)
+FLOOR = "minimize: x + y\nvariables: {x: {upper: 3}, y: {upper: 3}}\nconstraints:\n  need: x + y >= 4\n"
+# minimise x, x - y <= 0: every (0, y), y >= 0, is optimal, and y rises without end
+# along the ray (0, 1)
+OPEN_SET = "minimize: x\nvariables: {x: {}, y: {}}\nconstraints:\n  c: x - y <= 0\n"
+
+
+def _proof(side):
+    return lambda r: r["x"]["proofs"][side]
+
+
+RANGE_FORGERIES = [
+    ("no proof", FACE, lambda r: r["x"]["proofs"].update(max="none"), "ranges.x.max: no proof of this end"),
+    ("an infinite end without a ray", FACE, lambda r: r["x"].update(max=None),
+     "ranges.x.max: an infinite end needs a ray"),
+    ("a ray for a finite end", FACE, lambda r: _proof("max")(r).update(ray={"x": "1"}),
+     "ranges.x.max: a ray proves no finite end, and the report gives 3"),
+    ("both kinds of duals", FACE, lambda r: _proof("max")(r).update(duals={}),
+     "ranges.x.max: an end gives its duals or its face's duals, not both"),
+    # x moved past its upper bound 3, then past its lower bound 0
+    ("past an upper bound", FACE, lambda r: _proof("max")(r).update(moved={"x": "4", "y": "0"}),
+     "ranges.x.max: 'x' = 4 breaks its bounds"),
+    ("past a lower bound", FACE, lambda r: _proof("min")(r).update(moved={"x": "-1", "y": "3"}),
+     "ranges.x.min: 'x' = -1 breaks its bounds"),
+    # (3, 3): 'cap' at 6 > 4; (1, 2) in FLOOR: 'need' at 3 < 4
+    ("past a row's upper side", FACE, lambda r: _proof("max")(r).update(moved={"x": "3", "y": "3"}),
+     "ranges.x.max: constraint 'cap' fails at the point (6)"),
+    ("past a row's lower side", FLOOR, lambda r: _proof("min")(r).update(moved={"x": "1", "y": "2"}),
+     "ranges.x.min: constraint 'need' fails at the point (3)"),
+    # (3, 0) is feasible but x + y = 3, not the optimum 4
+    ("off the optimal set", FACE, lambda r: _proof("max")(r).update(moved={"x": "3", "y": "0"}),
+     "ranges.x.max: the point leaves the optimal set (the held objective moves)"),
+    # held dual 1: the duals u - 1 * y* give 'cap' -1, which (maximising) must rest
+    # on a lower side that 'cap' lacks
+    ("a dual on a missing side", FACE, lambda r: _proof("max")(r).update(held_dual="1"),
+     "ranges.x.max: dual of constraint 'cap' is -1, which needs a finite lower side, and it has none"),
+    # 'need' -1 (minimising) needs an upper side
+    ("a dual of the wrong sign", FLOOR, lambda r: _proof("min")(r).update(face_duals={"need": "-1"}),
+     "ranges.x.min: dual of constraint 'need' is -1, which needs a finite upper side, and it has none"),
+    # face duals {cap: 1}, held 1: the duals are 1 - 1 * 1 = 0 and the reduced costs
+    # e_x - 1 * c = (0, -1); with held 4 * 1 and d_y = -1 on y's lower bound 0, the
+    # dual objective is 4, and the point (3, 1) gives x = 3
+    ("a gap", FACE, lambda r: _proof("max")(r).update(face_duals={"cap": "1"}, held_dual="1"),
+     "ranges.x.max: the duals leave a gap (3 against 4)"),
+    # y's min end in OPEN_SET with held dual 1: the reduced costs e_y - c = (-1, 1),
+    # and x's -1 (minimising) must rest on an upper bound x lacks
+    ("a reduced cost on a missing side", OPEN_SET,
+     lambda r: r["y"]["proofs"]["min"].update(held_dual="1"),
+     "ranges.y.min: reduced cost of 'x' is -1, which needs a finite upper side, and it has none"),
+    # y's infinite end: x along the ray leaves 'c' (x - y rises); (1, 1) keeps 'c'
+    # but raises the held objective x; a proof of a finite end in place of a ray
+    ("a ray leaving a row", OPEN_SET, lambda r: r["y"]["proofs"]["max"].update(ray={"x": "1"}),
+     "ranges.y.max: the ray leaves constraint 'c'"),
+    ("a ray off the optimal set", OPEN_SET, lambda r: r["y"]["proofs"]["max"].update(ray={"x": "1", "y": "1"}),
+     "ranges.y.max: the ray changes the held objective"),
+    ("an infinite end with a point", OPEN_SET,
+     lambda r: r["y"]["proofs"].update(max={"moved": {}, "face_duals": {}, "held_dual": "0"}),
+     "ranges.y.max: an infinite end needs a ray"),
+]
+
+
+@pytest.mark.parametrize("name, text, change, detail", RANGE_FORGERIES, ids=[f[0] for f in RANGE_FORGERIES])
+def test_a_forged_range_end_is_refused_by_name(name, text, change, detail):
+    from exactlp.analysis import ranges
+    from exactlp.report_check import check_report
+    from exactlp.reports import ranges_report
+
+    m = model_from_text(text)
+    rep = ranges_report(m, ranges(m))
+    assert check_report(m, rep).valid
+    bad = copy.deepcopy(rep)
+    change(bad["ranges"])
+    v = check_report(m, bad)
+    assert (v.valid, v.failure.detail) == (False, detail)
