@@ -1840,6 +1840,54 @@ def _boxed_models(draw):
     return model_from_text("\n".join(lines) + "\n")
 
 
+_PRIMES = [3, 5, 7, 11, 13, 17, 19, 23, 29, 31, 37, 41, 43, 47, 53, 59, 61, 67, 71, 73, 79, 83, 89, 97]
+
+
+@pytest.mark.parametrize("short", [True, False], ids=["one denominator", "many primes"])
+def test_the_report_checks_products_are_a_and_its_transpose_times_the_vector(short):
+    # report_check._Matrix sums A v and A^T w over common denominators (the
+    # vector's, each column's or row's), or keeps Fractions where such a
+    # denominator would be long (many different primes: each row of 24 columns
+    # over 24 primes, a vector over 23): both ways must give the products as
+    # defined, summed here entry by entry, and the first way whole numbers
+    from exactlp.report_check import _Matrix, _whole
+
+    n, k = 24, 6
+    den = (lambda j: 2) if short else (lambda j: _PRIMES[j])  # column j's coefficients over den(j)
+    rows = [f"  r{i}: " + " + ".join(f"{F((i + j) % 5 - 2, den(j))} x{j}" for j in range(n)
+                                      if (i + j) % 5 != 2) + " <= 1" for i in range(k)]
+    m = model_from_text("minimize: x0\nvariables: {" + ", ".join(f"x{j}: {{}}" for j in range(n)) + "}\n"
+                        "constraints:\n" + "\n".join(rows) + "\n")
+    v = {f"x{j}": F(j - 7, 4 if short else _PRIMES[-1 - j]) for j in range(n) if j != 7}
+    w = {f"r{i}": F(2 * i - 5, 2 if short else _PRIMES[i]) for i in range(k)}
+    mat = _Matrix(m)
+    a_v = {c.name: sum((a * v.get(x, 0) for x, a in c.terms), F(0)) for c in m.constraints}
+    at_w = {x.name: sum((a * w[c.name] for c in m.constraints for y, a in c.terms if y == x.name), F(0))
+            for x in m.variables}
+    wholes = {}
+    for product, whole, vec, want in ((mat.times, mat.times_whole, v, a_v), (mat.t_times, mat.t_times_whole, w, at_w)):
+        got = product(vec)
+        assert {o: g for o, g in got.items() if g} == {o: g for o, g in want.items() if g}
+        assert all(type(g) is F for g in got.values())
+        entries, common = wholes[product.__name__] = whole(vec)
+        assert {o: F(t) / common for o, t in entries.items() if t} == {o: g for o, g in want.items() if g}
+        assert all(type(t) is int for t in entries.values()) == short
+    # the vectors as whole numbers over their least common denominator (w's six
+    # primes: 3 * 5 * 7 * 11 * 13 * 17), or as they are (v's 23 primes)
+    for vec, lcd in ((v, 4 if short else None), (w, 2 if short else 255255)):
+        entries, common = _whole(vec)
+        assert {o: F(t) / common for o, t in entries.items()} == vec
+        assert (common, all(type(t) is int for t in entries.values())) == ((1, False) if lcd is None else (lcd, True))
+    # and a sum of products, over their common denominator or (long) as Fractions
+    from exactlp.report_check import _dot, _fsum
+
+    pairs = [(a, v.get(x, F(0))) for c in m.constraints for x, a in c.terms]
+    assert _dot(pairs) == sum((a * b for a, b in pairs), F(0)) and type(_dot(pairs)) is F
+    assert _fsum(v.values()) == sum(v.values(), F(0)) and type(_fsum(v.values())) is F
+    if not short:  # each way of keeping Fractions was taken: the rows' scales, A^T w's common one
+        assert set(mat._by_cols[1].values()) == {None} and wholes["t_times"][1] == 1
+
+
 @settings(max_examples=300, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(_boxed_models(), st.data())
 def test_the_ranges_check_sums_each_end_as_its_definition_does(model, data):
