@@ -26,7 +26,9 @@ import typer.core
 
 from . import __version__
 
-EXIT_OK, EXIT_INVALID, EXIT_INPUT, EXIT_LIMIT, EXIT_INTERNAL = 0, 1, 2, 3, 4
+# (0 and 2 come from where they are decided: a command that returns, and the
+# library's errors' own ``exit_code``, 2 for bad input; see exactlp.errors)
+EXIT_INVALID, EXIT_LIMIT, EXIT_INTERNAL = 1, 3, 4
 EXIT_PIPE = 141  # the reader of our output went away (128 + SIGPIPE)
 
 

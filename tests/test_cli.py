@@ -1,6 +1,8 @@
 """The command line (issue 5): every command and exit code, pinned width, no colour."""
 
 import json
+import os
+import signal
 from pathlib import Path
 
 import pytest
@@ -336,16 +338,102 @@ def test_import_to_a_folder_is_refused(cli, tmp_path):
     (("solve", DROUGHT, "--no-such-option"), "solve: ", "--no-such-option"),
     (("verify", DROUGHT), "verify: ", "cert"),
     (("sovle", DROUGHT), "", "sovle"),
+    (("--no-such-option",), "", "--no-such-option"),
+    (("solve", DROUGHT, "--digits", "0"), "solve: ", "--digits"),
+    (("solve", DROUGHT, "--iteration-limit", "-1"), "solve: ", "--iteration-limit"),
+    (("trace", "run.log.jsonl", "--pivot", "0"), "trace: ", "--pivot"),
 ])
 def test_usage_errors_are_one_line(cli, args, where, names):
     # (the middle of the line is the command-line library's own wording, which its
-    # versions change; exactlp's frame around it is pinned)
+    # versions change; exactlp's frame around it is pinned: the command named once,
+    # a root-level error names none, and no hint of another command's option)
     code, out, err = cli(*args)
     assert (code, out) == (2, "")
     assert err.count("\n") == 1 and err.endswith("\n")
     helper = f"exactlp {args[0]} -h" if where else "exactlp -h"
     assert err.startswith(f"exactlp: {where}") and err.endswith(f" (see '{helper}')\n")
     assert names in err.lower()
+    middle = err[len(f"exactlp: {where}"):-len(f" (see '{helper}')\n")]
+    assert not middle.startswith(("exactlp", "solve", "trace")) and ";" not in middle and "None" not in middle
+
+
+def test_the_lowest_limits_and_digits_allowed_are_taken(cli):
+    # --iteration-limit 0 stops before the first step (exit 3, nothing proven), a
+    # time limit under a second is a limit like any other, --digits 1 renders one
+    code, out, _ = cli("solve", DROUGHT, "--iteration-limit", "0")
+    assert code == 3 and lines(out)[1:3] == ["outcome  stopped: iteration limit reached; nothing is proven",
+                                             "pivots   phase 1: 0, phase 2: 0, bound flips: 0"]
+    code, out, _ = cli("solve", DROUGHT, "--time-limit", "0.5", "--digits", "1")
+    assert code == 0 and ["≈", "3e+4", "(decimal", "rendering", "to", "1", "digits)"] in [x.split() for x in lines(out)]
+
+
+def test_a_bare_command_prints_the_help(cli):
+    # (on stderr with exit 2, as a usage error, from click 8.2 on; on stdout with
+    # exit 0 before it: from memory of the command-line library's change log, so
+    # both are taken)
+    code, out, err = cli()
+    assert code in (0, 2)
+    out, rest = (err, out) if code == 2 else (out, err)
+    assert rest == "" and out.startswith("Usage: exactlp [OPTIONS] COMMAND [ARGS]...")
+    for name in ("solve", "verify", "check", "show", "trace", "import", "sensitivity", "ranges", "conflict"):
+        assert f"\n  {name} " in out
+
+
+INTERNAL = [  # each command, its arguments, and the first library function it calls
+    ("check", [DROUGHT], "exactlp.cli._load"),
+    ("show", [DROUGHT], "exactlp.cli._load"),
+    ("solve", [DROUGHT], "exactlp.cli._load"),
+    ("verify", [DROUGHT, "c.yaml"], "exactlp.cli._load"),
+    ("sensitivity", [DROUGHT], "exactlp.cli._load"),
+    ("ranges", [DROUGHT], "exactlp.cli._load"),
+    ("conflict", [INFEASIBLE], "exactlp.cli._load"),
+    ("trace", ["run.log.jsonl"], "exactlp.audit.read_log"),
+    ("import", ["src.mps", "-o", "out.yaml"], "exactlp.io.read_mps"),
+]
+
+
+@pytest.mark.parametrize("command, args, target", INTERNAL, ids=[c for c, _, _ in INTERNAL])
+def test_every_command_turns_an_internal_error_into_one_line_unless_debugging(cli, monkeypatch, tmp_path,
+                                                                            command, args, target):
+    def boom(*a, **k):
+        raise ZeroDivisionError("simulated")
+
+    monkeypatch.chdir(tmp_path)
+    monkeypatch.setattr(target, boom)
+    code, out, err = cli(command, *args)
+    assert (code, out) == (4, "")
+    assert err == "exactlp: internal error: ZeroDivisionError: simulated (run again with --debug for the traceback)\n"
+    code, out, err = cli(command, *args, "--debug")  # the exception itself, for its traceback
+    assert code == 1 and "internal error" not in err
+    assert os.listdir(tmp_path) == []
+
+
+def test_json_output_is_sorted_indented_and_keeps_names_as_written(cli, write):
+    path = write("débit.yaml", "name: Réservoir du Nord\nmaximize: x\nvariables: {x: {upper: 3}}\n"
+                               "constraints:\n  basin: x <= 2\n")
+    for args in (("solve", path, "--json"), ("sensitivity", path, "--json")):
+        code, out, _ = cli(*args)
+        assert code == 0 and '"name": "Réservoir du Nord"' in out
+        assert out == json.dumps(json.loads(out), sort_keys=True, indent=2, ensure_ascii=False) + "\n"
+
+
+def test_a_command_leaves_the_signal_handlers_as_it_found_them(cli):
+    # each command handles SIGTERM (and solve SIGINT) while it runs; a script that
+    # calls the command line in its own process gets its own handlers back
+    before = signal.getsignal(signal.SIGTERM), signal.getsignal(signal.SIGINT)
+    for args in (("check", DROUGHT), ("solve", DROUGHT), ("check", "no such file.yaml")):
+        cli(*args)
+        assert (signal.getsignal(signal.SIGTERM), signal.getsignal(signal.SIGINT)) == before
+
+
+def test_a_bad_model_says_what_is_wrong_with_it_not_that_it_is_a_certificate(cli, write):
+    # a model file that fails to load is tried as a certificate, to tell two swapped
+    # arguments apart; a model with a mistake is still a model, and its own error is said
+    path = write("typo.yaml", "minimise: x\nvariables: {x: {upper: 3}}\n")
+    for args in (("check", path), ("verify", path, path)):
+        code, out, err = cli(*args)
+        assert (code, out) == (2, "")
+        assert err == f"exactlp: {path}:1:1: minimise: unknown key 'minimise' (did you mean 'minimize'?)\n"
 
 
 @pytest.mark.parametrize("command, option, instead", [
