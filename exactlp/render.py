@@ -106,6 +106,11 @@ def model_title(model: Model) -> str:
 
 
 # ----------------------------------------------------------------------
+def _count(n: int, one: str, many: str) -> str:
+    """``1 term``, ``3 terms``, ``0 terms``."""
+    return f"{n} {one if n == 1 else many}"
+
+
 def summary(console: Console, model: Model, path: str) -> None:
     vs, cs = model.variables, model.constraints
     free = sum(1 for v in vs if v.lower is None and v.upper is None)
@@ -115,9 +120,9 @@ def summary(console: Console, model: Model, path: str) -> None:
     kv(console, [
         ("model", f"{path} is valid"),
         ("name", model.name or "(none)"),
-        ("objective", f"{model.sense.value}, {len(model.objective)} terms"),
+        ("objective", f"{model.sense.value}, {_count(len(model.objective), 'term', 'terms')}"),
         ("variables", f"{len(vs)} ({free} free, {fixed} fixed)"),
-        ("constraints", f"{len(cs)} ({eq} equalities, {ranged} ranged)"),
+        ("constraints", f"{len(cs)} ({_count(eq, 'equality', 'equalities')}, {ranged} ranged)"),
         ("nonzeros", str(model.nonzeros)),
         ("fingerprint", model.fingerprint),
     ])

@@ -52,6 +52,23 @@ def test_check(cli):
     ]
 
 
+def test_check_shows_the_name_as_written_and_counts_in_words(cli, write):
+    # text from the model reaches the screen as written: ':smile:' is not an emoji
+    # code to the screen, '[b]' no markup; one term, one equality
+    path = write("plan.yaml", 'name: "Plan :smile: [b]B[/b]"\nmaximize: x\nvariables: {x: {upper: 3}}\n'
+                              "constraints:\n  cap: x == 2\n")
+    code, out, err = cli("check", path)
+    assert (code, err) == (0, "")
+    assert lines(out)[1:5] == [
+        "name         Plan :smile: [b]B[/b]",
+        "objective    maximize, 1 term",
+        "variables    1 (0 free, 0 fixed)",
+        "constraints  1 (1 equality, 0 ranged)",
+    ]
+    code, out, _ = cli("solve", path)
+    assert code == 0 and lines(out)[0].startswith("model      Plan :smile: [b]B[/b]  (sha256:")
+
+
 def test_show(cli):
     code, out, _ = cli("show", DROUGHT)
     assert code == 0
@@ -420,10 +437,17 @@ def test_json_output_is_sorted_indented_and_keeps_names_as_written(cli, write):
 def test_a_command_leaves_the_signal_handlers_as_it_found_them(cli):
     # each command handles SIGTERM (and solve SIGINT) while it runs; a script that
     # calls the command line in its own process gets its own handlers back
-    before = signal.getsignal(signal.SIGTERM), signal.getsignal(signal.SIGINT)
-    for args in (("check", DROUGHT), ("solve", DROUGHT), ("check", "no such file.yaml")):
-        cli(*args)
-        assert (signal.getsignal(signal.SIGTERM), signal.getsignal(signal.SIGINT)) == before
+    def mine(signum, frame):  # (a handler of the caller's own, so that none left behind passes for it)
+        pass
+
+    saved = {s: signal.signal(s, mine) for s in (signal.SIGTERM, signal.SIGINT)}
+    try:
+        for args in (("check", DROUGHT), ("solve", DROUGHT), ("check", "no such file.yaml")):
+            cli(*args)
+            assert (signal.getsignal(signal.SIGTERM), signal.getsignal(signal.SIGINT)) == (mine, mine)
+    finally:
+        for s, h in saved.items():
+            signal.signal(s, h)
 
 
 def test_a_bad_model_says_what_is_wrong_with_it_not_that_it_is_a_certificate(cli, write):
