@@ -347,6 +347,12 @@ FLOOR = "minimize: x + y\nvariables: {x: {upper: 3}, y: {upper: 3}}\nconstraints
 # along the ray (0, 1)
 OPEN_SET = "minimize: x\nvariables: {x: {}, y: {}}\nconstraints:\n  c: x - y <= 0\n"
 
+# OPEN_SET with more sides around it: z is boxed and held by 'e'; w follows y
+# within 10 either way ('g', 'h'); y still rises without end, along (0, 1, 0, 1)
+# or (0, 1, 0, 0)
+SIDES = ("minimize: x\nvariables: {x: {}, y: {}, z: {upper: 5}, w: {}}\n"
+         "constraints:\n  c: x - y <= 0\n  d: x + y >= 0\n  e: z <= 4\n  g: y - w <= 10\n  h: y - w >= -10\n")
+
 
 def _proof(side):
     return lambda r: r["x"]["proofs"][side]
@@ -394,6 +400,11 @@ RANGE_FORGERIES = [
     # but raises the held objective x; a proof of a finite end in place of a ray
     ("a ray leaving a row", OPEN_SET, lambda r: r["y"]["proofs"]["max"].update(ray={"x": "1"}),
      "ranges.y.max: the ray leaves constraint 'c'"),
+    # z along the ray runs into its upper bound 5, x into its lower bound 0
+    ("a ray into an upper bound", SIDES, lambda r: r["y"]["proofs"]["max"].update(ray={"y": "1", "z": "1"}),
+     "ranges.y.max: the ray runs into a bound of 'z'"),
+    ("a ray into a lower bound", SIDES, lambda r: r["y"]["proofs"]["max"].update(ray={"x": "-1", "y": "1"}),
+     "ranges.y.max: the ray runs into a bound of 'x'"),
     ("a ray off the optimal set", OPEN_SET, lambda r: r["y"]["proofs"]["max"].update(ray={"x": "1", "y": "1"}),
      "ranges.y.max: the ray changes the held objective"),
     ("an infinite end with a point", OPEN_SET,
@@ -415,3 +426,22 @@ def test_a_forged_range_end_is_refused_by_name(name, text, change, detail):
     change(bad["ranges"])
     v = check_report(m, bad)
     assert (v.valid, v.failure.detail) == (False, detail)
+
+
+def test_a_range_end_written_with_explicit_zeros_still_proves_it():
+    # not a forgery: a ray or a point may name entries that do not move (0 in the
+    # ray, the optimum's own value in the point).  A zero entry of the ray touches
+    # x (a lower bound and a cost) and z (an upper bound) without moving them; the
+    # ray (y, w) = (1, 1) moves 'g' and 'h' by 1 - 1 = 0, so it leaves neither the
+    # upper side of one nor the lower side of the other
+    from exactlp.analysis import ranges
+    from exactlp.report_check import check_report
+    from exactlp.reports import ranges_report
+
+    m = model_from_text(SIDES)
+    rep = ranges_report(m, ranges(m))
+    assert check_report(m, rep).valid
+    assert rep["ranges"]["z"]["proofs"]["max"]["moved"] == {"z": "4"}
+    rep["ranges"]["y"]["proofs"]["max"]["ray"] = {"y": "1", "w": "1", "x": "0", "z": "0"}
+    rep["ranges"]["z"]["proofs"]["max"]["moved"] = {"z": "4", "x": "0", "y": "0"}
+    assert check_report(m, rep).valid
