@@ -29,6 +29,7 @@ def test_help_lists_the_commands(cli):
     assert code == 0
     for name in ("solve", "verify", "check", "show", "trace", "import"):
         assert name in out
+    assert "--install-completion" in out and "--show-completion" in out  # (the README offers it)
 
 
 @pytest.mark.parametrize("command", ["solve", "verify", "check", "show", "trace", "import"])
