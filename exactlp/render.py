@@ -187,11 +187,15 @@ def check_line(console: Console, checked: str | None) -> None:
 
 def solve_report(console: Console, model: Model, result, *, digits: int, certificate: str | None,
                  verified: bool | None, log: str | None, cert: dict | None = None,
-                 rows: int | None = ROWS, warm_note: str | None = None) -> None:
+                 rows: int | None = ROWS, warm_note: str | None = None, named: Model | None = None) -> None:
+    """The result of solving ``model``; ``named`` is the model file it came from
+    where that differs (the last tier's own linear program of a tiered model):
+    the head names the file's model and fingerprint, as its certificate does."""
     from .solver.result import Status
 
     st = result.status
-    head = [("model", f"{model_title(model)}  ({model.fingerprint[:19]}…)")]
+    named = model if named is None else named
+    head = [("model", f"{model_title(named)}  ({named.fingerprint[:19]}…)")]
     if st is Status.OPTIMAL:
         head.append(("outcome", "optimal: proven by primal and dual feasibility with a zero gap"))
         head.append(("objective", format_number(result.objective)))

@@ -6,6 +6,7 @@ checked on generated data.
 """
 
 import copy
+import json
 import random
 from fractions import Fraction as F
 
@@ -151,6 +152,50 @@ def test_priority_through_cli(cli, tmp_path):
     assert code == 0 and "Priority tiers of Senior rights first, then benefit" in out
     code, out, _ = cli("verify", CASES / "water_priority.yaml", cert)
     assert code == 0 and "pass  stage 'senior': optimal, objective 550" in out
+
+
+THREE_TIERS = (CASES / "water_priority.yaml").read_text().replace(
+    "  - name: benefit\n", "  - name: junior\n    maximize: junior_c + junior_d\n  - name: benefit\n")
+
+
+def test_three_tiers_through_cli_name_the_model_file_and_show_the_last_tier(cli, write):
+    # by hand: the seniors' 300 + 250 = 550 first; held at 550, the juniors share
+    # what the river leaves, 900 - 550 = 350, junior_c at most 500 - 300 = 200 by
+    # the upper reach; held at that too, the benefit puts junior_c at its 200 (21
+    # a megalitre against 15): 12 * 300 + 9 * 250 + 21 * 200 + 15 * 150 = 12300
+    path = write("three.yaml", THREE_TIERS)
+    m = exactlp.load(path)
+    code, out, _ = cli("solve", path, "--json")
+    doc = json.loads(out)
+    assert code == 0 and doc["stages"] == [{"name": "senior", "objective": "550", "status": "optimal"},
+                                           {"name": "junior", "objective": "350", "status": "optimal"},
+                                           {"name": "benefit", "objective": "12300", "status": "optimal"}]
+    assert doc["model"] == {"name": m.name, "fingerprint": m.fingerprint} and doc["objective"] == "12300"
+    assert doc["primal"] == {"senior_a": "300", "senior_b": "250", "junior_c": "200", "junior_d": "150"}
+    # the last tier's duals, checked by hand against the basic columns' costs:
+    # junior_d 15 = river 6 + junior.held 9, junior_c 21 = 6 + upper_reach 6 + 9,
+    # senior_a 12 = 6 + 6 + senior.held 0 (and senior_b, at its upper bound, has 9 - 6 - 0 = 3 > 0)
+    assert doc["duals"] == {"river": "6", "upper_reach": "6", "senior.held": "0", "junior.held": "9"}
+    # the screen: the model line names the file's model (the certificate's
+    # fingerprint, not the last tier's own program's), whose rows hold both tiers
+    code, out, _ = cli("solve", path)
+    table = [line.split() for line in out.splitlines()]
+    assert code == 0 and ["model", *m.name.split(), f"({m.fingerprint[:19]}…)"] in table
+    assert ["senior.held", "550", "550", "550"] == next(r for r in table if r[:1] == ["senior.held"])[:4]
+    assert ["junior.held", "350", "350", "350"] == next(r for r in table if r[:1] == ["junior.held"])[:4]
+
+
+def test_a_first_tier_without_an_optimum_ends_the_json_stages(cli, write):
+    # senior_a at least 400 against its entitlement of 300: the first tier is
+    # infeasible, no later tier is solved, and its objective is null
+    path = write("floor.yaml", THREE_TIERS + "  floor: senior_a >= 400\n")
+    code, out, _ = cli("solve", path, "--json")
+    doc = json.loads(out)
+    assert code == 0 and doc["status"] == "infeasible"
+    assert doc["stages"] == [{"name": "senior", "objective": None, "status": "infeasible"}]
+    # Farkas: floor's senior_a >= 400 less senior_a <= 300 gives 0 >= 100
+    assert doc["farkas"] == {"bound_variables": ["senior_a"], "bounds": {"senior_a": "-1"}, "constraints": ["floor"],
+                             "multipliers": {"floor": "1"}, "rhs": "100"}
 
 
 def test_show_expanded(cli):
