@@ -341,11 +341,14 @@ def trace_report(console: Console, records: list[dict], pivot: int | None, rows:
     model = header.get("model", {})
     tier = None
     steps = []
+    closes = []  # (tier or None, its closing record): a priority model's log closes each tier
     for r in records:  # a priority model's log marks where each tier begins
         if r.get("record") == "stage":
             tier = r.get("name")
         elif r.get("record") in ("pivot", "flip"):
             steps.append(dict(r, tier=tier) if tier is not None else r)
+        elif r.get("record") == "close":
+            closes.append((tier, r))
     tiered = tier is not None
     match = [r for r in steps if r.get("iteration") == pivot]
     if pivot is not None and not match:  # (before anything is printed)
@@ -358,7 +361,6 @@ def trace_report(console: Console, records: list[dict], pivot: int | None, rows:
         ("settings", ", ".join(f"{k}={v if isinstance(v, str) else json.dumps(v)}"
                                for k, v in sorted((header.get("settings") or {}).items()))),
     ])
-    close = next((r for r in records if r.get("record") == "close"), None)
     if pivot is None:
         t = Table(title="Pivots", box=BOX, title_justify="left")
         heads = (("tier",) if tiered else ()) + ("#", "phase", "entering", "leaving", "ratio", "step", "objective", "rule")
@@ -391,21 +393,26 @@ def trace_report(console: Console, records: list[dict], pivot: int | None, rows:
             t = Table(title="Tableau before the pivot (rows: basic columns; B^-1 A)", box=BOX, title_justify="left")
             t.add_column("basic")
             t.add_column("value", justify="right")
+
+            def marked(c) -> str:  # a column's name, and its kind where a row of that name has two
+                return c[0] + ("'" if c[1] == "slack" else "*" if c[1] == "artificial" else "")
             for c in tab["columns"]:
-                t.add_column(c[0] + ("'" if c[1] == "slack" else "*" if c[1] == "artificial" else ""), justify="right")
+                t.add_column(marked(c), justify="right")
             for b, val, row in zip(tab["basis"], tab["values"], tab["rows"]):
-                add_row(t, b[0], val, *row)
+                add_row(t, marked(b), val, *row)
             add_row(t, "reduced cost", "", *[v if v is not None else "" for v in tab["reduced_costs"]])
             console.print(t)
             console.print(Text("(' marks a constraint's slack column, * an artificial one)"))
         elif tab:
             console.print(Text(f"tableau: {tab.get('omitted')}"))
-    if close:
-        console.print(Text(f"closed: {close.get('outcome')}, objective {close.get('objective')}, "
+    for name, close in closes:
+        console.print(Text(f"closed{f' ({name})' if name is not None else ''}: {close.get('outcome')}, "
+                           f"objective {close.get('objective')}, "
                            f"pivots {close.get('pivots_phase1')} + {close.get('pivots_phase2')}, "
                            f"bound flips {close.get('bound_flips')}"))
-    else:
-        console.print(Text("closed: no closing record (the run was killed or is still going)"))
+    if not closes or (tiered and closes[-1][0] != tier):
+        console.print(Text("closed: no closing record (the run was killed or is still going)"
+                           + (f"; tier '{tier}' has none" if closes else "")))
 
 
 class StatusLine:

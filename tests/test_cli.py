@@ -540,3 +540,129 @@ def test_screen_tables_show_at_most_rows_and_say_how_many_more(cli, write):
     code, out, _ = cli("trace", log, "--rows", "1")
     assert code == 0 and (f"... and {steps - 1:,} more pivots, not shown here (the log holds every one, and "
                           "--pivot K shows any one; --rows 0 shows every one)") in out
+
+
+# A model of every shape the screens render: a negative first term and constant,
+# a fraction, a fixed, a free and a two-sided variable, an equality, a ranged and
+# a '>=' row, no name (the file's path stands for it); the optimum by hand: w = x - 1
+# makes the objective 2 y - 9/2, least at y = -2 (-17/2), x anywhere in [0, 4]
+SHAPES = """minimize: -x + 2 y - 1/2 z + w - 3
+variables:
+  x: {upper: 4}
+  y: {lower: -2, upper: 5}
+  z: {fixed: 1}
+  w: {lower: -inf}
+  v: {lower: -inf}
+constraints:
+  e1: w - x == -1
+  r1: 1 <= -y + w <= 10
+  g1: y + 2 v >= -6
+"""
+
+SHAPES_SCREENS = {
+    "show": """\
+Model: {path}
+Objective: minimize -x + 2 y - 1/2 z + w - 3
+Variables
+
+  variable   lower   upper   unit   note
+ ────────────────────────────────────────
+  x              0       4
+  y             -2       5
+  z              1       1
+  w           -inf     inf
+  v           -inf     inf
+
+Constraints
+
+  constraint   rule
+ ────────────────────────────────
+  e1           -x + w == -1
+  r1           1 <= -y + w <= 10
+  g1           y + 2 v >= -6
+
+""",
+    "solve": """\
+model      {path}  ({fp19}…)
+outcome    optimal: proven by primal and dual feasibility with a zero gap
+objective  -17/2
+           ≈ -8.5  (decimal rendering to 12 digits)
+pivots     phase 1: 1, phase 2: 0, bound flips: 0
+check      the certificate passed the independent verifier
+audit log  {log}
+Variables
+
+  variable   value   lower   upper   reduced cost   position
+ ─────────────────────────────────────────────────────────────
+  x              1       0       4              0   basic
+  y             -2      -2       5              2   at lower
+  z              1       1       1           -1/2   fixed
+  w              0    -inf     inf              0   free at 0
+  v              0    -inf     inf              0   free at 0
+
+Constraints
+
+  constraint   activity   lower   upper   dual   state
+ ────────────────────────────────────────────────────────
+  e1                 -1      -1      -1      1   binding
+  r1                  2       1      10      0   slack
+  g1                 -2      -6     inf      0   slack
+
+Caution: this is the proven outcome of the model as written, not proof that the model states the agreed rules; decisions under legal or regulatory rules need qualified review.
+""",
+    "trace": """\
+log       exactlp {version}, exactlp-log/1
+model     (unnamed)  {fp}
+settings  iteration_limit=null, pricing=guarded, tableau=true, time_limit=null, warm_start=auto
+Pivots
+
+  #   phase   entering   leaving       ratio   step   objective   rule
+ ───────────────────────────────────────────────────────────────────────
+  1       1   x ↑        e1 -> lower       1      1           0   devex
+
+closed: optimal, objective -17/2, pivots 1 + 0, bound flips 0
+""",
+    "pivot": """\
+log       exactlp {version}, exactlp-log/1
+model     (unnamed)  {fp}
+settings  iteration_limit=null, pricing=guarded, tableau=true, time_limit=null, warm_start=auto
+Pivot 1
+degenerate     False
+direction      increase
+entering       x (variable)
+iteration      1
+leaving        e1 (artificial)
+leaving_bound  lower
+objective      0
+phase          1
+ratio          1
+reduced_cost   -1
+rule           devex
+step           1
+Tableau before the pivot (rows: basic columns; B^-1 A)
+
+  basic          value    x    y   z    w    v   e1'   r1'   g1'   e1*
+ ──────────────────────────────────────────────────────────────────────
+  e1*                1    1    0   0   -1    0     1     0     0     1
+  r1'                2    0    1   0   -1    0     0     1     0     0
+  g1'               -2    0   -1   0    0   -2     0     0     1     0
+  reduced cost           -1    0        1    0
+
+(' marks a constraint's slack column, * an artificial one)
+closed: optimal, objective -17/2, pivots 1 + 0, bound flips 0
+""",
+}
+
+
+def test_the_screens_of_a_model_of_every_shape(cli, write, tmp_path):
+    # each screen whole, line for line, at the pinned width without colour: the
+    # model as tables, the solve with its positions and states, the log's pivots,
+    # and one pivot with its tableau (a slack column marked ', an artificial *)
+    path, log = write("shapes.yaml", SHAPES), tmp_path / "shapes.log.jsonl"
+    m = exactlp.load(path)
+    fill = dict(path=path, log=log, fp=m.fingerprint, fp19=m.fingerprint[:19], version=exactlp.__version__)
+    for name, args in (("show", ("show", path)), ("solve", ("solve", path, "--tableau", "-l", log)),
+                       ("trace", ("trace", log)), ("pivot", ("trace", log, "--pivot", "1"))):
+        code, out, err = cli(*args)
+        assert (code, err) == (0, "")
+        assert lines(out) == SHAPES_SCREENS[name].format(**fill).splitlines(), name

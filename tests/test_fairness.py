@@ -319,4 +319,26 @@ def test_tiered_model_round_trips_and_traces(cli, tmp_path):
     log = tmp_path / "l.jsonl"
     assert cli("solve", CASES / "water_priority.yaml", "-l", log)[0] == 0
     code, out, _ = cli("trace", log)
-    assert code == 0 and "tier" in out and "senior" in out and "benefit" in out
+    table = [line.rstrip() for line in out.splitlines()]
+    # the senior tier needs no pivot (its slack basis with both seniors flipped to
+    # their entitlements is optimal); the benefit tier's three dual pivots, each with
+    # its tier; and a closing line for each tier, the last one's the final optimum
+    assert code == 0 and table[3:] == [
+        "Pivots",
+        "",
+        "  tier      #   phase   entering     leaving                             ratio   step   objective   rule",
+        " " + "─" * 104,
+        "  benefit   1       1   senior_a ↓   river -> upper (+1 flipped)            12    200         450   dual",
+        "  benefit   2       1   junior_c ↓   senior.held -> lower (+1 flipped)       9     50         650   dual",
+        "  benefit   3       1   junior_d ↑   upper_reach -> upper (+1 flipped)       6    150           0   dual",
+        "",
+        "closed (senior): optimal, objective 550, pivots 0 + 0, bound flips 0",
+        "closed (benefit): optimal, objective 12300, pivots 3 + 0, bound flips 3",
+    ]
+    # a log cut before the last tier closed says which tier has no closing record
+    cut = tmp_path / "cut.jsonl"
+    cut.write_text("".join(log.read_text().splitlines(keepends=True)[:-1]))
+    code, out, _ = cli("trace", cut)
+    assert code == 0 and out.splitlines()[-2:] == [
+        "closed (senior): optimal, objective 550, pivots 0 + 0, bound flips 0",
+        "closed: no closing record (the run was killed or is still going); tier 'benefit' has none"]
