@@ -666,3 +666,23 @@ def test_the_screens_of_a_model_of_every_shape(cli, write, tmp_path):
         code, out, err = cli(*args)
         assert (code, err) == (0, "")
         assert lines(out) == SHAPES_SCREENS[name].format(**fill).splitlines(), name
+
+
+@pytest.mark.parametrize("text, objective, rule", [
+    # (the objective and the one row as the screens write them; terms in the
+    # order the variables are declared)
+    ("minimize: x + 2\nvariables: {x: {}, x2: {}}\nconstraints:\n  r: x <= 1\n", "minimize x + 2", "x <= 1"),
+    ("minimize: 5\nvariables: {x: {}, x2: {}}\nconstraints:\n  r: -x >= -1\n", "minimize 5", "-x >= -1"),
+    ("maximize: -3\nvariables: {x: {}, x2: {}}\nconstraints:\n  r: x2 - 2 x == 0\n", "maximize -3",
+     "-2 x + x2 == 0"),
+    ("maximize: 0\nvariables: {x: {}, x2: {}}\nconstraints:\n  r: -1/2 <= 3/4 x - x2 <= 0\n", "maximize 0",
+     "-1/2 <= 3/4 x - x2 <= 0"),
+    ("minimize: -x - 1/3\nvariables: {x: {upper: 1}, x2: {}}\nconstraints:\n  r: x2 - x >= 1\n",
+     "minimize -x - 1/3", "-x + x2 >= 1"),
+])
+def test_objectives_and_rules_as_the_screens_write_them(text, objective, rule):
+    from exactlp.io import model_from_text
+    from exactlp.render import objective_text, row_formula
+
+    m = model_from_text(text)
+    assert (objective_text(m), row_formula(m.constraints[0])) == (objective, rule)
