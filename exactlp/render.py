@@ -48,10 +48,6 @@ def _more(console: Console, left: int, what: str, where: str) -> None:
                       soft_wrap=True)
 
 
-def n(v: Fraction | None, inf: str = "") -> str:
-    return inf if v is None else format_number(v)
-
-
 def lo(v: Fraction | None) -> str:
     return "-inf" if v is None else format_number(v)
 

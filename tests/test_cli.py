@@ -661,6 +661,10 @@ def test_the_screens_of_a_model_of_every_shape(cli, write, tmp_path):
     path, log = write("shapes.yaml", SHAPES), tmp_path / "shapes.log.jsonl"
     m = exactlp.load(path)
     fill = dict(path=path, log=log, fp=m.fingerprint, fp19=m.fingerprint[:19], version=exactlp.__version__)
+    code, out, _ = cli("check", path)  # (x2 free: w and v; z fixed; e1 an equality, r1 ranged)
+    assert code == 0 and lines(out)[1:5] == ["name         (none)", "objective    minimize, 4 terms",
+                                            "variables    5 (2 free, 1 fixed)",
+                                            "constraints  3 (1 equality, 1 ranged)"]
     for name, args in (("show", ("show", path)), ("solve", ("solve", path, "--tableau", "-l", log)),
                        ("trace", ("trace", log)), ("pivot", ("trace", log, "--pivot", "1"))):
         code, out, err = cli(*args)

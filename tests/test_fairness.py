@@ -196,6 +196,11 @@ def test_a_first_tier_without_an_optimum_ends_the_json_stages(cli, write):
     # Farkas: floor's senior_a >= 400 less senior_a <= 300 gives 0 >= 100
     assert doc["farkas"] == {"bound_variables": ["senior_a"], "bounds": {"senior_a": "-1"}, "constraints": ["floor"],
                              "multipliers": {"floor": "1"}, "rhs": "100"}
+    code, out, _ = cli("solve", path)  # the screen's tier table: no optimum to show
+    assert code == 0 and [line.rstrip() for line in out.splitlines()[2:5]] == [
+        "  tier     goal                           outcome      optimum",
+        " " + "─" * 62,
+        "  senior   maximize senior_a + senior_b   infeasible"]
 
 
 def test_show_expanded(cli):
