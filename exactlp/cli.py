@@ -485,10 +485,10 @@ def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, ti
             raise RuntimeError(f"the certificate failed verification: {check.failure.detail}")
         if certificate is not None:
             write_atomic(certificate, dump_certificate(cert, cert_format), protect=(model_path,))
+    # (a tiered model's values are its last tier's, on the screen and in --json:
+    # that tier's own program, the earlier optima held by its '.held' rows)
+    last = cert["stages"][-1]["certificate"] if staged_box and cert is not None else cert
     if as_json:
-        # (a tiered model's values are its last tier's, as the screen shows them:
-        # that tier's own program, the earlier optima held by its '.held' rows)
-        last = cert["stages"][-1]["certificate"] if staged_box and cert is not None else cert
         doc = json.loads(_result_json(shown, result, last, certificate, log, digits))
         doc["model"] = {"name": m.name, "fingerprint": m.fingerprint}
         if staged_box:
@@ -504,7 +504,7 @@ def _solve_command(m, model_path, certificate, log, pricing, iteration_limit, ti
         if staged_box:
             stages_report(_console(), m, staged_box[-1])
         solve_report(_console(), shown, result, digits=digits, certificate=certificate if cert else None,
-                     verified=verified, log=log, cert=cert, rows=rows,
+                     verified=verified, log=log, cert=last, rows=rows,
                      warm_note=_warm_note(m, warm_start, result), named=m)
     if not result.status.is_proven:
         raise typer.Exit(EXIT_LIMIT)

@@ -201,6 +201,9 @@ def test_a_first_tier_without_an_optimum_ends_the_json_stages(cli, write):
         "  tier     goal                           outcome      optimum",
         " " + "─" * 62,
         "  senior   maximize senior_a + senior_b   infeasible"]
+    # (and the tier's own Farkas proof below it: this screen once ended in an
+    # internal error, reading the proof's right-hand side from the tiers' certificate)
+    assert "Adding these rules with these weights gives 0 >= 100, which no allocation can satisfy." in out
 
 
 def test_show_expanded(cli):
