@@ -690,3 +690,15 @@ def test_objectives_and_rules_as_the_screens_write_them(text, objective, rule):
 
     m = model_from_text(text)
     assert (objective_text(m), row_formula(m.constraints[0])) == (objective, rule)
+
+
+def test_the_sensitivity_screen_says_which_way_each_dual_moves_the_objective(cli):
+    # emissions: zone_cap's dual -44/1000 = -11/250 (one more kt of cap saves plant
+    # b's abatement, see test_cases), min_share_d's 1/125 (plant d's 0.052 over b's 0.044)
+    code, out, _ = cli("sensitivity", CASES / "emissions.yaml")
+    said = [line for line in lines(out) if line.startswith("Raising the ")]
+    assert code == 0 and said == [
+        "Raising the zone_cap limit by 1 lowers the objective by 11/250, valid while the limit stays within "
+        "[-1113/5, -140].",
+        "Raising the min_share_d limit by 1 raises the objective by 1/125, valid while the limit stays within "
+        "[0, 213/5]."]
