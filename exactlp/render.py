@@ -197,7 +197,8 @@ def solve_report(console: Console, model: Model, result, *, digits: int, certifi
         head.append(("objective", format_number(result.objective)))
         head.append(("", f"≈ {format_decimal(result.objective, digits)}  (decimal rendering to {digits} digits)"))
     elif st is Status.INFEASIBLE:
-        head.append(("outcome", "infeasible: proven by a Farkas combination of the constraints"))
+        head.append(("outcome", "infeasible: proven by a Farkas combination of the constraints"
+                     if result.crossed is None else "infeasible: proven by a pair of sides that cross"))
     elif st is Status.UNBOUNDED:
         head.append(("outcome", "unbounded: proven by a feasible point and an improving ray"))
     else:

@@ -683,6 +683,10 @@ def test_the_screens_of_a_model_of_every_shape(cli, write, tmp_path):
      "-1/2 <= 3/4 x - x2 <= 0"),
     ("minimize: -x - 1/3\nvariables: {x: {upper: 1}, x2: {}}\nconstraints:\n  r: x2 - x >= 1\n",
      "minimize -x - 1/3", "-x + x2 >= 1"),
+    # (positive fractions below 1 after the first term, and a constant alone)
+    ("minimize: x + 1/3\nvariables: {x: {}, x2: {}}\nconstraints:\n  r: x + 1/2 x2 <= 1\n",
+     "minimize x + 1/3", "x + 1/2 x2 <= 1"),
+    ("maximize: 2/3\nvariables: {x: {}, x2: {}}\nconstraints:\n  r: x >= 0\n", "maximize 2/3", "x >= 0"),
 ])
 def test_objectives_and_rules_as_the_screens_write_them(text, objective, rule):
     from exactlp.io import model_from_text
@@ -702,3 +706,24 @@ def test_the_sensitivity_screen_says_which_way_each_dual_moves_the_objective(cli
         "[-1113/5, -140].",
         "Raising the min_share_d limit by 1 raises the objective by 1/125, valid while the limit stays within "
         "[0, 213/5]."]
+
+
+def test_the_solve_screens_of_the_other_outcomes_in_full(cli, write):
+    # a crossed pair of bounds names itself as the proof; an unbounded model shows
+    # its feasible point and the ray, 0 where the ray does not move; a model with
+    # abs() shows each function's value at the optimum (shares_historic's, as the
+    # verified solve gives them; their sum is the objective, 90)
+    code, out, _ = cli("solve", write("crossed.yaml", "maximize: x\nvariables: {x: {lower: 3, upper: 2}}\n"))
+    assert code == 0 and lines(out)[1] == "outcome  infeasible: proven by a pair of sides that cross"
+    assert "The variable 'x' has a lower bound above its upper bound." in lines(out)
+    code, out, _ = cli("solve", UNBOUNDED)
+    assert code == 0 and [x.split() for x in lines(out) if x.startswith(("  seg", "  swap "))] == [
+        ["seg1", "[kcm/d]", "120", "0", "120", "0"], ["seg2", "[kcm/d]", "60", "0", "90", "0"],
+        ["swap", "[kcm/d]", "0", "0", "inf", "1"]]
+    code, out, _ = cli("solve", CASES / "shares_historic.yaml")
+    table = [x.split() for x in lines(out)]
+    assert code == 0 and "In the model's own terms (each function's exact value at the optimum):" in lines(out)
+    assert [r for r in table if r[:1] == ["objective"] and r[1].startswith("abs(")] == [
+        ["objective", "abs(p1", "-", "120)", "45"], ["objective", "abs(p2", "-", "260)", "30"],
+        ["objective", "abs(p3", "-", "180)", "0"], ["objective", "abs(p4", "-", "200)", "15"],
+        ["objective", "abs(p5", "-", "140)", "0"]]
