@@ -727,3 +727,14 @@ def test_the_solve_screens_of_the_other_outcomes_in_full(cli, write):
         ["objective", "abs(p1", "-", "120)", "45"], ["objective", "abs(p2", "-", "260)", "30"],
         ["objective", "abs(p3", "-", "180)", "0"], ["objective", "abs(p4", "-", "200)", "15"],
         ["objective", "abs(p5", "-", "140)", "0"]]
+
+
+def test_the_sensitivity_screen_of_the_model_of_every_shape(cli, write):
+    # each objective coefficient's range: v, free and without cost, must keep a
+    # cost of 0; the fixed z may take any cost; y's may fall to 0 before y leaves
+    # its lower bound; x's and w's cannot move at all, since e1 ties them (w = x - 1)
+    # and a change to either gives the free w a nonzero reduced cost
+    code, out, _ = cli("sensitivity", write("shapes.yaml", SHAPES))
+    assert code == 0 and [line.split() for line in lines(out)[5:10]] == [
+        ["x", "-1", "[-1,", "-1]"], ["y", "2", "[0,", "inf]"], ["z", "-1/2", "[-inf,", "inf]"],
+        ["w", "1", "[1,", "1]"], ["v", "0", "[0,", "0]"]]
