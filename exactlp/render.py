@@ -136,7 +136,8 @@ def show_model(console: Console, model: Model, expanded: bool = False, rows: int
         console.print(Text(f"Objective: {objective_text(model)}"), soft_wrap=True)
     if model.auxiliary:
         console.print(Text("(the linear program actually solved: exactlp show --expanded)" if not expanded else
-                           f"(expanded: {len(model.auxiliary)} auxiliary variables stand for abs(), max() and min())"))
+                           f"(expanded: {_count(len(model.auxiliary), 'auxiliary variable stands', 'auxiliary variables stand')}"
+                           " for abs(), max() and min())"))
     t = Table(title="Variables", box=BOX, title_justify="left")
     for h in ("variable", "lower", "upper", "unit", "note"):
         t.add_column(h, justify="right" if h in ("lower", "upper") else "left")

@@ -206,6 +206,23 @@ def test_a_first_tier_without_an_optimum_ends_the_json_stages(cli, write):
     assert "Adding these rules with these weights gives 0 >= 100, which no allocation can satisfy." in out
 
 
+def test_show_keeps_a_written_rule_and_expanded_shows_its_rows(cli, write):
+    # 'dev: abs(x - 3) <= 2' is shown as written; --expanded shows the program
+    # solved: dev.abs1 >= x - 3 and >= 3 - x, and dev.abs1 <= 2
+    path = write("dev.yaml", "minimize: x\nvariables: {x: {upper: 9}}\nconstraints:\n  dev: abs(x - 3) <= 2\n")
+    code, out, _ = cli("show", path)
+    table = [line.rstrip() for line in out.splitlines()]
+    assert code == 0 and table[2] == "(the linear program actually solved: exactlp show --expanded)"
+    assert "  dev          abs(x - 3) <= 2" in table and not any("dev.abs1" in line for line in table)
+    code, out, _ = cli("show", path, "--expanded")
+    table = [line.rstrip() for line in out.splitlines()]
+    assert code == 0 and table[2] == "(expanded: 1 auxiliary variable stands for abs(), max() and min())"
+    assert [line.split() for line in table if line.startswith("  dev")] == [
+        ["dev.abs1", "0", "inf", "auxiliary:", "abs(x", "-", "3)", "in", "dev"],
+        ["dev", "dev.abs1", "<=", "2"], ["dev.abs1.pos", "dev.abs1", "-", "x", ">=", "-3"],
+        ["dev.abs1.neg", "dev.abs1", "+", "x", ">=", "3"]]
+
+
 def test_show_expanded(cli):
     code, out, _ = cli("show", CASES / "shares_historic.yaml")
     assert code == 0 and "objective.abs1" not in out
