@@ -421,7 +421,6 @@ class StatusLine:
         self.started = time.monotonic()
         self.last = 0.0
         self.status = None
-        self.count = 0
 
     def __enter__(self):
         self.status = self.console.status("solving…")
@@ -436,13 +435,12 @@ class StatusLine:
 
         if not isinstance(event, Pivot):
             return
-        self.count += 1
         now = time.monotonic()
         if now - self.last < 0.2:
             return
         self.last = now
         self.status.update(
-            f"phase {event.phase} · {event.iteration} steps · objective ≈ "
+            f"phase {event.phase} · {_count(event.iteration, 'step', 'steps')} · objective ≈ "
             f"{format_decimal(event.objective, 8)} · {now - self.started:.1f} s"
         )
 
