@@ -7,8 +7,6 @@ YAML (or JSON); exact numbers are strings.
 
 from __future__ import annotations
 
-from fractions import Fraction
-
 from . import __version__
 from .certificate import NOTICE, build_certificate
 from .model import Model
@@ -90,7 +88,6 @@ def ranges_report(model: Model, rg, limits=None) -> dict:
     doc["unique"] = rg.unique
     doc["proof"] = rg.proof
     out = {}
-    x = rg.result.primal
     for name, v in rg.ranges.items():
         entry = {"min": None if v.minimum is None else format_number(v.minimum),
                  "max": None if v.maximum is None else format_number(v.maximum), "method": v.method}
@@ -139,74 +136,6 @@ def _probe_proof(result, optimum, held: str) -> dict:
 # ----------------------------------------------------------------------
 # sensitivity
 # ----------------------------------------------------------------------
-
-def with_coefficient(model: Model, name: str, value) -> Model:
-    """The model with variable ``name``'s objective coefficient set to ``value``."""
-    from dataclasses import replace
-
-    order = {v.name: i for i, v in enumerate(model.variables)}
-    terms = dict(model.objective)
-    terms[name] = value
-    return replace(model, objective=tuple(sorted(((n, c) for n, c in terms.items() if c), key=lambda t: order[t[0]])))
-
-
-def only_variable(model: Model, name: str, direction: int) -> Model:
-    """The model whose objective is ``direction * x_name`` alone (same sense)."""
-    from dataclasses import replace
-
-    return replace(model, objective=((name, Fraction(direction)),), objective_constant=Fraction(0))
-
-
-def with_side(model: Model, name: str, which: str, value) -> Model:
-    """The model with constraint ``name``'s ``which`` side (lower, upper, equals) set to ``value``."""
-    from dataclasses import replace
-
-    from .model import Constraint
-
-    cons = []
-    for c in model.constraints:
-        if c.name == name:
-            lo = value if which in ("lower", "equals") else c.lower
-            hi = value if which in ("upper", "equals") else c.upper
-            c = Constraint(c.name, c.terms, lo, hi, c.note)
-        cons.append(c)
-    return replace(model, constraints=tuple(cons))
-
-
-def optimal_certificate(model: Model, primal: dict, duals: dict) -> dict:
-    """A certificate of optimality of ``primal`` for ``model`` with multipliers ``duals``.
-
-    Built without solving: activities, reduced costs and the dual objective are
-    computed from the model; the verifier then decides whether it proves anything.
-    (The tests build one for each end of each sensitivity range with it, and
-    the verifier's verdicts on them are what the report check must agree with.)
-    """
-    from .certificate import CERTIFICATE_FORMAT
-
-    s = 1 if model.sense.value == "minimize" else -1
-    y = {c.name: Fraction(duals.get(c.name, 0)) for c in model.constraints}
-    cost = dict(model.objective)
-    d = {v.name: Fraction(cost.get(v.name, 0)) for v in model.variables}
-    act = {}
-    for c in model.constraints:
-        act[c.name] = sum((a * primal[n] for n, a in c.terms), Fraction(0))
-        for n, a in c.terms:
-            d[n] -= y[c.name] * a
-    dual = model.objective_constant
-    for val, lo, hi in ([(y[c.name], c.lower, c.upper) for c in model.constraints]
-                        + [(d[v.name], v.lower, v.upper) for v in model.variables]):
-        if val:
-            side = lo if (val > 0) == (s > 0) else hi
-            dual += val * (side if side is not None else 0)
-    return {
-        "format": CERTIFICATE_FORMAT, "tool": f"exactlp {__version__}",
-        "model": {"name": model.name, "fingerprint": model.fingerprint},
-        "sense": model.sense.value, "status": "optimal", "notice": NOTICE,
-        "objective": format_number(model.objective_value(primal)),
-        "primal": _point(primal), "activities": _point(act),
-        "duals": _point(y), "reduced_costs": _point(d), "dual_objective": format_number(dual),
-    }
-
 
 def _digits(values) -> int:
     """About how many characters these exact numbers take written out, from

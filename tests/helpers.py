@@ -3,9 +3,14 @@
 from __future__ import annotations
 
 import contextlib
+from dataclasses import replace
 from fractions import Fraction
 
-from exactlp.model import Model, Sense
+import exactlp
+from exactlp.certificate import CERTIFICATE_FORMAT, NOTICE
+from exactlp.model import Constraint, Model, Sense
+from exactlp.numbers import format_number
+from exactlp.reports import _point
 
 
 def to_linprog(model: Model):
@@ -313,3 +318,65 @@ def refused(read, *args, **kw) -> str:
     with pytest.raises(InputError) as exc:
         read(*args, **kw)
     return str(exc.value)
+
+
+# -- the definitions behind the reports' claims: each claim as a model of its own
+#    and a whole certificate for it, which the verifier decides (the report check
+#    must agree with those verdicts)
+
+def with_coefficient(model: Model, name: str, value) -> Model:
+    """The model with variable ``name``'s objective coefficient set to ``value``."""
+    order = {v.name: i for i, v in enumerate(model.variables)}
+    terms = dict(model.objective)
+    terms[name] = value
+    return replace(model, objective=tuple(sorted(((n, c) for n, c in terms.items() if c), key=lambda t: order[t[0]])))
+
+
+def only_variable(model: Model, name: str, direction: int) -> Model:
+    """The model whose objective is ``direction * x_name`` alone (same sense)."""
+    return replace(model, objective=((name, Fraction(direction)),), objective_constant=Fraction(0))
+
+
+def with_side(model: Model, name: str, which: str, value) -> Model:
+    """The model with constraint ``name``'s ``which`` side (lower, upper, equals) set to ``value``."""
+    cons = []
+    for c in model.constraints:
+        if c.name == name:
+            lo = value if which in ("lower", "equals") else c.lower
+            hi = value if which in ("upper", "equals") else c.upper
+            c = Constraint(c.name, c.terms, lo, hi, c.note)
+        cons.append(c)
+    return replace(model, constraints=tuple(cons))
+
+
+def optimal_certificate(model: Model, primal: dict, duals: dict) -> dict:
+    """A certificate of optimality of ``primal`` for ``model`` with multipliers ``duals``.
+
+    Built without solving: activities, reduced costs and the dual objective are
+    computed from the model; the verifier then decides whether it proves anything.
+    (Built for each end of each sensitivity and ranges claim: the verifier's
+    verdicts on them are what the report check must agree with.)
+    """
+    s = 1 if model.sense.value == "minimize" else -1
+    y = {c.name: Fraction(duals.get(c.name, 0)) for c in model.constraints}
+    cost = dict(model.objective)
+    d = {v.name: Fraction(cost.get(v.name, 0)) for v in model.variables}
+    act = {}
+    for c in model.constraints:
+        act[c.name] = sum((a * primal[n] for n, a in c.terms), Fraction(0))
+        for n, a in c.terms:
+            d[n] -= y[c.name] * a
+    dual = model.objective_constant
+    for val, lo, hi in ([(y[c.name], c.lower, c.upper) for c in model.constraints]
+                        + [(d[v.name], v.lower, v.upper) for v in model.variables]):
+        if val:
+            side = lo if (val > 0) == (s > 0) else hi
+            dual += val * (side if side is not None else 0)
+    return {
+        "format": CERTIFICATE_FORMAT, "tool": f"exactlp {exactlp.__version__}",
+        "model": {"name": model.name, "fingerprint": model.fingerprint},
+        "sense": model.sense.value, "status": "optimal", "notice": NOTICE,
+        "objective": format_number(model.objective_value(primal)),
+        "primal": _point(primal), "activities": _point(act),
+        "duals": _point(y), "reduced_costs": _point(d), "dual_objective": format_number(dual),
+    }

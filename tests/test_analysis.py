@@ -21,7 +21,7 @@ from exactlp.model import Constraint
 from exactlp.numbers import parse_number
 
 from .conftest import CASES, NETLIB, needs_netlib
-from .helpers import calls_recorded, scipy_solve, sympy_solve
+from .helpers import calls_recorded, scipy_solve, sympy_solve, with_coefficient
 
 _REPORT_LIMITS = exactlp.limits.Limits(max_number_chars=200_000)
 from .models import KNOWN
@@ -44,14 +44,6 @@ def test_three_resource_ranges_by_hand():
     assert (rr["r1"].interval, rr["r1"].dual) == (Interval(F(4), F(16, 3)), F(1))
     assert (rr["r3"].interval, rr["r3"].dual) == (Interval(F(15, 2), F(10)), F(1))
     assert (rr["r2"].interval, rr["r2"].dual) == (Interval(F(10), None), F(0))
-
-
-def _with_coefficient(m, name, value):
-    obj = tuple((n, value if n == name else c) for n, c in m.objective)
-    if name not in dict(m.objective):
-        obj = obj + ((name, value),)
-    order = {v.name: i for i, v in enumerate(m.variables)}
-    return replace(m, objective=tuple(sorted(obj, key=lambda t: order[t[0]])))
 
 
 def _with_limit(m, name, which, value):
@@ -87,9 +79,9 @@ def test_objective_ranges_against_scipy(path):
             if end is None:
                 continue
             # just inside: scipy finds the same vertex
-            assert _vertex(_with_coefficient(m, name, end + inward * eps)) == base, (name, end)
+            assert _vertex(with_coefficient(m, name, end + inward * eps)) == base, (name, end)
             # just outside: the old optimum is strictly beaten (SymPy's exact optimum)
-            outside = _with_coefficient(m, name, end - inward * eps)
+            outside = with_coefficient(m, name, end - inward * eps)
             assert better(sympy_solve(outside)[1], outside.objective_value(x_star)), (name, end)
 
 
@@ -947,12 +939,12 @@ def test_sensitivity_report_tampering_is_caught():
 
 def _proven_the_long_way(model, rep) -> bool:
     """The sensitivity report's claims proven by definition: for each end of each
-    range, the variant model (reports.with_coefficient, only_variable, with_side)
-    and a whole certificate for it (reports.optimal_certificate, from the claimed
+    range, the variant model (helpers.with_coefficient, only_variable, with_side)
+    and a whole certificate for it (helpers.optimal_certificate, from the claimed
     end and direction), checked by the verifier.  The report check proves the same
     from the direction's entries alone; the two verdicts must agree."""
     from exactlp.numbers import parse_number as P
-    from exactlp.reports import only_variable, optimal_certificate, with_coefficient, with_side
+    from .helpers import only_variable, optimal_certificate, with_side
 
     def num(text):
         return None if text is None else P(text)
@@ -1643,12 +1635,12 @@ def _ranges_proven_the_long_way(model, rep) -> bool:
     """A ranges report's solved ends proven by definition: for each, the probe
     (the model with its objective held at the optimum by an equality row, one
     variable minimised or maximised) and a whole certificate for it, rebuilt
-    from the end's moved entries and duals (reports.optimal_certificate) or from
+    from the end's moved entries and duals (helpers.optimal_certificate) or from
     its ray and the optimum, checked by the verifier."""
     from exactlp.analysis import fixed_objective_model
     from exactlp.model import Sense
     from exactlp.numbers import parse_number as P
-    from exactlp.reports import optimal_certificate
+    from .helpers import optimal_certificate
 
     base = rep["certificate"]
     if not exactlp.verify(model, base).valid:
@@ -1809,6 +1801,32 @@ def test_ranges_solved_on_the_optimal_face_are_proven_for_the_held_row(model):
             if want is not None:
                 assert type(want) is F and got.duals[probe.constraints[-1].name] is not None
 
+
+
+@pytest.mark.parametrize("text", [ALTERNATIVE, UNBOUNDED_SET, "shares_historic"])
+def test_ranges_solved_with_the_held_row_when_the_face_cannot_be_used(text, monkeypatch):
+    # when the optimum's multipliers give the optimal face no pins of one sign
+    # (_face_pins says None), each end is solved on the model with the held row
+    # instead: the same ranges, each end's proof its own nonzero duals (no
+    # face_duals), and the report check and the whole certificates agree on it
+    from exactlp import analysis
+    from exactlp.report_check import check_report
+    from exactlp.reports import ranges_report
+
+    m = model_from_text(text) if "\n" in text else exactlp.load(CASES / f"{text}.yaml")
+    lifted = analysis.ranges(m)
+    monkeypatch.setattr(analysis, "_face_pins", lambda model, r: None)
+    with calls_recorded(analysis, "_lift_face_end") as tried:
+        held = analysis.ranges(m)
+    assert tried == []
+    assert held.ranges == lifted.ranges and held.unique == lifted.unique and held.solves == lifted.solves
+    rep = ranges_report(m, held)
+    proofs = [p for e in rep["ranges"].values() for p in (e.get("proofs") or {}).values()]
+    assert proofs and not any("face_duals" in p or "held_dual" in p for p in proofs)
+    assert all(("ray" in p) != ("duals" in p and "moved" in p) for p in proofs)
+    assert check_report(m, rep).valid and _ranges_proven_the_long_way(m, rep)
+    for bad in _ranges_tampered(rep):
+        assert check_report(m, bad).valid == _ranges_proven_the_long_way(m, bad)
 
 
 _SMALL = st.sampled_from([F(0), F(0), F(0), F(1), F(-1), F(2), F(-1, 3), F(5, 2)])
