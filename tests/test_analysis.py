@@ -855,6 +855,29 @@ def test_sensitivity_by_numpy_sums_is_the_sensitivity_by_rows(monkeypatch, model
     assert v.valid, v.failure
 
 
+ZERO_BESIDE = "maximize: x + y - 2 w\nvariables: {x: {upper: 3}, y: {upper: 3}, w: {upper: 1}}\n" \
+              "constraints:\n  cap: x + y - w <= 4\n"
+
+
+@pytest.mark.parametrize("how", ["rows", "numpy", "limbs"])
+def test_a_zero_reduced_cost_beside_a_nonzero_one_on_the_same_side(how, monkeypatch):
+    # x is basic at 1, y rests on its upper bound 3 with reduced cost 0, w on its
+    # lower bound 0 with reduced cost -1, the row at its limit 4: in x's tableau
+    # row y and w limit the same side, y at 0 and w at 1, so c_x may fall by 1
+    # and not rise at all: [0, 1] (a zero must not be skipped for the nonzero
+    # one; the numpy sums pick candidates by bit lengths, a zero marked below all)
+    from exactlp.analysis import Interval
+    from exactlp.report_check import check_report
+    from exactlp.reports import sensitivity_report
+
+    model = model_from_text(ZERO_BESIDE)
+    s = _sensitivity_summed(model, how, monkeypatch)
+    assert s.result.primal == {"x": 1, "y": 3, "w": 0} and s.result.reduced_costs == {"x": 0, "y": 0, "w": -1}
+    assert s.objective_ranges == {"x": Interval(F(0), F(1)), "y": Interval(F(1), None), "w": Interval(None, F(-1))}
+    v = check_report(model, sensitivity_report(model, s))
+    assert v.valid, v.failure
+
+
 FREE_AT_ZERO = """
 minimize: x2 + 2 x3
 variables:
