@@ -293,7 +293,9 @@ def sensitivity(model: Model, progress=None, **solve_options) -> Sensitivity:
     upper = frozenset(r.at_upper_columns)
     sx = Simplex(form, hint=BasisHint(tuple(basic_cols), upper, "optimal basis", "exact"), allow_repair=False)
     if sx.warm is None or not sx.warm.accepted or len(basic_cols) != m:
-        raise InputError("could not rebuild the optimal basis", field="model")
+        # (the basis was just proven optimal: a fault of ours, not of the model)
+        raise RuntimeError(f"the optimal basis just proven ({len(basic_cols)} columns for {m} rows) "
+                           "could not be rebuilt")
     y = sx.basis.btran({p: form.cost[c] for p, c in enumerate(sx.head) if form.cost[c]})
     d = []
     for j in range(form.ncols):

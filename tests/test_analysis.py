@@ -855,6 +855,52 @@ def test_sensitivity_by_numpy_sums_is_the_sensitivity_by_rows(monkeypatch, model
     assert v.valid, v.failure
 
 
+@pytest.mark.parametrize("basis, text", [
+    (lambda cols, free: cols[:-1], "the optimal basis just proven (4 columns for 5 rows) could not be rebuilt"),
+    (lambda cols, free: cols[:-1] + (free,), "the optimal basis just proven (5 columns for 5 rows) could not be rebuilt"),
+])
+def test_sensitivity_refuses_a_basis_it_cannot_rebuild_as_its_own_fault(basis, text, monkeypatch):
+    # the solve's optimal basis is refactored exactly, with no repair: one that
+    # does not rebuild (a column short, or one swapped for a nonbasic column that
+    # leaves it infeasible) is the program's fault, not the model's: a
+    # RuntimeError, which the command line reports as an internal error (exit 4)
+    import dataclasses
+
+    from exactlp import analysis, solver
+
+    model = exactlp.load(CASES / "emissions.yaml")
+    real = solver.solve
+
+    def solved(m, **options):
+        r = real(m, **options)
+        free = min(set(range(len(m.variables) + len(m.constraints))) - set(r.basis_columns))
+        return dataclasses.replace(r, basis_columns=basis(r.basis_columns, free))
+    monkeypatch.setattr(solver, "solve", solved)
+    with pytest.raises(RuntimeError) as got:
+        analysis.sensitivity(model)
+    assert str(got.value) == text
+
+
+def test_the_analyses_results_are_frozen():
+    # each analysis returns values that cannot be changed after the fact, as the
+    # solver's results and the verifier's verdicts cannot: every field read-only
+    import dataclasses
+
+    from exactlp.analysis import conflict, ranges, sensitivity
+
+    s = sensitivity(exactlp.load(CASES / "emissions.yaml"))
+    rg = ranges(model_from_text(ALTERNATIVE))
+    c = conflict(exactlp.load(CASES / "grants_overcommitted.yaml"))
+    made = [s, next(iter(s.objective_ranges.values())), next(iter(s.rhs_ranges.values())),
+            rg, next(iter(rg.ranges.values())), c, s.result]
+    assert [type(v).__name__ for v in made] == ["Sensitivity", "Interval", "RhsRange", "Ranges", "VarRange",
+                                                 "Conflict", "SolveResult"]
+    for value in made:
+        for f in dataclasses.fields(value):
+            with pytest.raises(dataclasses.FrozenInstanceError):
+                setattr(value, f.name, None)
+
+
 ZERO_BESIDE = "maximize: x + y - 2 w\nvariables: {x: {upper: 3}, y: {upper: 3}, w: {upper: 1}}\n" \
               "constraints:\n  cap: x + y - w <= 4\n"
 
