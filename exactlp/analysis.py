@@ -123,14 +123,11 @@ def conflict(model: Model, progress=None, **solve_options) -> Conflict:
             solves += 1
             if r.status is Status.INFEASIBLE:
                 # still infeasible without it: shrink to what the new proof uses
-                if r.crossed is not None:
-                    k2, n2 = r.crossed
-                    rows = {n2} if k2 == "constraint" else set()
-                    bounded = {n2} if k2 == "variable" else set()
-                else:
-                    rows = set(r.farkas_rows)
-                    bounded = set(r.farkas_bounds)
-                # members already found necessary stay necessary for any subset
+                # (a Farkas proof: no pair of sides crosses in a subset of a model
+                # whose own sides do not, as the first solve found); members
+                # already found necessary stay necessary for any subset
+                rows = set(r.farkas_rows)
+                bounded = set(r.farkas_bounds)
             elif not r.status.is_proven:
                 raise InputError(f"a step of the conflict filter stopped ({r.status.value}); nothing is proven",
                                  field="conflict")

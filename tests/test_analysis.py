@@ -137,6 +137,50 @@ def test_conflict_on_the_overcommitted_case_is_minimal():
     assert len({id(p._index) for p in c.witnesses.values()}) == 1
 
 
+def test_conflict_filter_shrinks_to_each_new_proof_from_a_start_that_is_not_minimal(monkeypatch):
+    # The solver's first Farkas proof is usually minimal already, so the filter's
+    # shrinking step (a member dropped and the rest still infeasible: keep only
+    # what the new proof uses) needs a larger start: here the first proof is made
+    # to name every constraint and every bounded variable.  The filter must reach
+    # the same minimal set, say each step, and the trials that stay infeasible
+    # must shrink the set at once (metro_ceiling: without it the rest is still
+    # infeasible, and the new proof leaves out the upper bounds too).
+    import dataclasses
+
+    from exactlp import solver
+    from exactlp.report_check import check_report
+    from exactlp.reports import conflict_report
+
+    m = exactlp.load(CASES / "grants_overcommitted.yaml")
+    real = solver.solve
+    calls = []
+
+    def solved(model, **options):
+        r = real(model, **options)
+        calls.append(r.status.value)
+        if len(calls) == 1:
+            return dataclasses.replace(r, farkas_rows=tuple(c.name for c in model.constraints),
+                                       farkas_bounds=tuple(v.name for v in model.variables))
+        return r
+    monkeypatch.setattr(solver, "solve", solved)
+    said = []
+    c = conflict(m, progress=said.append)
+    assert (c.constraints, c.bounds) == (("fund", "uplands_floor", "metro_floor"), ("north", "coast"))
+    assert said == [
+        "conflict: 8 rules left; trying without constraint 'fund'",
+        "conflict: 8 rules left; trying without constraint 'uplands_floor'",
+        "conflict: 8 rules left; trying without constraint 'metro_floor'",
+        "conflict: 8 rules left; trying without constraint 'metro_ceiling'",
+        "conflict: 5 rules left; trying without bound 'north'",
+        "conflict: 5 rules left; trying without bound 'coast'",
+    ]
+    assert calls == ["infeasible", "optimal", "optimal", "optimal", "infeasible", "optimal", "optimal", "infeasible"]
+    assert c.solves == len(calls)
+    monkeypatch.setattr(solver, "solve", real)
+    v = check_report(m, conflict_report(m, c))
+    assert v.valid, v.failure
+
+
 @pytest.mark.parametrize("text, said, table", [
     ("minimize: x\nvariables: {x: {lower: 5, upper: 3}}\n",
      "The bounds of the variable 'x' cannot both hold: the lower one is above the upper one; dropping it makes "
