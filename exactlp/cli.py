@@ -531,7 +531,7 @@ def verify(
         m = _load_model_not_certificate(model)
         cert = read_certificate(certificate)
         if "format" not in cert and "report" not in cert and "variables" in cert:
-            raise InputError(f"this is a model file, not a certificate: exactlp verify MODEL CERTIFICATE",
+            raise InputError("this is a model file, not a certificate: exactlp verify MODEL CERTIFICATE",
                              file=certificate)
         if "report" in cert:
             from .report_check import check_report
@@ -659,9 +659,9 @@ def sensitivity(
             }
             typer.echo(_dumps(doc))
         else:
-            from .render import sensitivity_report
+            from .render import sensitivity_report as show_sensitivity
 
-            sensitivity_report(_console(), m, s, rows, checked)
+            show_sensitivity(_console(), m, s, rows, checked)
 
 
 @app.command("ranges")
@@ -703,9 +703,9 @@ def ranges_(
             }
             typer.echo(_dumps(doc))
         else:
-            from .render import ranges_report
+            from .render import ranges_report as show_ranges
 
-            ranges_report(_console(), m, rg, rows, checked)
+            show_ranges(_console(), m, rg, rows, checked)
 
 
 @app.command()
@@ -749,9 +749,9 @@ def conflict(
                 doc["crossed"] = {"kind": kind, "name": name}
             typer.echo(_dumps(doc))
         else:
-            from .render import conflict_report
+            from .render import conflict_report as show_conflict
 
-            conflict_report(_console(), m, c, rows, checked)
+            show_conflict(_console(), m, c, rows, checked)
 
 
 def main() -> None:  # console script entry
