@@ -945,28 +945,65 @@ def test_the_analyses_results_are_frozen():
                 setattr(value, f.name, None)
 
 
-ZERO_BESIDE = "maximize: x + y - 2 w\nvariables: {x: {upper: 3}, y: {upper: 3}, w: {upper: 1}}\n" \
-              "constraints:\n  cap: x + y - w <= 4\n"
+def test_sensitivity_says_each_stage_about_a_hundred_times_at_most():
+    # one line per column of the basis inverse, objective coefficient and
+    # constraint limit on a small model; every (n + m) // 100-th on a larger one
+    # (the water network: 252 variables and 54 rows, every 3rd, 18 + 84 + 18 lines)
+    from exactlp.analysis import sensitivity
+
+    said = []
+    sensitivity(exactlp.load(CASES / "emissions.yaml"), progress=said.append)
+    assert said == ([f"sensitivity: column {i} of 5 of the basis inverse" for i in range(1, 6)]
+                    + [f"sensitivity: objective coefficient {j} of 4" for j in range(1, 5)]
+                    + [f"sensitivity: constraint limit {i} of 5" for i in range(1, 6)])
+    said = []
+    sensitivity(exactlp.load(CASES / "generated" / "water_network.yaml"), progress=said.append)
+    assert said == ([f"sensitivity: column {i} of 54 of the basis inverse" for i in range(1, 55, 3)]
+                    + [f"sensitivity: objective coefficient {j} of 252" for j in range(1, 253, 3)]
+                    + [f"sensitivity: constraint limit {i} of 54" for i in range(1, 55, 3)])
+
+
+# Models whose tableau rows put several limits on one side, each with its exact
+# coefficient ranges (found by hand: the least |d_k / alpha_pk| of each side).
+NEAREST_LIMITS = [
+    # x basic at 1, y at its upper bound 3 with reduced cost 0, w at its lower
+    # bound 0 with reduced cost -1 (then -1/1000), the row at its limit 4: in x's
+    # row y and w limit the same side, y at 0, so c_x may fall by 1 and not rise
+    # at all (a zero must not be passed over for the nonzero one, however small)
+    ("maximize: x + y - 2 w\nvariables: {x: {upper: 3}, y: {upper: 3}, w: {upper: 1}}\n"
+     "constraints:\n  cap: x + y - w <= 4\n",
+     {"x": (F(0), F(1)), "y": (F(1), None), "w": (None, F(-1))}),
+    ("maximize: x + y - 1001/1000 w\nvariables: {x: {upper: 3}, y: {upper: 3}, w: {upper: 1}}\n"
+     "constraints:\n  cap: x + y - w <= 4\n",
+     {"x": (F(0), F(1)), "y": (F(1), None), "w": (None, F(-1))}),
+    # x basic at 4, u and v at their lower bounds with reduced costs -1 and -1/100
+    # and tableau entries 1000 and 1: both limit c_x's fall, u the nearer (1/1000
+    # against 1/100, though its reduced cost is the larger)
+    ("maximize: x + 999 u + 99/100 v\nvariables: {x: {upper: 10}, u: {upper: 1}, v: {upper: 1}}\n"
+     "constraints:\n  cap: x + 1000 u + v <= 4\n",
+     {"x": (F(999, 1000), None), "u": (None, F(1000)), "v": (None, F(1))}),
+]
 
 
 @pytest.mark.parametrize("how", ["rows", "numpy", "limbs"])
-def test_a_zero_reduced_cost_beside_a_nonzero_one_on_the_same_side(how, monkeypatch):
-    # x is basic at 1, y rests on its upper bound 3 with reduced cost 0, w on its
-    # lower bound 0 with reduced cost -1, the row at its limit 4: in x's tableau
-    # row y and w limit the same side, y at 0 and w at 1, so c_x may fall by 1
-    # and not rise at all: [0, 1] (a zero must not be skipped for the nonzero
-    # one; the numpy sums pick candidates by bit lengths, a zero marked below all)
+@pytest.mark.parametrize("text, want", NEAREST_LIMITS)
+def test_the_nearest_limit_of_each_side_is_found(text, want, how, monkeypatch):
+    # the same ranges by the rows, numpy's sums and limbs; numpy's sums pick a
+    # side's candidates by bit lengths (a zero marked below all), the others try
+    # every column
     from exactlp.analysis import Interval
     from exactlp.report_check import check_report
     from exactlp.reports import sensitivity_report
 
-    model = model_from_text(ZERO_BESIDE)
-    s = _sensitivity_summed(model, how, monkeypatch)
-    assert s.result.primal == {"x": 1, "y": 3, "w": 0} and s.result.reduced_costs == {"x": 0, "y": 0, "w": -1}
-    assert s.objective_ranges == {"x": Interval(F(0), F(1)), "y": Interval(F(1), None), "w": Interval(None, F(-1))}
+    from exactlp import analysis
+
+    model = model_from_text(text)
+    with calls_recorded(analysis, "_limit_candidates", what=lambda got: got) as picked:
+        s = _sensitivity_summed(model, how, monkeypatch)
+    assert s.objective_ranges == {k: Interval(*v) for k, v in want.items()}
+    assert bool(picked) == (how != "rows")  # (x's row, by numpy's sums)
     v = check_report(model, sensitivity_report(model, s))
     assert v.valid, v.failure
-
 
 FREE_AT_ZERO = """
 minimize: x2 + 2 x3
