@@ -963,6 +963,24 @@ def test_sensitivity_says_each_stage_about_a_hundred_times_at_most():
                     + [f"sensitivity: constraint limit {i} of 54" for i in range(1, 55, 3)])
 
 
+def test_a_slack_rows_range_is_of_its_nearer_side():
+    # x rests on its own lower bound 2, so every row is slack and its dual 0: the
+    # side ranged is the one nearer the activity 2 (the upper one when the two are
+    # as near), free to move until it meets the activity
+    from exactlp.analysis import Interval, RhsRange, sensitivity
+
+    m = model_from_text("minimize: x\nvariables: {x: {lower: 2}}\nconstraints:\n  near_low: 0 <= x <= 10\n"
+                        "  middle: -6 <= x <= 10\n  near_up: -10 <= x <= 5\n  up_only: x <= 7\n"
+                        "  low_only: x >= -1\n")
+    assert sensitivity(m).rhs_ranges == {
+        "near_low": RhsRange("lower", F(0), Interval(None, F(2)), F(0)),
+        "middle": RhsRange("upper", F(10), Interval(F(2), None), F(0)),
+        "near_up": RhsRange("upper", F(5), Interval(F(2), None), F(0)),
+        "up_only": RhsRange("upper", F(7), Interval(F(2), None), F(0)),
+        "low_only": RhsRange("lower", F(-1), Interval(None, F(2)), F(0)),
+    }
+
+
 # Models whose tableau rows put several limits on one side, each with its exact
 # coefficient ranges (found by hand: the least |d_k / alpha_pk| of each side).
 NEAREST_LIMITS = [
@@ -982,6 +1000,12 @@ NEAREST_LIMITS = [
     ("maximize: x + 999 u + 99/100 v\nvariables: {x: {upper: 10}, u: {upper: 1}, v: {upper: 1}}\n"
      "constraints:\n  cap: x + 1000 u + v <= 4\n",
      {"x": (F(999, 1000), None), "u": (None, F(1000)), "v": (None, F(1))}),
+    # the same with u's entry 10 and v's reduced cost -1/1000: u, met first, sets
+    # the side's best at 1/10, and v's limit (1/1000) is a hundred times smaller;
+    # the loop passes over a column only when the bit lengths prove it no nearer
+    ("maximize: x + 9 u + 999/1000 v\nvariables: {x: {upper: 10}, u: {upper: 1}, v: {upper: 1}}\n"
+     "constraints:\n  cap: x + 10 u + v <= 4\n",
+     {"x": (F(999, 1000), None), "u": (None, F(10)), "v": (None, F(1))}),
 ]
 
 
