@@ -1977,6 +1977,90 @@ def test_ranges_solved_on_the_optimal_face_are_proven_for_the_held_row(model):
 
 
 
+def test_a_lifted_end_takes_the_held_rows_dual_nearest_zero_by_hand():
+    # maximize x0 + x1 over [0, 2]^2 with r0: 5/2 x0 + 5/2 x1 <= 15/2: the optimum
+    # 3 rests on r0's upper side with dual y* = 2/5, and the optimal set is
+    # x0 + x1 = 3, each from 1 to 2.  Minimising x0 on the face (r0 pinned at
+    # 15/2), x0 = 1 is basic, so 1 = 5/2 u: the face's dual u = 2/5, the sign a
+    # lower side wants; the model's r0 rests on its upper side, where a minimum
+    # needs a dual <= 0.  The lift takes the held row's dual w with
+    # u - w y* <= 0, w >= u / y* = 1, and the nearest 0 is w = 1: r0's dual 0,
+    # and e_x0 - 1 (x0 + x1) leaves x1, at its upper bound, the reduced cost -1.
+    # (w = u y* = 4/25 would leave r0 the dual 2/5 - 8/125 > 0: no proof.)
+    from exactlp.analysis import VarRange, ranges
+    from exactlp.report_check import check_report
+    from exactlp.reports import ranges_report
+
+    m = model_from_text("maximize: x0 + x1\nvariables: {x0: {upper: 2}, x1: {upper: 2}}\n"
+                        "constraints:\n  r0: 5/2 x0 + 5/2 x1 <= 15/2\n")
+    rg = ranges(m)
+    assert rg.ranges == {"x0": VarRange(F(1), F(2), "solved"), "x1": VarRange(F(1), F(2), "solved")}
+    held = rg.fixed_model.constraints[-1].name
+    for name, other in (("x0", "x1"), ("x1", "x0")):
+        (low_probe, low), (high_probe, high) = rg.endpoints[name]
+        assert dict(low.duals) == {"r0": 0, held: 1} and dict(low.reduced_costs) == {name: 0, other: -1}
+        assert dict(low.primal) == {name: 1, other: 2}
+        assert dict(high.duals) == {"r0": 0, held: 0} and dict(high.primal) == {name: 2, other: 1}
+        for probe, end in rg.endpoints[name]:
+            assert exactlp.verify(probe, exactlp.build_certificate(probe, end)).valid
+    v = check_report(m, ranges_report(m, rg))
+    assert v.valid, v.failure
+
+
+def test_a_pinned_equality_leaves_the_held_rows_dual_at_zero_by_hand():
+    # maximize x + y over [0, 3]^2 with eq: -x - y = -4 (dual y* = -1): the
+    # optimal set is x + y = 4, each from 1 to 3.  Minimising x on the face,
+    # x = 1 is basic, so 1 = -u: the face's dual u = -1 on the equality, whose
+    # multiplier may take any sign in the model too; no side is broken, so the
+    # held row's dual stays 0 and the end's duals are the face's own
+    from exactlp.analysis import VarRange, ranges
+
+    m = model_from_text("maximize: x + y\nvariables: {x: {upper: 3}, y: {upper: 3}}\n"
+                        "constraints:\n  eq: -x - y = -4\n")
+    rg = ranges(m)
+    assert rg.result.duals == {"eq": -1}
+    assert rg.ranges == {"x": VarRange(F(1), F(3), "solved"), "y": VarRange(F(1), F(3), "solved")}
+    held = rg.fixed_model.constraints[-1].name
+    for name, other in (("x", "y"), ("y", "x")):
+        (_, low), (_, high) = rg.endpoints[name]
+        assert dict(low.duals) == {"eq": -1, held: 0} and dict(low.reduced_costs) == {name: 0, other: -1}
+        assert dict(high.duals) == {"eq": 0, held: 0} and dict(high.reduced_costs) == {name: 1, other: 0}
+        for probe, end in rg.endpoints[name]:
+            assert exactlp.verify(probe, exactlp.build_certificate(probe, end)).valid
+
+
+def test_ranges_says_each_variable_it_solves_for():
+    from exactlp.analysis import ranges
+
+    said = []
+    ranges(exactlp.load(CASES / "shares_historic.yaml"), progress=said.append)
+    names = ["p1", "p3", "p5"] + [f"objective.abs{i}" for i in range(1, 6)]
+    assert said == [f"ranges: '{n}', {i} of 8 to solve (two exact solves each)" for i, n in enumerate(names, 1)]
+    said = []
+    ranges(exactlp.load(CASES / "berth.yaml"), progress=said.append)  # a unique optimum: nothing to solve
+    assert said == []
+
+
+def test_the_held_row_takes_a_name_no_constraint_has():
+    # the objective held at its optimum is the row 'optimal_objective', with a
+    # '_' added for each constraint of the model that already has the name
+    from exactlp.analysis import ranges
+    from exactlp.report_check import check_report
+    from exactlp.reports import ranges_report
+
+    text = ALTERNATIVE + "  optimal_objective: x <= 3\n  optimal_objective_: y <= 3\n"
+    m = model_from_text(text)
+    rg = ranges(m)
+    held = rg.fixed_model.constraints[-1]
+    assert held.name == "optimal_objective__" and (held.lower, held.upper) == (F(4), F(4))
+    assert [c.name for c in rg.fixed_model.constraints] == ["cap", "optimal_objective", "optimal_objective_",
+                                                            "optimal_objective__"]
+    rep = ranges_report(m, rg)
+    assert rep["fixed_objective"] == {"name": "optimal_objective__", "value": "4"}
+    v = check_report(m, rep)
+    assert v.valid, v.failure
+
+
 @pytest.mark.parametrize("text", [ALTERNATIVE, UNBOUNDED_SET, "shares_historic"])
 def test_ranges_solved_with_the_held_row_when_the_face_cannot_be_used(text, monkeypatch):
     # when the optimum's multipliers give the optimal face no pins of one sign
