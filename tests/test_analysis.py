@@ -1970,6 +1970,11 @@ def test_ranges_solved_on_the_optimal_face_are_proven_for_the_held_row(model):
     for name, ends in rg.endpoints.items():
         for (probe, got), want in zip(ends, (rg.ranges[name].minimum, rg.ranges[name].maximum)):
             assert exactlp.verify(probe, exactlp.build_certificate(probe, got)).valid
+            # the basis by position names what the basis by name holds, the held
+            # row's logical last (by position: the probe's last column)
+            named = [v.name for v in probe.variables] + [c.name for c in probe.constraints]
+            assert set(got.basis) <= {named[j] for j in got.basis_columns}
+            assert got.basis_columns[-1] == len(named) - 1 and got.basis[-1] == named[-1]
             own = held.solve(probe)
             assert got.status == own.status and got.objective == own.objective and got.objective == want
             if want is not None:
@@ -2039,6 +2044,32 @@ def test_ranges_says_each_variable_it_solves_for():
     said = []
     ranges(exactlp.load(CASES / "berth.yaml"), progress=said.append)  # a unique optimum: nothing to solve
     assert said == []
+
+
+def test_moved_entries_of_the_same_numerator_are_moved_by_hand():
+    # maximize x + y over [0, 1/2]^2 with cap: x + y <= 5/6: the optimum 5/6 is
+    # found at x = 1/3, y = 1/2, and each variable ranges over [1/3, 1/2]; the
+    # end x = 1/2, y = 1/3 moves both, each to a value with the same numerator
+    # as its old one, so the entries that moved are told by their denominators
+    # too.  One solve for the optimum and two for each variable: 5.
+    from exactlp.analysis import VarRange, ranges
+    from exactlp.report_check import check_report
+    from exactlp.reports import ranges_report
+
+    m = model_from_text("maximize: x + y\nvariables: {x: {upper: 1/2}, y: {upper: 1/2}}\n"
+                        "constraints:\n  cap: x + y <= 5/6\n")
+    rg = ranges(m)
+    assert rg.result.primal == {"x": F(1, 3), "y": F(1, 2)} and rg.solves == 5
+    assert rg.ranges == {"x": VarRange(F(1, 3), F(1, 2), "solved"), "y": VarRange(F(1, 3), F(1, 2), "solved")}
+    rep = ranges_report(m, rg)
+    assert rep["ranges"]["x"]["proofs"] == {
+        "min": {"moved": {}, "face_duals": {"cap": "1"}, "held_dual": "1"},
+        "max": {"moved": {"x": "1/2", "y": "1/3"}, "face_duals": {}, "held_dual": "0"}}
+    assert rep["ranges"]["y"]["proofs"] == {
+        "min": {"moved": {"x": "1/2", "y": "1/3"}, "face_duals": {"cap": "1"}, "held_dual": "1"},
+        "max": {"moved": {}, "face_duals": {}, "held_dual": "0"}}
+    v = check_report(m, rep)
+    assert v.valid, v.failure
 
 
 def test_the_held_row_takes_a_name_no_constraint_has():
