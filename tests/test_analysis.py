@@ -1006,6 +1006,11 @@ NEAREST_LIMITS = [
     ("maximize: x + 9 u + 999/1000 v\nvariables: {x: {upper: 10}, u: {upper: 1}, v: {upper: 1}}\n"
      "constraints:\n  cap: x + 10 u + v <= 4\n",
      {"x": (F(999, 1000), None), "u": (None, F(10)), "v": (None, F(1))}),
+    # the same with the large entry met last: u's limit 1 comes first, and v's
+    # (reduced cost -1 over the entry 1000) is a thousand times nearer
+    ("maximize: x + 999 v\nvariables: {x: {upper: 10}, u: {upper: 1}, v: {upper: 1}}\n"
+     "constraints:\n  cap: x + u + 1000 v <= 4\n",
+     {"x": (F(999, 1000), None), "u": (None, F(1)), "v": (None, F(1000))}),
 ]
 
 
