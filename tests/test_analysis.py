@@ -2077,6 +2077,30 @@ def test_moved_entries_of_the_same_numerator_are_moved_by_hand():
     assert v.valid, v.failure
 
 
+@pytest.mark.parametrize("chosen, unique, proof, solves", [
+    (["z"], False, "undecided: only some variables were ranged, and all of those have zero width", 1),
+    (["x"], False, "some variables take different values in different optimal solutions", 3),
+    (None, False, "some variables take different values in different optimal solutions", 5),
+])
+def test_uniqueness_is_claimed_only_when_proven(chosen, unique, proof, solves):
+    # x + y = 4 is optimal for x, y in [1, 3]; z = 2 is decided by its reduced
+    # cost.  Ranging z alone proves nothing either way: the optimum is not called
+    # unique, and the report check refuses a report that says it is
+    from exactlp.analysis import ranges
+    from exactlp.report_check import check_report
+    from exactlp.reports import ranges_report
+
+    m = model_from_text("maximize: x + y + z\nvariables: {x: {upper: 3}, y: {upper: 3}, z: {upper: 2}}\n"
+                        "constraints:\n  cap: x + y <= 4\n")
+    rg = ranges(m, chosen)
+    assert (rg.unique, rg.proof, rg.solves) == (unique, proof, solves)
+    rep = ranges_report(m, rg)
+    assert check_report(m, rep).valid
+    rep["unique"] = True
+    v = check_report(m, rep)
+    assert not v.valid and v.failure.detail == "unique: neither the duals nor the ranges prove the optimum unique"
+
+
 def test_the_held_row_takes_a_name_no_constraint_has():
     # the objective held at its optimum is the row 'optimal_objective', with a
     # '_' added for each constraint of the model that already has the name
