@@ -2017,6 +2017,33 @@ def test_a_lifted_end_takes_the_held_rows_dual_nearest_zero_by_hand():
     assert v.valid, v.failure
 
 
+def test_a_lifted_end_on_a_lower_side_by_hand():
+    # minimize -x0 + x1 over [0, 2] x [0, 1] with r0: -2 x0 + 2 x1 >= -2: the
+    # optimum -1 rests on r0's lower side with dual y* = 1/2, and the optimal set
+    # is x0 = 1 + x1.  Minimising x0 on the face (r0 pinned at -2), x0 = 1 is
+    # basic, so 1 = -2 u: u = -1/2, below the 0 a lower side needs in a minimum.
+    # So u - w y* >= 0, w <= u / y* = -1, and the nearest 0 is w = -1: r0's dual
+    # 0, the held row's -1, and x1, at its lower bound, the reduced cost 1.
+    from exactlp.analysis import VarRange, ranges
+    from exactlp.report_check import check_report
+    from exactlp.reports import ranges_report
+
+    m = model_from_text("minimize: -x0 + x1\nvariables: {x0: {upper: 2}, x1: {upper: 1}}\n"
+                        "constraints:\n  r0: -2 x0 + 2 x1 >= -2\n")
+    rg = ranges(m)
+    assert rg.result.duals == {"r0": F(1, 2)}
+    assert rg.ranges == {"x0": VarRange(F(1), F(2), "solved"), "x1": VarRange(F(0), F(1), "solved")}
+    held = rg.fixed_model.constraints[-1].name
+    (_, low), _ = rg.endpoints["x0"]
+    assert dict(low.primal) == {"x0": 1, "x1": 0}
+    assert dict(low.duals) == {"r0": 0, held: -1} and dict(low.reduced_costs) == {"x0": 0, "x1": 1}
+    for ends in rg.endpoints.values():
+        for probe, end in ends:
+            assert exactlp.verify(probe, exactlp.build_certificate(probe, end)).valid
+    v = check_report(m, ranges_report(m, rg))
+    assert v.valid, v.failure
+
+
 def test_a_pinned_equality_leaves_the_held_rows_dual_at_zero_by_hand():
     # maximize x + y over [0, 3]^2 with eq: -x - y = -4 (dual y* = -1): the
     # optimal set is x + y = 4, each from 1 to 3.  Minimising x on the face,
