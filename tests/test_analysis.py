@@ -2044,23 +2044,25 @@ def test_a_lifted_end_on_a_lower_side_by_hand():
     assert v.valid, v.failure
 
 
-def test_a_pinned_equality_leaves_the_held_rows_dual_at_zero_by_hand():
-    # maximize x + y over [0, 3]^2 with eq: -x - y = -4 (dual y* = -1): the
-    # optimal set is x + y = 4, each from 1 to 3.  Minimising x on the face,
-    # x = 1 is basic, so 1 = -u: the face's dual u = -1 on the equality, whose
-    # multiplier may take any sign in the model too; no side is broken, so the
-    # held row's dual stays 0 and the end's duals are the face's own
+@pytest.mark.parametrize("row, y", [("-x - y = -4", -1), ("x + y = 4", 1)])
+def test_a_pinned_equality_leaves_the_held_rows_dual_at_zero_by_hand(row, y):
+    # maximize x + y over [0, 3]^2 with the equality x + y = 4, written either
+    # way (dual y* = -1 or 1): the optimal set is x + y = 4, each from 1 to 3.
+    # Minimising x on the face, x = 1 is basic, so 1 = y* u: the face's dual
+    # u = y* on the equality, whose multiplier may take any sign in the model
+    # too; no side is broken, so the held row's dual stays 0 and the end's
+    # duals are the face's own
     from exactlp.analysis import VarRange, ranges
 
-    m = model_from_text("maximize: x + y\nvariables: {x: {upper: 3}, y: {upper: 3}}\n"
-                        "constraints:\n  eq: -x - y = -4\n")
+    m = model_from_text(f"maximize: x + y\nvariables: {{x: {{upper: 3}}, y: {{upper: 3}}}}\n"
+                        f"constraints:\n  eq: {row}\n")
     rg = ranges(m)
-    assert rg.result.duals == {"eq": -1}
+    assert rg.result.duals == {"eq": y}
     assert rg.ranges == {"x": VarRange(F(1), F(3), "solved"), "y": VarRange(F(1), F(3), "solved")}
     held = rg.fixed_model.constraints[-1].name
     for name, other in (("x", "y"), ("y", "x")):
         (_, low), (_, high) = rg.endpoints[name]
-        assert dict(low.duals) == {"eq": -1, held: 0} and dict(low.reduced_costs) == {name: 0, other: -1}
+        assert dict(low.duals) == {"eq": y, held: 0} and dict(low.reduced_costs) == {name: 0, other: -1}
         assert dict(high.duals) == {"eq": 0, held: 0} and dict(high.reduced_costs) == {name: 1, other: 0}
         for probe, end in rg.endpoints[name]:
             assert exactlp.verify(probe, exactlp.build_certificate(probe, end)).valid
