@@ -2320,6 +2320,8 @@ def test_a_derived_map_is_the_dict_it_stands_for(kind, keys, data):
             k: v for k, v in want.items() if v != base.get(k, F(7))}
     got = result.offsets_from(m, base)
     assert got == offsets and got is not own and result.offsets_from(m, dict(base)) is None
+    if kind == "ScaledMap":  # base itself with entries of its own: that very map, at scale 1
+        assert m.based_on(base) is (scale == 1) and m.based_on(dict(base)) is False and dict(m.own) == own
     assert repr(m) == f"{kind}({want!r})"
     with pytest.raises(KeyError):
         m["z"]
