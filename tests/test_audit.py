@@ -319,3 +319,22 @@ def test_warm_start_record_says_what_became_of_the_suggestion():
     assert recs[1] == {"record": "warm_start", "source": "highs", "float_status": "-", "accepted": False,
                        "reason": "the model holds a number beyond the floating-point range; no float solve was made"}
     assert r.objective == F(1, 10**400)
+
+
+@pytest.mark.parametrize("case, pivots, flips", [
+    ("drought.yaml", 2, 1), ("emissions.yaml", 2, 2), ("grants.yaml", 1, 2), ("depot.mps", 3, 1),
+])
+def test_the_log_counts_every_step_the_result_counts(case, pivots, flips):
+    # a primal bound flip is a record of its own; a dual pivot's flips ride in its
+    # record ('flipped'); the result counts pivots and flips apart, and its
+    # iterations are both together
+    from .conftest import CASES
+
+    m = exactlp.load(CASES / case)
+    r, _, recs = solve_logged(m, warm_start=False)
+    pivot_records = [x for x in recs if x["record"] == "pivot"]
+    flips_logged = sum(x["record"] == "flip" for x in recs) + sum(len(x.get("flipped", [])) for x in pivot_records)
+    assert (r.pivots_phase1 + r.pivots_phase2, r.bound_flips) == (pivots, flips)
+    assert (len(pivot_records), flips_logged) == (pivots, flips)
+    assert r.iterations == pivots + flips
+    assert recs[-1]["pivots_phase1"] + recs[-1]["pivots_phase2"] == pivots and recs[-1]["bound_flips"] == flips
