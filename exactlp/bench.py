@@ -246,7 +246,8 @@ def run(rows: list[dict], netlib: Path, time_limit: float | None, cold: bool, wa
             w = 8 if mode == "cold" else 7
             pw = 6 if mode == "cold" else 5
             if rec[f"{mode}_status"] != "optimal" and f"{mode}_verify_s" not in rec:
-                return f"{rec[f'{mode}_status'][:w]:>{w}} {rec[f'{mode}_pivots']:>{pw}} {'':>6}"
+                said = "limit" if rec[f"{mode}_status"].endswith("_limit") else rec[f"{mode}_status"][:w]
+                return f"{said:>{w}} {rec[f'{mode}_pivots']:>{pw}} {'':>6}"
             return f"{rec[f'{mode}_s']:>{w}.3f} {rec[f'{mode}_pivots']:>{pw}} {rec[f'{mode}_verify_s']:>6.3f}"
 
         fl = rec["float_s"]

@@ -385,3 +385,64 @@ def test_bench_matches_the_published_value_to_its_digits(name, published, note, 
 
     row = {"name": name, "published_optimum": published, "note": note}
     assert published_match(value, row) == said
+
+
+@pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
+def test_bench_rows_say_what_was_measured(monkeypatch):
+    # The table's rows from given figures (cases/depot.mps under four names, its
+    # exact optimum 1805/4 = 451.25 in 4 cold pivots and flips, 0 warm): the
+    # solve times and the float time are set, each verification takes 1/64 s by
+    # a fake clock, and HiGHS's own reading of the file is set per row.  A limit
+    # shows as 'limit' with no verification; the ratio is over the warm time if
+    # it was certified, else the cold; a published value that differs is
+    # labelled by whether HiGHS's reading agrees with the exact one.
+    import dataclasses
+    import io
+    import itertools
+
+    from exactlp import bench
+    from exactlp.solver.result import Status
+
+    from .conftest import CASES
+
+    solves = iter([0.5, 0.25, ("limit", 60.0), 0.375, 1.5, ("limit", 60.0), 0.5, 0.25])
+
+    def best_of(call):
+        took, r = next(solves), call()
+        if isinstance(took, tuple):
+            took, r = took[1], dataclasses.replace(r, status=Status.TIME_LIMIT)
+        return took, r
+    floats = iter([(9.0, None), (0.125, None), (0.125, None), (0.25, None), (None, None)])  # (the first: untimed)
+    readings = iter([451.25, 452.0])
+    ticks = itertools.count()
+    monkeypatch.setattr(bench, "best_of", best_of)
+    monkeypatch.setattr(bench, "float_time", lambda model: next(floats))
+    monkeypatch.setattr(bench, "independent_objective", lambda path: next(readings))
+    monkeypatch.setattr(bench.time, "perf_counter", lambda: next(ticks) / 64)
+    rows = [dict(name=name, file="depot.mps", published_optimum=published, note="")
+            for name, published in (("DEPOT", "4.5125000000E+02"), ("DEPOT-OFF", "4.5200000000E+02"),
+                                    ("DEPOT-FAR", "4.5200000000E+02"), ("NO-FLOAT", "4.5125000000E+02"))]
+    out = io.StringIO()
+    got = bench.run(rows, CASES, None, cold=True, warm=True, out=out)
+    assert out.getvalue().splitlines()[2:] == [
+        "DEPOT          5     6     12 |    0.500      4  0.016 |   0.250     0  0.016 |   0.125    2.0 |"
+        "             451.25 yes",
+        "DEPOT-OFF      5     6     12 |    limit      4        |   0.375     0  0.016 |   0.125    3.0 |"
+        "             451.25 no; HiGHS's own reading agrees",
+        "DEPOT-FAR      5     6     12 |    1.500      4  0.016 |   limit     0        |   0.250    6.0 |"
+        "             451.25 NO",
+        "NO-FLOAT       5     6     12 |    0.500      4  0.016 |   0.250     0  0.016 |       -      - |"
+        "             451.25 yes",
+        "exact/float ratio: median 3.0, worst 6.0 over 3 problems",
+    ]
+    assert [(r["ratio"], r["match"], r["objective"]) for r in got] == [
+        (2.0, "yes", Fraction(1805, 4)), (3.0, "no; HiGHS's own reading agrees", Fraction(1805, 4)),
+        (6.0, "NO", Fraction(1805, 4)), (None, "yes", Fraction(1805, 4))]
+    assert [(r["cold_status"], r["warm_status"]) for r in got] == [
+        ("optimal", "optimal"), ("time_limit", "optimal"), ("optimal", "time_limit"), ("optimal", "optimal")]
+    assert "cold_verify_s" not in got[1] and "warm_verify_s" not in got[2] and got[0]["cold_verify_s"] == 1 / 64
+    assert bench.targets(got, None)[:2] == [
+        "up to 500 rows, no warm start, within 5 s: 3 of 4 (not: DEPOT-OFF time limit)",
+        "up to 500 rows, warm start, exact/float ratio: median 2.50 (target 2), worst 3.00 DEPOT-OFF (target 5), "
+        "over 2",
+    ]
