@@ -446,3 +446,46 @@ def test_bench_rows_say_what_was_measured(monkeypatch):
         "up to 500 rows, warm start, exact/float ratio: median 2.50 (target 2), worst 3.00 DEPOT-OFF (target 5), "
         "over 2",
     ]
+
+
+def test_bench_lists_count_rows_as_the_model_holds_them():
+    # the csv's row counts (the Netlib readme's) include the objective row; the
+    # lists count constraints, as the targets do, so 501 there is 500 rows here
+    # (and TRUSS's 1,001 is "up to 1,000 rows"); each size list in order of nonzeros
+    from exactlp.bench import SHORT, choose
+
+    table = [{"name": n, "rows": str(rows), "nonzeros": str(nnz)}
+             for n, rows, nnz in (("P501", 501, 90), ("P28", 28, 10), ("P502", 502, 30), ("P1001", 1001, 70),
+                                  ("P1002", 1002, 20), ("AFIRO", 28, 88), ("KB2", 44, 291))]
+    names = lambda which: [r["name"] for r in choose(table, which)]  # noqa: E731
+    assert names("small") == ["P28", "AFIRO", "P501", "KB2"]
+    assert names("medium") == ["P28", "P502", "P1001", "AFIRO", "P501", "KB2"]
+    assert names("large") == ["P1002"]
+    assert names("all") == ["P28", "P1002", "P502", "P1001", "AFIRO", "P501", "KB2"]
+    assert names("short") == [n for n in SHORT if n in ("AFIRO", "KB2")] == ["AFIRO", "KB2"]
+    assert names(" kb2, p28 ,") == ["KB2", "P28"]
+    with pytest.raises(SystemExit) as bad:
+        choose(table, "KB2,STAIRS,P9")
+    assert str(bad.value) == "bench: not in optimal-values.csv: STAIRS, P9"
+
+
+def test_bench_targets_at_their_edges():
+    # 500 rows is "up to 500 rows", 1,000 "up to 1,000", 1,001 over; a cold solve of
+    # exactly 5 s is within 5 s; the slowest time of a group under 1 s keeps three decimals
+    from exactlp.bench import targets
+
+    results = [
+        {"name": "AT500", "rows": 500, "cold_s": 5.0, "cold_status": "optimal", "cold_verify_s": 1.0,
+         "warm_s": 1.0, "warm_status": "optimal", "warm_verify_s": 0.5, "ratio": 5.0},
+        {"name": "AT501", "rows": 501, "cold_s": 9.0, "cold_status": "optimal", "cold_verify_s": 3.0,
+         "warm_s": 0.999, "warm_status": "optimal", "warm_verify_s": 2.0, "ratio": 9.0},
+        {"name": "AT1000", "rows": 1000, "warm_s": 60.0, "warm_status": "optimal", "warm_verify_s": 0.1, "ratio": 1.0},
+        {"name": "AT1001", "rows": 1001, "warm_s": 0.5, "warm_status": "optimal", "warm_verify_s": 0.1, "ratio": 1.0},
+    ]
+    assert targets(results, None) == [
+        "up to 500 rows, no warm start, within 5 s: 1 of 1",
+        "up to 500 rows, warm start, exact/float ratio: median 5.00 (target 2), worst 5.00 AT500 (target 5), over 1",
+        "up to 500 rows, slowest verification: 1.000 s AT500 (target 1 s)",
+        "up to 1,000 rows, certified: 3 of 3, slowest 60.0 s AT1000 (target 60 s)",
+        "over 1,000 rows, certified: 1 of 1, slowest 0.500 s AT1001 (target 600 s)",
+    ]
