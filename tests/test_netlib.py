@@ -412,7 +412,7 @@ def test_bench_rows_say_what_was_measured(monkeypatch):
         if isinstance(took, tuple):
             took, r = took[1], dataclasses.replace(r, status=Status.TIME_LIMIT)
         return took, r
-    floats = iter([(9.0, None), (0.125, None), (0.125, None), (0.25, None), (None, None)])  # (the first: untimed)
+    floats = iter([9.0, 0.125, 0.125, 0.25, None])  # (the first: the untimed round's)
     readings = iter([451.25, 452.0])
     ticks = itertools.count()
     monkeypatch.setattr(bench, "best_of", best_of)

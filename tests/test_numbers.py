@@ -230,7 +230,6 @@ def test_mpq_to_fraction_keeps_type_and_value(path, monkeypatch):
 # path from model file to certificate. A new one fails this test until it is listed
 # here with its reason (and reviewed as such).
 FLOAT_CALLS = {
-    ("bench.py", "float_time"): "scipy's own objective, timed and shown beside the exact one, never certified",
     ("bench.py", "run"): "the label 'HiGHS's own reading agrees' beside an already certified objective",
     ("floatlp.py", "_arrays"): "infinity in the float copy handed to HiGHS, which only suggests a basis",
     ("floatlp.py", "start_highs"): "HiGHS's wall-clock time limit; no model number",
