@@ -372,6 +372,8 @@ E226_NOTE = ("the published value leaves out the objective constant; the RHS ent
     ("DFL001", "1.12664E+07", "published to 6 significant digits only", Fraction(11266396047, 1000), "note"),
     ("DFL001", "1.12664E+07", "published to 6 significant digits only", Fraction(11266500000), "NO"),  # 1e-5 off
     ("SCAGR7", "-2.3313892548E+06", "", Fraction(-23313898243, 10**4), "NO"),  # no note, no leeway
+    ("EDGE", "1.0000000000E+06", "a note", Fraction(1000001), "note"),  # 1e-6 relative exactly: still within
+    ("EDGE", "1.0000000000E+06", "a note", Fraction(10000011, 10), "NO"),  # 1.1e-6: past it
     ("ZERO", "0", "a note", Fraction(1, 10**7), "note"),
     ("ZERO", "0", "", Fraction(0), "yes"),
     ("ZERO", "0", "", Fraction(1, 10**12), "NO"),
@@ -489,3 +491,18 @@ def test_bench_targets_at_their_edges():
         "up to 1,000 rows, certified: 3 of 3, slowest 60.0 s AT1000 (target 60 s)",
         "over 1,000 rows, certified: 1 of 1, slowest 0.500 s AT1001 (target 600 s)",
     ]
+
+
+def test_bench_finds_the_netlib_set_beside_the_checkout_unless_told(monkeypatch, tmp_path, capsys):
+    # $EXACTLP_NETLIB first, else ../shared/netlib beside the checkout; without
+    # the csv there, the benchmark says where it looked and stops with status 2
+    from pathlib import Path
+
+    from exactlp import bench
+
+    monkeypatch.delenv("EXACTLP_NETLIB", raising=False)
+    assert bench.default_netlib() == Path(bench.__file__).resolve().parents[2] / "shared" / "netlib"
+    monkeypatch.setenv("EXACTLP_NETLIB", str(tmp_path))
+    assert bench.default_netlib() == tmp_path
+    assert bench.main(["--list", "AFIRO"]) == 2
+    assert capsys.readouterr().err == f"bench: no Netlib set at {tmp_path} (pass --netlib DIR)\n"
