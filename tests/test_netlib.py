@@ -5,6 +5,7 @@ as copied in ../shared/netlib) to all of the published 11 significant digits.
 """
 
 import os
+import platform
 from fractions import Fraction
 
 import pytest
@@ -123,6 +124,7 @@ def test_bench_prints_figures(capsys):
     # the header names the date and the machine: cores, the processor where the system says it
     header = out.splitlines()[0]
     assert header.startswith("exactlp ") and f"{os.cpu_count()} cores" in header and bench.processor() in header
+    assert header.endswith(f", Python {platform.python_version()}")
     # then the time of a fixed pure-Python loop, which tells a slow spell of the machine
     cal = out.splitlines()[1]
     assert cal.startswith("calibration: ") and cal.endswith(" ms for a fixed pure-Python loop, the fastest of 5 "
@@ -421,7 +423,7 @@ def test_bench_rows_say_what_was_measured(monkeypatch):
             took, r = took[1], dataclasses.replace(r, status=Status.TIME_LIMIT)
         return took, r
     floats = iter([9.0, 0.125, 0.125, 0.25, None])  # (the first: the untimed round's)
-    readings = iter([451.25, 452.0])
+    readings = iter([451.25 + 1e-7, 452.0])  # (the first within 1e-9 relative: agrees)
     ticks = itertools.count()
     monkeypatch.setattr(bench, "best_of", best_of)
     monkeypatch.setattr(bench, "float_time", lambda model: next(floats))
@@ -449,6 +451,12 @@ def test_bench_rows_say_what_was_measured(monkeypatch):
     assert [(r["cold_status"], r["warm_status"]) for r in got] == [
         ("optimal", "optimal"), ("time_limit", "optimal"), ("optimal", "time_limit"), ("optimal", "optimal")]
     assert "cold_verify_s" not in got[1] and "warm_verify_s" not in got[2] and got[0]["cold_verify_s"] == 1 / 64
+    # without the cold solve, its cell is a dash of its own width
+    floats, solves = iter([9.0, 0.125]), iter([0.25])
+    out = io.StringIO()
+    bench.run(rows[:1], CASES, None, cold=False, warm=True, out=out)
+    assert out.getvalue().splitlines()[2] == ("DEPOT          5     6     12 |        -               |   0.250     0  "
+                                              "0.016 |   0.125    2.0 |             451.25 yes")
     assert bench.targets(got, None)[:2] == [
         "up to 500 rows, no warm start, within 5 s: 3 of 4 (not: DEPOT-OFF time limit)",
         "up to 500 rows, warm start, exact/float ratio: median 2.50 (target 2), worst 3.00 DEPOT-OFF (target 5), "
