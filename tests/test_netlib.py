@@ -533,3 +533,23 @@ def test_bench_reads_the_file_with_highs_own_reader_for_its_label():
 
     got = independent_objective(NETLIB / netlib_table()["AFIRO"]["file"])
     assert type(got) is float and abs(got - (-464.75314286)) <= 1e-8 * 464.75314286
+
+
+# The cold path's steps on the CI list as this code takes them: (phase 1 pivots,
+# phase 2 pivots, bound flips), the totals the benchmark printed in the thirtieth
+# and thirty-first sessions' runs (DEVELOPERS.md).  Not an outside value: a
+# record of this code's own path, so that a change to the pricing, the ratio
+# tests or the factors' arithmetic that moves a pivot shows here (the verifier
+# accepts any path; only a log or a benchmark would show the change).  A change
+# made on purpose updates these and says so.
+COLD_STEPS = {"AFIRO": (2, 12, 0), "SC50B": (0, 49, 0), "KB2": (64, 0, 1), "ADLITTLE": (19, 71, 0),
+              "BLEND": (0, 111, 0), "SHARE2B": (72, 34, 0)}
+
+
+@needs_netlib
+@pytest.mark.parametrize("name", list(COLD_STEPS))
+def test_the_cold_path_takes_the_steps_it_took(name):
+    m = read_mps(NETLIB / netlib_table()[name]["file"])
+    r = exactlp.solve(m, warm_start=False)
+    assert (r.pivots_phase1, r.pivots_phase2, r.bound_flips) == COLD_STEPS[name]
+    assert format_decimal(r.objective, 11) == format_decimal(parse_number(netlib_table()[name]["published_optimum"]), 11)
