@@ -533,6 +533,255 @@ def test_ratio_test_skips_only_candidates_that_cannot_be_smallest():
     assert checked > 2000
 
 
+def _dense_inverse(sx):
+    """B^-1 of ``sx.head`` in Fractions by Gauss-Jordan, independent of the
+    solver's factorisations (rows of the result by basis position)."""
+    m = sx.m
+    q = lambda v: F(int(v.numerator), int(v.denominator))  # noqa: E731
+    a = [[F(0)] * m + [F(int(i == r)) for i in range(m)] for r in range(m)]
+    for p, j in enumerate(sx.head):
+        for i, v in sx.cols[j]:
+            a[i][p] = q(v)
+    for c in range(m):
+        r = next(r for r in range(c, m) if a[r][c])
+        a[c], a[r] = a[r], a[c]
+        piv = a[c][c]
+        a[c] = [v / piv for v in a[c]]
+        for r in range(m):
+            if r != c and a[r][c]:
+                f = a[r][c]
+                a[r] = [v - f * w for v, w in zip(a[r], a[c])]
+    return [row[m:] for row in a]
+
+
+def _column_through(inv, col):
+    """B^-1 a_j, dense, in Fractions."""
+    q = lambda v: F(int(v.numerator), int(v.denominator))  # noqa: E731
+    return [sum((row[i] * q(v) for i, v in col), F(0)) for row in inv]
+
+
+def _ratio_reference(sx, inv, q, direction, rank_on, prefer_large):
+    """The ratio test written out in Fractions from a dense B^-1: the smallest
+    step over the basic columns and the entering column's own span; a smaller
+    span flips; ties with the perturbed (lexicographic) rule when ``rank_on``
+    and there is more than one candidate, else to the flip, else (with
+    ``prefer_large``) to the largest |alpha_p| then the lowest column, else to
+    the lowest column.  The perturbed rule is written from its definition:
+    every bound moves out by its own infinitesimal e_j, ranked by
+    ``sx._run_order``; a nonbasic column's bound moves by ``s_j e_j``
+    (``s_j = -1`` at its lower bound, ``+1`` at its upper, a free column at
+    zero not at all); each candidate's distance to its perturbed bound,
+    over its rate, is a vector over the ranks, and the smallest vector wins
+    (the flip's is ``2 e_q``, the span's own two infinitesimals).  Returns
+    (step, leaving column or None, bound) and which rule decided (for the
+    perturbed rule, whether a basic or a nonbasic column's rank did)."""
+    from exactlp.solver import simplex as sm
+
+    fr = lambda v: None if v is None else F(int(v.numerator), int(v.denominator))  # noqa: E731
+    alpha = _column_through(inv, sx.cols[q])
+    cands = []
+    for p, a in enumerate(alpha):
+        if not a:
+            continue
+        b = sx.head[p]
+        rate = -direction * a
+        lo, hi, xb = fr(sx.lower[b]), fr(sx.upper[b]), fr(sx.x[b])
+        if rate < 0 and lo is not None:
+            cands.append(((xb - lo) / -rate, b, p, "lower"))
+        elif rate > 0 and hi is not None:
+            cands.append(((hi - xb) / rate, b, p, "upper"))
+    best = min((c[0] for c in cands), default=None)
+    ties = [c for c in cands if c[0] == best]
+    lo, hi = fr(sx.lower[q]), fr(sx.upper[q])
+    flip_bound = "upper" if direction > 0 else "lower"
+    span = None if lo is None or hi is None else hi - lo
+    if span is not None and (best is None or span < best):
+        return (span, None, flip_bound), "flip"
+    if best is None:
+        return (None, None, None), "unbounded"
+    flip = span == best
+    if rank_on and len(ties) + flip > 1:
+        def vector(c):
+            t, b, p, bound = c
+            out = []
+            for j in sx._run_order:
+                sj = sx.state[j]
+                if sj == sm.BASIC:
+                    out.append(F(1) / abs(alpha[p]) if j == b else F(0))
+                    continue
+                if sj == sm.AT_ZERO:
+                    out.append(F(0))
+                    continue
+                s = -1 if sj == sm.AT_LOWER else 1
+                w = _column_through(inv, sx.cols[j])[p]
+                # x_b's e_j part is -s_j w; the distance to a lower bound grows
+                # with x_b, to an upper one shrinks
+                out.append((-s * w if bound == "lower" else s * w) / abs(alpha[p]))
+            return out
+        vectors = [(vector(c), c[1], c) for c in ties]
+        if flip:
+            vectors.append(([F(2) if j == q else F(0) for j in sx._run_order], -1, None))
+        win = min(vectors, key=lambda v: v[0])[2]
+        # the first rank at which the vectors differ: a basic column's rank
+        # only rules out that column, a nonbasic one's weighs every candidate
+        k = next(k for k in range(len(sx._run_order)) if len({v[0][k] for v in vectors}) > 1)
+        by = "basic" if sx.state[sx._run_order[k]] == sm.BASIC else "nonbasic"
+        return (best, *((None, flip_bound) if win is None else (win[1], win[3]))), f"lex_{by}"
+    if flip:
+        return (best, None, flip_bound), "flip"
+    if prefer_large and len(ties) > 1:
+        c = min(ties, key=lambda c: (-abs(alpha[c[2]]), c[1]))
+        return (best, c[1], c[3]), "large"
+    c = min(ties, key=lambda c: c[1])
+    return (best, c[1], c[3]), "plain"
+
+
+def test_ratio_test_and_its_tie_breaks_match_the_rule_written_out():
+    # Simplex._ratio with every option (a flip, prefer_large, the scale D, the
+    # lexicographic tie-break of a degenerate run) against _ratio_reference,
+    # which computes every B^-1 a_j from a dense inverse in Fractions.  Small
+    # integer columns and basic values on their bounds make ties the rule:
+    # more than half the cases go to the tie-break, and each of its outcomes
+    # (a basic candidate, the flip) and each way of reading B^-1 (one ftran per
+    # rank, the candidates' rows) is met.
+    import random
+
+    from gmpy2 import mpq
+
+    from exactlp.solver import simplex as sm
+    from exactlp.solver.form import build_form
+
+    rng = random.Random(2026)
+    seen = {"lex_basic": 0, "lex_nonbasic": 0, "lex_to_the_flip": 0, "flip": 0, "large": 0, "unbounded": 0, "plain": 0}
+    for trial in range(800):
+        m, n = rng.randint(3, 6), rng.randint(4, 8)
+        text = "minimize: " + " + ".join(f"x{i}" for i in range(n)) + "\nvariables:\n"
+        text += "".join(f"  x{i}: {{}}\n" for i in range(n)) + "constraints:\n"
+        for i in range(m):
+            terms = " + ".join(f"{rng.choice([1, 1, 2, 3])} x{k}" for k in rng.sample(range(n), rng.randint(1, 3)))
+            text += f"  c{i}: {terms} <= 100\n"
+        sx = sm.Simplex(build_form(model_from_text(text)))
+        ncol = len(sx.cols)
+        while True:
+            head = rng.sample(range(ncol), m)
+            sx.head = head
+            try:
+                inv = _dense_inverse(sx)
+            except StopIteration:
+                continue
+            break
+        for j in range(ncol):
+            kind = rng.choice(["box", "box", "lower", "upper", "free"])
+            lo = mpq(rng.randint(-2, 2))
+            hi = lo + rng.choice([0, 1, 1, 2, 3])
+            sx.lower[j] = lo if kind in ("box", "lower") else None
+            sx.upper[j] = hi if kind in ("box", "upper") else None
+            if j in head:
+                sx.state[j] = sm.BASIC
+                ends = [v for v in (sx.lower[j], sx.upper[j]) if v is not None]
+                sx.x[j] = rng.choice(ends) if ends and rng.random() < 0.7 else (
+                    lo + (hi - lo) * mpq(rng.randint(0, 4), 4) if kind == "box" else
+                    lo + mpq(rng.randint(0, 6), 2) if kind == "lower" else hi - mpq(rng.randint(0, 6), 2))
+            else:
+                sx.state[j] = sm.AT_ZERO if kind == "free" else (
+                    sm.AT_LOWER if sx.lower[j] is not None and (sx.upper[j] is None or rng.random() < 0.5)
+                    else sm.AT_UPPER)
+                sx.x[j] = {sm.AT_ZERO: sm.ZERO, sm.AT_LOWER: sx.lower[j], sm.AT_UPPER: sx.upper[j]}[sx.state[j]]
+        sx._basis = None
+        sx.basis  # noqa: B018 (factors the basis and renumbers head)
+        inv = _dense_inverse(sx)
+        q = rng.choice([j for j in range(ncol) if sx.state[j] != sm.BASIC])
+        direction = {sm.AT_LOWER: 1, sm.AT_UPPER: -1}.get(sx.state[q], rng.choice([-1, 1]))
+        if sx.state[q] == sm.AT_LOWER and rng.random() < 0.3:
+            sx.upper[q] = sx.lower[q] + rng.choice([0, 1])  # a short span: flips tie more often
+        alpha = {p: mpq(v.numerator, v.denominator) for p, v in enumerate(_column_through(inv, sx.cols[q])) if v}
+        if not alpha:
+            continue
+        pick = rng.random()
+        if pick < 0.3:
+            rank = sx._run_rank()  # the columns basic now first, each group by column
+            basic = sorted(j for j in range(ncol) if sx.state[j] == sm.BASIC)
+            assert sx._run_order == basic + sorted(set(range(ncol)) - set(basic))
+            assert [rank[j] for j in sx._run_order] == list(range(ncol))
+        elif pick < 0.65:
+            # the run began at another basis: some of its first-ranked columns
+            # are nonbasic now, and their ranks decide most ties
+            sx._run_order = rng.sample(range(ncol), ncol)
+        else:
+            sx._run_order = rng.sample([j for j in range(ncol) if sx.state[j] != sm.BASIC], ncol - m) + \
+                rng.sample(sx.head, m)
+        rank_on, prefer_large = rng.random() < 0.6, rng.random() < 0.5
+        scale = rng.choice([None, mpq(rng.randint(2, 10**6))])
+        given = alpha if scale is None else {p: v * scale for p, v in alpha.items()}
+        got = sx._ratio(q, direction, given, [0] * ncol if rank_on else None, prefer_large, scale)
+        want, rule = _ratio_reference(sx, inv, q, direction, rank_on, prefer_large)
+        assert got == want, (trial, got, want)
+        assert got[0] is None or isinstance(got[0], type(mpq(0)))
+        seen[rule] += 1
+        seen["lex_to_the_flip"] += rule.startswith("lex") and got[1] is None
+    assert all(v >= 10 for v in seen.values()), seen
+
+
+def test_pricing_and_eligibility_match_the_rules_written_out():
+    # Simplex._price (Dantzig's largest |d_j|, and devex's largest
+    # 2 (16 log2 |d_j|) - w_j with ties to the larger |d_j| then the lower
+    # column) and Simplex._eligible against the rules written out: a column at
+    # its lower bound improves with d_j < 0, at its upper with d_j > 0, a free
+    # one at zero either way, a basic one never; the first eligible column
+    # (Bland's) is returned beside the best.  Reduced costs are drawn from a few
+    # values so that scores and |d_j| tie often, and column 0 is often eligible.
+    import random
+
+    from gmpy2 import mpq
+
+    from exactlp.solver import simplex as sm
+    from exactlp.solver.form import build_form
+    from exactlp.solver.pricing import _log16
+
+    m = 3
+    text = "minimize: x0\nvariables:\n" + "".join(f"  x{i}: {{}}\n" for i in range(9)) + "constraints:\n"
+    text += "".join(f"  c{i}: x{i} + x{i + 3} <= 1\n" for i in range(m))
+    sx = sm.Simplex(build_form(model_from_text(text)))
+    ncol = len(sx.cols)
+    rng = random.Random(7)
+    values = [mpq(v) for v in (1, 2, 3, 4, -1, -2, -3, -4)] + [mpq(1, 3), mpq(-5, 2), mpq(7, 5), mpq(-1, 10**9)]
+    counts = {"weighted": 0, "plain": 0, "none": 0, "score_tie": 0}
+    for _ in range(3000):
+        sx.state = [rng.choice([sm.BASIC, sm.AT_LOWER, sm.AT_UPPER, sm.AT_ZERO]) for _ in range(ncol)]
+        live = set(rng.sample(range(ncol), rng.randint(0, ncol)))  # the others' d_j are 0
+        d = [None if sx.state[j] == sm.BASIC else rng.choice(values) if j in live else sm.ZERO
+             for j in range(ncol)]
+        for j in range(ncol):
+            want_dir = 0
+            if sx.state[j] == sm.BASIC:
+                assert sx._eligible(j, rng.choice(values)) == 0  # (its d_j is None: never priced)
+            else:
+                s = sx.state[j]
+                if d[j] < 0 and s in (sm.AT_LOWER, sm.AT_ZERO):
+                    want_dir = 1
+                elif d[j] > 0 and s in (sm.AT_UPPER, sm.AT_ZERO):
+                    want_dir = -1
+                assert sx._eligible(j, d[j]) == want_dir, (s, d[j])
+        eligible = [j for j in range(ncol) if d[j] is not None and sx._eligible(j, d[j])]
+        weighted = rng.random() < 0.5
+        sx.weights = [rng.choice([0, 16, 32, 35]) for _ in range(ncol)]
+        sx.scores = None
+        got = sx._price(d, weighted)
+        if not eligible:
+            assert got == (-1, -1)
+            counts["none"] += 1
+            continue
+        if weighted:
+            key = {j: (2 * _log16(d[j]) - sx.weights[j], abs(d[j]), -j) for j in eligible}
+            top = max(k[0] for k in key.values())
+            counts["score_tie"] += sum(k[0] == top for k in key.values()) > 1
+        else:
+            key = {j: (abs(d[j]), -j) for j in eligible}
+        assert got == (eligible[0], max(eligible, key=key.get)), (d, sx.state, got)
+        counts["weighted" if weighted else "plain"] += 1
+    assert min(counts.values()) >= 50, counts
+
+
 def _partial_scan_reference(sx, cost, y, lowest, start, part):
     """The partial-pricing rule written out plainly in Fractions (independent of
     the solver's arithmetic): from ``start``, wrapping around, skip basic and
