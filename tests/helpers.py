@@ -151,32 +151,73 @@ def solve_verified(model: Model, **kw):
     return r
 
 
-def float_ray_holds(model: Model, ray: dict) -> bool:
-    """Does ``ray`` prove unboundedness when checked in plain floating point?
+def ray_holds(model: Model, ray: dict) -> bool:
+    """Does ``ray`` prove unboundedness, checked in Fractions from the model alone?
 
     Used only to settle a disagreement with the float reference: scipy's HiGHS
     (1.17.1) calls some unbounded models optimal when a tiny cost meets large
     matrix entries (found by the differential run: minimize -1e-5 x3 with x2 free
-    and x2 + 1000 x3 <= 0 -- x3 grows without limit along x2 = -1000 x3).  This
-    recheck shares no code with exactlp's verifier.
+    and x2 + 1000 x3 <= 0 -- x3 grows without limit along x2 = -1000 x3; and
+    maximize x2 with 3 x2 - 100 x3 <= 0 and x0 / 1000 - 10000 x2 >= 0, along
+    x0 = 10^9 / 3, x2 = 100 / 3, x3 = 1).  This recheck shares no code with
+    exactlp's verifier.  (It was a float check with an absolute tolerance of
+    1e-12 until the second model: its row ``x0 / 1000 - 10000 x2`` is exactly 0
+    along the ray and came out about -6e-11 in floats.)
     """
-    r = {k: float(v) for k, v in ray.items()}
-    sgn = 1.0 if model.sense is Sense.MINIMIZE else -1.0
+    r = {k: Fraction(v) for k, v in ray.items()}
     for v in model.variables:
-        rv = r.get(v.name, 0.0)
+        rv = r.get(v.name, 0)
         if (rv > 0 and v.upper is not None) or (rv < 0 and v.lower is not None):
             return False
     for c in model.constraints:
-        a = sum(float(k) * r.get(n, 0.0) for n, k in c.terms)
-        if (a > 1e-12 and c.upper is not None) or (a < -1e-12 and c.lower is not None):
+        a = sum((k * r.get(n, 0) for n, k in c.terms), Fraction(0))
+        if (a > 0 and c.upper is not None) or (a < 0 and c.lower is not None):
             return False
-    return sgn * sum(float(k) * r.get(n, 0.0) for n, k in model.objective) < 0
+    slope = sum((k * r.get(n, 0) for n, k in model.objective), Fraction(0))
+    return (slope < 0) if model.sense is Sense.MINIMIZE else (slope > 0)
+
+
+def reference_failure(model: Model, ours, ref_status: str, ref_obj, ref_x) -> str | None:
+    """Why the float reference's answer is wrong where it differs from ours, or
+    None when nothing here explains the difference (the caller then fails).
+
+    Each explanation is checked in Fractions from the model alone, beside the
+    verifier's acceptance of our certificate (``solve_verified``):
+    ``"missed ray"``: we proved unbounded, the reference says optimal, and our
+    ray holds (:func:`ray_holds`); ``"infeasible point"``: the reference's
+    "optimal" point breaks a bound or row (:func:`exact_violation`), where we
+    proved infeasible or found a worse optimum; ``"suboptimal point"``: both
+    optimal, ours strictly better than the reference's by more than its 1e-6
+    relative tolerance, and our point exactly feasible, so the reference stopped
+    short (found by the differential run: minimize -x4 / 10 with x4 <= 1, x2
+    free, x2 + 1000 x4 <= 0 and 0 <= -x1 - 1000 x2 + x4 <= 1; the optimum is
+    x4 = 1, x2 = -1000, x1 = 10^6, where HiGHS returned x4 = 1e-6); ``"no
+    answer"``: the reference gave no definite status.
+    """
+    if ref_status.startswith("scipy-status-"):
+        return "no answer"  # (status 4, numerical difficulties: seen on entries of 1e4 and 1e-4 together)
+    ours_status = ours.status.value
+    if ours_status == "unbounded" and ref_status == "optimal" and ray_holds(model, ours.ray):
+        return "missed ray"
+    if ours_status == "infeasible" and ref_status == "optimal" and exact_violation(model, ref_x) > 0:
+        return "infeasible point"
+    if ours_status == ref_status == "optimal" and ref_obj is not None:
+        gap = float(ours.objective) - ref_obj
+        if abs(gap) > 1e-6 * max(1.0, abs(ref_obj)):
+            better = gap < 0 if model.sense is Sense.MINIMIZE else gap > 0
+            point = [ours.primal[v.name] for v in model.variables]
+            if better and exact_violation(model, point) == 0:
+                return "suboptimal point"
+            if not better and exact_violation(model, ref_x) > 0:
+                return "infeasible point"
+    return None
 
 
 def exact_violation(model: Model, point) -> Fraction:
     """How far a float point breaks the model's bounds and rows, computed exactly.
 
-    Settles a reference "optimal" against our verified Farkas certificate: scipy's
+    Settles a reference "optimal" against our verified Farkas certificate or a
+    better optimum of ours: scipy's
     HiGHS accepts points within its feasibility tolerance (1e-7), so it can call an
     infeasible model optimal (found by the differential run: min -x1 with x1 >= 0,
     x2 <= 0, 10000 x1 - x2 <= 0 and x1 + 1000 x2 <= -1, where the first row forces

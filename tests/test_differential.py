@@ -14,7 +14,7 @@ from hypothesis import HealthCheck, given, settings
 
 from exactlp.solver import PRICING_RULES
 
-from .helpers import exact_violation, float_ray_holds, scipy_solve, solve_verified
+from .helpers import exact_violation, ray_holds, reference_failure, scipy_solve, solve_verified
 from .strategies import lp_models
 
 EXAMPLES = int(os.environ.get("EXACTLP_DIFF_EXAMPLES", "500"))
@@ -26,10 +26,8 @@ EXAMPLES = int(os.environ.get("EXACTLP_DIFF_EXAMPLES", "500"))
 def test_random_models_agree_with_scipy(model):
     ours = solve_verified(model)
     ref_status, ref_obj, ref_x = scipy_solve(model, with_point=True)
-    if ours.status.value == "unbounded" and ref_status == "optimal" and float_ray_holds(model, ours.ray):
-        return  # a documented failure of the reference (see float_ray_holds); our ray is verified
-    if ours.status.value == "infeasible" and ref_status == "optimal" and exact_violation(model, ref_x) > 0:
-        return  # the reference's "optimal" point breaks a rule (see exact_violation); our Farkas proof is verified
+    if reference_failure(model, ours, ref_status, ref_obj, ref_x):
+        return  # a documented failure of the reference, settled in Fractions; ours is verified
     assert ours.status.value == ref_status, (ours.status, ref_status)
     if ref_obj is not None:
         ours_f = float(ours.objective)
@@ -57,15 +55,18 @@ def test_random_models_with_the_warm_start_forced(model):
 
 
 def test_documented_reference_failures():
-    # Two models where scipy's HiGHS (1.17.1) is wrong and exactlp's certificate is
-    # right; each was found by the long differential run (DEVELOPERS.md).
+    # Four models where scipy's HiGHS (1.17.1) is wrong and exactlp's certificate is
+    # right; each was found by the long differential run (DEVELOPERS.md), and each
+    # is settled in Fractions by tests/helpers.py's reference_failure.
+    from fractions import Fraction as F
+
     from exactlp.io import model_from_text
 
     ray_case = model_from_text(
         "minimize: -1/100000 x3\nvariables: {x2: free, x3: {}}\nconstraints:\n"
         "  r0: x2 + 1000 x3 <= 0\n  r1: x2 + 1000 x3 <= 0\n  r2: x2 + 1000 x3 <= 0\n")
     ours = solve_verified(ray_case)
-    assert ours.status.value == "unbounded" and float_ray_holds(ray_case, ours.ray)
+    assert ours.status.value == "unbounded" and ray_holds(ray_case, ours.ray)
     tolerance_case = model_from_text(
         "minimize: -x1\nvariables: {x1: {}, x2: {lower: -inf, upper: 0}}\nconstraints:\n"
         "  r0: 10000 x1 - x2 <= 0\n  r2: x1 + 1000 x2 <= -1\n")
@@ -74,3 +75,30 @@ def test_documented_reference_failures():
     status, _, point = scipy_solve(tolerance_case, with_point=True)
     if status == "optimal":  # the reference accepts a point that breaks a bound
         assert exact_violation(tolerance_case, point) > 0
+    # unbounded along x0 = 10^9/3, x2 = 100/3, x3 = 1, whose second row is exactly
+    # 0 and came out about -6e-11 in floats (the float recheck this helper had
+    # refused the ray); the reference says optimal at 0
+    long_ray = model_from_text(
+        "maximize: x2\nvariables: {x0: {}, x1: {}, x2: {}, x3: {}}\nconstraints:\n"
+        "  r0: 3 x2 - 100 x3 <= 0\n  r1: 1/1000 x0 - 10000 x2 >= 0\n")
+    ours = solve_verified(long_ray)
+    assert ours.status.value == "unbounded"
+    assert ours.ray == {"x0": F(10**9, 3), "x2": F(100, 3), "x3": F(1)} and ray_holds(long_ray, ours.ray)
+    assert not ray_holds(long_ray, {"x0": F(10**9, 3) - 1, "x2": F(100, 3), "x3": F(1)})  # r1 < 0 along it
+    status, obj, point = scipy_solve(long_ray, with_point=True)
+    if status == "optimal":
+        assert reference_failure(long_ray, ours, status, obj, point) == "missed ray"
+    # the optimum x4 = 1, x2 = -1000, x1 = 10^6 (objective -1/10); the reference
+    # stops at x4 = 1e-6 (objective -1e-7), a feasible point but not the optimum
+    short = model_from_text(
+        "minimize: -1/10 x4\nvariables: {x0: {}, x1: {}, x2: free, x3: {}, x4: {upper: 1}, x5: {}}\n"
+        "constraints:\n" + "".join(f"  r{i}: 0 <= -x1 - 1000 x2 + x4 <= 1\n" for i in (0, 1, 2, 4))
+        + "  r3: x2 + 1000 x4 <= 0\n")
+    ours = solve_verified(short)
+    assert ours.status.value == "optimal" and ours.objective == F(-1, 10)
+    assert (ours.primal["x4"], ours.primal["x2"], ours.primal["x1"]) == (1, -1000, 10**6)
+    status, obj, point = scipy_solve(short, with_point=True)
+    if status == "optimal" and obj > -0.1 + 1e-7:
+        assert reference_failure(short, ours, status, obj, point) == "suboptimal point"
+    # and a reference that agreed would not be called wrong
+    assert reference_failure(short, ours, "optimal", -0.1, [0.0, 1e6, -1000.0, 0.0, 1.0, 0.0]) is None
