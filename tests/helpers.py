@@ -71,13 +71,16 @@ def scipy_solve(model: Model, with_point: bool = False):
         kw["c"] = [0.0]
         kw["bounds"] = [(0, 0)]
     r = linprog(**kw)
-    if r.status == 2:
+    if r.status in (2, 3):
         # scipy 1.17.1's HiGHS presolve calls some unbounded models infeasible
         # (found by tests/test_differential.py, e.g. maximize x2 subject to
-        # 0 <= x0 + x1 - x2 <= 1, x >= 0; and min -x0 with an all-zero row).  With
-        # presolve off it answers correctly, so an "infeasible" is taken from the
-        # reference only when it holds without presolve as well -- unless that run
-        # gives no definite answer (status 4 on a model with an all-zero row 0 <= -1).
+        # 0 <= x0 + x1 - x2 <= 1, x >= 0; and min -x0 with an all-zero row), and
+        # some infeasible ones unbounded (found by the long differential run:
+        # min -x0 with x2 free, -100000 x2 >= 1 and -x1 + x2 / 1000 >= 0, x1 >= 0,
+        # where x0 meets no row).  With presolve off it answers correctly, so an
+        # "infeasible" or "unbounded" is taken from the reference only when it
+        # holds without presolve as well -- unless that run gives no definite
+        # answer (status 4 on a model with an all-zero row 0 <= -1).
         again = linprog(**kw, options={"presolve": False})
         if again.status in (0, 2, 3):
             r = again

@@ -55,7 +55,7 @@ def test_random_models_with_the_warm_start_forced(model):
 
 
 def test_documented_reference_failures():
-    # Four models where scipy's HiGHS (1.17.1) is wrong and exactlp's certificate is
+    # Five models where scipy's HiGHS (1.17.1) is wrong and exactlp's certificate is
     # right; each was found by the long differential run (DEVELOPERS.md), and each
     # is settled in Fractions by tests/helpers.py's reference_failure.
     from fractions import Fraction as F
@@ -102,3 +102,20 @@ def test_documented_reference_failures():
         assert reference_failure(short, ours, status, obj, point) == "suboptimal point"
     # and a reference that agreed would not be called wrong
     assert reference_failure(short, ours, "optimal", -0.1, [0.0, 1e6, -1000.0, 0.0, 1.0, 0.0]) is None
+    # infeasible (x2 <= -1/100000 by r0-r3, then x1 <= x2 / 1000 < 0 by r4), but
+    # x0 meets no row and its cost pulls it up: the reference's presolve says
+    # unbounded (with one copy of r0 it says infeasible), and tests/helpers.py's
+    # scipy_solve asks again without presolve
+    from scipy.optimize import linprog
+
+    from .helpers import to_linprog
+
+    hidden = model_from_text(
+        "minimize: -x0\nvariables: {x0: {}, x1: {}, x2: free}\nconstraints:\n"
+        + "".join(f"  r{i}: -100000 x2 >= 1\n" for i in range(4)) + "  r4: -x1 + 1/1000 x2 >= 0\n")
+    ours = solve_verified(hidden)
+    assert ours.status.value == "infeasible"
+    assert ours.farkas_rows == {"r0": 1, "r1": 1, "r2": 1, "r3": 1, "r4": 400_000_000}
+    kw, _ = to_linprog(hidden)
+    if linprog(**kw).status == 3:  # (the presolve's answer, as found)
+        assert scipy_solve(hidden)[0] == "infeasible"

@@ -74,7 +74,7 @@ MODELS = [_dense_mixed(12, 16, seed=1), _dense_mixed(25, 30, seed=2), _dense_mix
 def test_steered_path_ends_on_the_exact_optimum(monkeypatch, model):
     # every basis gets a short copy (STEER_BITS 0), and check_updates compares
     # the short reduced costs with the exact ones before every pivot (within
-    # 2^80 units of 2^-SHIFT, times 1 + |d_j|): the same status and optimum as
+    # 2^-160, times 1 + |d_j|): the same status and optimum as
     # the exact path, a verified certificate, and Fractions out
     monkeypatch.setattr(steer_module, "STEER_BITS", 0)
     monkeypatch.setattr(simplex_module.Simplex, "check_updates", True)
@@ -87,6 +87,65 @@ def test_steered_path_ends_on_the_exact_optimum(monkeypatch, model):
         assert all(type(v) is F for v in (*r.primal.values(), *r.duals.values(), *r.reduced_costs.values()))
     if model in MODELS:
         assert r.status is exactlp.Status.OPTIMAL and len(updates) > 5
+
+
+WIDE = model_from_text(
+    "minimize: -x0\nvariables: {x0: {}, x1: {}, x2: free, x3: {}, x4: free, x5: {}}\nconstraints:\n"
+    "  r0: -100000 x4 + x5 >= 1\n  r1: x2 - x4 <= 0\n  r2: -100000 x4 + x5 >= 1\n"
+    "  r3: -100000 x4 + x5 >= 1\n  r4: 1/100000 x2 + 10000 x5 >= 0\n")
+
+
+def _forced_as_the_long_run(mp) -> None:
+    """The settings of ``tests/long_differential.py --forced``: integer rows from
+    the first step, every solve scaled, a short copy of every factorisation and
+    a factorisation every 3 updates, the updates checked."""
+    from exactlp.solver import basis as basis_module
+
+    mp.setattr(basis_module, "INT_ROWS_BITS", 0)
+    for name in ("SCALE_BITS", "SCALE_MIN_SEEN", "SCALE_SPREAD"):
+        mp.setattr(basis_module, name, 0)
+    for name in ("SCALE_RATIO", "SCALE_MAX_BITS"):
+        mp.setattr(basis_module, name, 10**9)
+    mp.setattr(steer_module, "STEER_BITS", 0)
+    mp.setattr(simplex_module, "refactor_every", lambda m, scaled: 3)
+    mp.setattr(simplex_module.Simplex, "check_updates", True)
+
+
+def test_short_values_on_coefficients_of_ten_to_the_five_and_minus_five(monkeypatch):
+    # Found by the forced differential run (thirty-second session): with entries
+    # of 10^5 and 10^-5 the short reduced cost of a column whose exact one is 0
+    # came out 2^-239.6 off, past the check's old bound of 2^-240 and far inside
+    # what the reading needs (under half the grid, 2^-129: SNAP).  The check now
+    # allows 2^-160 times 1 + |d_j|; the worst error met is pinned, the outcome
+    # is the exact path's (unbounded, with a verified ray), and an error of
+    # 2^-150 put into one short value is still caught.
+    _forced_as_the_long_run(monkeypatch)
+    worst = []
+    check = steer_module.SteeredPricing._steer_check
+
+    def measuring(self, cost, sd):
+        exact = self._reduced_costs(cost, self._duals(cost))
+        k = shadow.SHIFT
+        worst.append(max((abs(v - (e.numerator << k) // e.denominator) for v, e in zip(sd, exact)
+                          if v is not None), default=0))
+        return check(self, cost, sd)
+
+    monkeypatch.setattr(steer_module.SteeredPricing, "_steer_check", measuring)
+    r = solve_verified(WIDE, warm_start=False)
+    assert r.status is exactlp.Status.UNBOUNDED and r.status is _exact_path(WIDE).status
+    assert len(worst) == 2 and max(worst).bit_length() == 81  # 2^80 <= error < 2^81 units of 2^-320
+    assert max(worst) < 1 << (steer_module.SNAP - 32)
+
+    update = steer_module.SteeredPricing._steer_update
+
+    def spoiling(self, sd, *a, **kw):
+        update(self, sd, *a, **kw)
+        j = next(j for j, v in enumerate(sd) if v is not None and self.state[j] != simplex_module.BASIC)
+        sd[j] += 1 << (shadow.SHIFT - 150)
+
+    monkeypatch.setattr(steer_module.SteeredPricing, "_steer_update", spoiling)
+    with pytest.raises(AssertionError, match="steered reduced costs drifted"):
+        exactlp.solve(WIDE, warm_start=False)
 
 
 def test_steered_optimum_matches_scipy():
