@@ -180,6 +180,39 @@ def ray_holds(model: Model, ray: dict) -> bool:
     return (slope < 0) if model.sense is Sense.MINIMIZE else (slope > 0)
 
 
+def farkas_holds(model: Model, rows: dict) -> bool:
+    """Do the row multipliers ``rows`` prove the model infeasible, checked in
+    Fractions from the model alone (no code shared with exactlp's verifier)?
+
+    Each row ``l <= a x <= u`` is weighed by its multiplier ``y`` (a positive
+    one on its lower side, a negative one on its upper), each variable by
+    ``mu_j = -(A^T y)_j`` on its bounds the same way, so the weighted rows and
+    bounds add up to ``0 >= r``; the proof holds when every side used is
+    finite and ``r > 0``.
+    """
+    y = {k: Fraction(v) for k, v in rows.items()}
+    g = {v.name: Fraction(0) for v in model.variables}
+    r = Fraction(0)
+    for c in model.constraints:
+        w = y.get(c.name, 0)
+        if not w:
+            continue
+        side = c.lower if w > 0 else c.upper
+        if side is None:
+            return False
+        r += w * side
+        for n, k in c.terms:
+            g[n] += w * k
+    for v in model.variables:
+        mu = -g[v.name]
+        if mu:
+            side = v.lower if mu > 0 else v.upper
+            if side is None:
+                return False
+            r += mu * side
+    return r > 0
+
+
 def reference_failure(model: Model, ours, ref_status: str, ref_obj, ref_x) -> str | None:
     """Why the float reference's answer is wrong where it differs from ours, or
     None when nothing here explains the difference (the caller then fails).
@@ -194,7 +227,12 @@ def reference_failure(model: Model, ours, ref_status: str, ref_obj, ref_x) -> st
     relative tolerance, and our point exactly feasible, so the reference stopped
     short (found by the differential run: minimize -x4 / 10 with x4 <= 1, x2
     free, x2 + 1000 x4 <= 0 and 0 <= -x1 - 1000 x2 + x4 <= 1; the optimum is
-    x4 = 1, x2 = -1000, x1 = 10^6, where HiGHS returned x4 = 1e-6); ``"no
+    x4 = 1, x2 = -1000, x1 = 10^6, where HiGHS returned x4 = 1e-6); ``"missed
+    infeasibility"``: the reference says unbounded, with and without its
+    presolve (:func:`scipy_solve`), and our Farkas multipliers hold
+    (:func:`farkas_holds`; found by the differential run: min -x0 - x1 with x2
+    fixed at 1 and 10000 x1 + x2 / 1000 <= 0, x1 >= 0, three times; its
+    presolve says infeasible, and without presolve it says unbounded); ``"no
     answer"``: the reference gave no definite status.
     """
     if ref_status.startswith("scipy-status-"):
@@ -204,6 +242,9 @@ def reference_failure(model: Model, ours, ref_status: str, ref_obj, ref_x) -> st
         return "missed ray"
     if ours_status == "infeasible" and ref_status == "optimal" and exact_violation(model, ref_x) > 0:
         return "infeasible point"
+    if ours_status == "infeasible" and ref_status == "unbounded" and ours.crossed is None \
+            and farkas_holds(model, ours.farkas_rows):
+        return "missed infeasibility"
     if ours_status == ref_status == "optimal" and ref_obj is not None:
         gap = float(ours.objective) - ref_obj
         if abs(gap) > 1e-6 * max(1.0, abs(ref_obj)):

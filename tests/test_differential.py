@@ -14,7 +14,7 @@ from hypothesis import HealthCheck, given, settings
 
 from exactlp.solver import PRICING_RULES
 
-from .helpers import exact_violation, ray_holds, reference_failure, scipy_solve, solve_verified
+from .helpers import exact_violation, farkas_holds, ray_holds, reference_failure, scipy_solve, solve_verified
 from .strategies import lp_models
 
 EXAMPLES = int(os.environ.get("EXACTLP_DIFF_EXAMPLES", "500"))
@@ -25,6 +25,11 @@ EXAMPLES = int(os.environ.get("EXACTLP_DIFF_EXAMPLES", "500"))
 @given(lp_models())
 def test_random_models_agree_with_scipy(model):
     ours = solve_verified(model)
+    # each proof again in Fractions by the helpers, which share no code with the verifier
+    if ours.status.value == "infeasible" and ours.crossed is None:
+        assert farkas_holds(model, ours.farkas_rows)
+    if ours.status.value == "unbounded":
+        assert ray_holds(model, ours.ray)
     ref_status, ref_obj, ref_x = scipy_solve(model, with_point=True)
     if reference_failure(model, ours, ref_status, ref_obj, ref_x):
         return  # a documented failure of the reference, settled in Fractions; ours is verified
@@ -55,7 +60,7 @@ def test_random_models_with_the_warm_start_forced(model):
 
 
 def test_documented_reference_failures():
-    # Five models where scipy's HiGHS (1.17.1) is wrong and exactlp's certificate is
+    # Six models where scipy's HiGHS (1.17.1) is wrong and exactlp's certificate is
     # right; each was found by the long differential run (DEVELOPERS.md), and each
     # is settled in Fractions by tests/helpers.py's reference_failure.
     from fractions import Fraction as F
@@ -116,6 +121,20 @@ def test_documented_reference_failures():
     ours = solve_verified(hidden)
     assert ours.status.value == "infeasible"
     assert ours.farkas_rows == {"r0": 1, "r1": 1, "r2": 1, "r3": 1, "r4": 400_000_000}
+    assert farkas_holds(hidden, ours.farkas_rows)
     kw, _ = to_linprog(hidden)
     if linprog(**kw).status == 3:  # (the presolve's answer, as found)
         assert scipy_solve(hidden)[0] == "infeasible"
+    # infeasible (x1 <= -1/10^7 with x1 >= 0), but x0 meets no row: here the
+    # reference's presolve says infeasible and its run without presolve, which
+    # scipy_solve then takes, unbounded; our Farkas multipliers hold in Fractions
+    fixed = model_from_text(
+        "minimize: -x0 - x1\nvariables: {x0: {}, x1: {}, x2: {fixed: 1}}\nconstraints:\n"
+        + "".join(f"  r{i}: 10000 x1 + 1/1000 x2 <= 0\n" for i in range(3)))
+    ours = solve_verified(fixed)
+    assert ours.status.value == "infeasible" and farkas_holds(fixed, ours.farkas_rows)
+    assert not farkas_holds(fixed, {"r0": F(1)})  # the lower side of r0 is infinite
+    assert not farkas_holds(fixed, {name: -v for name, v in ours.farkas_rows.items()})
+    status, obj, point = scipy_solve(fixed, with_point=True)
+    if status == "unbounded":
+        assert reference_failure(fixed, ours, status, obj, point) == "missed infeasibility"
