@@ -232,8 +232,12 @@ def reference_failure(model: Model, ours, ref_status: str, ref_obj, ref_x) -> st
     presolve (:func:`scipy_solve`), and our Farkas multipliers hold
     (:func:`farkas_holds`; found by the differential run: min -x0 - x1 with x2
     fixed at 1 and 10000 x1 + x2 / 1000 <= 0, x1 >= 0, three times; its
-    presolve says infeasible, and without presolve it says unbounded); ``"no
-    answer"``: the reference gave no definite status.
+    presolve says infeasible, and without presolve it says unbounded); ``"missed
+    feasible point"``: the reference says infeasible, with and without its
+    presolve, and our point is exactly feasible (found by the differential
+    run: min -x1 with x0 >= 1 and 100000 x0 - x1 / 100000 <= 0, which
+    x0 = 1, x1 = 10^10 meets); ``"no answer"``: the reference gave no definite
+    status.
     """
     if ref_status.startswith("scipy-status-"):
         return "no answer"  # (status 4, numerical difficulties: seen on entries of 1e4 and 1e-4 together)
@@ -245,6 +249,9 @@ def reference_failure(model: Model, ours, ref_status: str, ref_obj, ref_x) -> st
     if ours_status == "infeasible" and ref_status == "unbounded" and ours.crossed is None \
             and farkas_holds(model, ours.farkas_rows):
         return "missed infeasibility"
+    if ours_status in ("optimal", "unbounded") and ref_status == "infeasible" \
+            and exact_violation(model, [ours.primal[v.name] for v in model.variables]) == 0:
+        return "missed feasible point"
     if ours_status == ref_status == "optimal" and ref_obj is not None:
         gap = float(ours.objective) - ref_obj
         if abs(gap) > 1e-6 * max(1.0, abs(ref_obj)):

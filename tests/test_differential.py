@@ -60,7 +60,7 @@ def test_random_models_with_the_warm_start_forced(model):
 
 
 def test_documented_reference_failures():
-    # Six models where scipy's HiGHS (1.17.1) is wrong and exactlp's certificate is
+    # Seven models where scipy's HiGHS (1.17.1) is wrong and exactlp's certificate is
     # right; each was found by the long differential run (DEVELOPERS.md), and each
     # is settled in Fractions by tests/helpers.py's reference_failure.
     from fractions import Fraction as F
@@ -138,3 +138,15 @@ def test_documented_reference_failures():
     status, obj, point = scipy_solve(fixed, with_point=True)
     if status == "unbounded":
         assert reference_failure(fixed, ours, status, obj, point) == "missed infeasibility"
+    # unbounded along x1 from x0 = 1, x1 = 10^10 (x1 >= 10^10 x0 by r1): the
+    # reference says infeasible, with and without its presolve
+    far = model_from_text(
+        "minimize: -x1\nvariables: {x0: {}, x1: {}}\nconstraints:\n  r0: -x0 <= -1\n"
+        "  r1: 100000 x0 - 1/100000 x1 <= 0\n  r2: -x0 <= -1\n  r3: x0 + x1 >= 0\n")
+    ours = solve_verified(far)
+    assert ours.status.value == "unbounded" and ours.primal == {"x0": 1, "x1": 10**10}
+    assert ray_holds(far, ours.ray) and exact_violation(far, [F(1), F(10**10)]) == 0
+    assert exact_violation(far, [F(1), F(10**10) - 1]) == F(1, 100000)  # r1 broken by 1/100000
+    status, obj, point = scipy_solve(far, with_point=True)
+    if status == "infeasible":
+        assert reference_failure(far, ours, status, obj, point) == "missed feasible point"
