@@ -213,6 +213,49 @@ def farkas_holds(model: Model, rows: dict) -> bool:
     return r > 0
 
 
+def optimum_holds(model: Model, result) -> bool:
+    """Is ``result``'s optimum proven by its own point and duals, checked in
+    Fractions from the model alone (no code shared with exactlp's verifier)?
+
+    Weak duality, written for ``min c x`` (a maximum is the minimum of ``-c``,
+    its duals negated): a row's dual ``y_i`` weighs its lower side when
+    positive, its upper side when negative; each variable's reduced cost
+    ``c_j - (A^T y)_j`` weighs its lower bound when positive, its upper when
+    negative; every side used must be finite, and the weighted sum is then a
+    lower bound on every feasible ``c x``.  The point must be exactly feasible
+    and reach that bound, and the stated objective must be its value.
+    """
+    sgn = 1 if model.sense is Sense.MINIMIZE else -1
+    x = {v.name: Fraction(result.primal[v.name]) for v in model.variables}
+    if exact_violation(model, [x[v.name] for v in model.variables]) != 0:
+        return False
+    value = sum((k * x[n] for n, k in model.objective), Fraction(0))
+    if result.objective != value + model.objective_constant:
+        return False
+    g = {v.name: Fraction(0) for v in model.variables}
+    for n, k in model.objective:
+        g[n] += sgn * k
+    bound = Fraction(0)
+    for c in model.constraints:
+        y = sgn * Fraction(result.duals.get(c.name, 0))
+        if not y:
+            continue
+        side = c.lower if y > 0 else c.upper
+        if side is None:
+            return False
+        bound += y * side
+        for n, k in c.terms:
+            g[n] -= y * k
+    for v in model.variables:
+        d = g[v.name]
+        if d:
+            side = v.lower if d > 0 else v.upper
+            if side is None:
+                return False
+            bound += d * side
+    return bound == sgn * value
+
+
 def reference_failure(model: Model, ours, ref_status: str, ref_obj, ref_x) -> str | None:
     """Why the float reference's answer is wrong where it differs from ours, or
     None when nothing here explains the difference (the caller then fails).
@@ -236,7 +279,12 @@ def reference_failure(model: Model, ours, ref_status: str, ref_obj, ref_x) -> st
     feasible point"``: the reference says infeasible, with and without its
     presolve, and our point is exactly feasible (found by the differential
     run: min -x1 with x0 >= 1 and 100000 x0 - x1 / 100000 <= 0, which
-    x0 = 1, x1 = 10^10 meets); ``"no answer"``: the reference gave no definite
+    x0 = 1, x1 = 10^10 meets); ``"missed optimum"``: the reference says
+    infeasible or unbounded, and our point and duals prove the optimum
+    (:func:`optimum_holds`; found by the differential run: min -x6 with x2
+    free, 0 <= -1000 x2 + x6 <= 1, x6 <= x1 and -x0 - 200000 x1 - x2 <= 0
+    beside 100000 x0 + x1 / 100 + x2 <= 0, which the reference calls
+    unbounded); ``"no answer"``: the reference gave no definite
     status.
     """
     if ref_status.startswith("scipy-status-"):
@@ -249,6 +297,8 @@ def reference_failure(model: Model, ours, ref_status: str, ref_obj, ref_x) -> st
     if ours_status == "infeasible" and ref_status == "unbounded" and ours.crossed is None \
             and farkas_holds(model, ours.farkas_rows):
         return "missed infeasibility"
+    if ours_status == "optimal" and ref_status in ("infeasible", "unbounded") and optimum_holds(model, ours):
+        return "missed optimum"
     if ours_status in ("optimal", "unbounded") and ref_status == "infeasible" \
             and exact_violation(model, [ours.primal[v.name] for v in model.variables]) == 0:
         return "missed feasible point"

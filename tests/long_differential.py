@@ -21,7 +21,7 @@ import time
 from pathlib import Path
 from hypothesis import given, settings, HealthCheck
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
-from tests.helpers import farkas_holds, ray_holds, reference_failure, scipy_solve, solve_verified
+from tests.helpers import farkas_holds, optimum_holds, ray_holds, reference_failure, scipy_solve, solve_verified
 from tests.strategies import lp_models
 N = int(sys.argv[1])
 if "--forced" in sys.argv[2:]:
@@ -77,6 +77,8 @@ def run(model):
         assert farkas_holds(model, ours.farkas_rows)  # (in Fractions, no code shared with the verifier)
     if ours.status.value == "unbounded":
         assert ray_holds(model, ours.ray)
+    if ours.status.value == "optimal":
+        assert optimum_holds(model, ours)
     st, obj, ref_x = scipy_solve(model, with_point=True)
     why = reference_failure(model, ours, st, obj, ref_x)
     if why:

@@ -14,7 +14,8 @@ from hypothesis import HealthCheck, given, settings
 
 from exactlp.solver import PRICING_RULES
 
-from .helpers import exact_violation, farkas_holds, ray_holds, reference_failure, scipy_solve, solve_verified
+from .helpers import (exact_violation, farkas_holds, optimum_holds, ray_holds, reference_failure, scipy_solve,
+                      solve_verified)
 from .strategies import lp_models
 
 EXAMPLES = int(os.environ.get("EXACTLP_DIFF_EXAMPLES", "500"))
@@ -30,6 +31,8 @@ def test_random_models_agree_with_scipy(model):
         assert farkas_holds(model, ours.farkas_rows)
     if ours.status.value == "unbounded":
         assert ray_holds(model, ours.ray)
+    if ours.status.value == "optimal":
+        assert optimum_holds(model, ours)
     ref_status, ref_obj, ref_x = scipy_solve(model, with_point=True)
     if reference_failure(model, ours, ref_status, ref_obj, ref_x):
         return  # a documented failure of the reference, settled in Fractions; ours is verified
@@ -60,7 +63,7 @@ def test_random_models_with_the_warm_start_forced(model):
 
 
 def test_documented_reference_failures():
-    # Seven models where scipy's HiGHS (1.17.1) is wrong and exactlp's certificate is
+    # Eight models where scipy's HiGHS (1.17.1) is wrong and exactlp's certificate is
     # right; each was found by the long differential run (DEVELOPERS.md), and each
     # is settled in Fractions by tests/helpers.py's reference_failure.
     from fractions import Fraction as F
@@ -150,3 +153,21 @@ def test_documented_reference_failures():
     status, obj, point = scipy_solve(far, with_point=True)
     if status == "infeasible":
         assert reference_failure(far, ours, status, obj, point) == "missed feasible point"
+    # optimal at x1 = x6 = 1/11, x2 = -1/1100 (objective -1/11): the reference
+    # says unbounded; our point and duals prove the optimum in Fractions, and a
+    # stated objective one part in 10^9 lower would not be proven
+    import dataclasses
+
+    cut = model_from_text(
+        "minimize: -x6\nvariables: {x0: {}, x1: {}, x2: free, x3: {}, x4: {}, x5: {}, x6: {}}\n"
+        "constraints:\n" + "".join(f"  r{i}: -x0 - 200000 x1 - x2 <= 0\n" for i in (0, 1, 4, 6))
+        + "  r2: 100000 x0 + 1/100 x1 + x2 <= 0\n  r3: 0 <= -1000 x2 + x6 <= 1\n  r5: -x1 + x6 <= 0\n")
+    ours = solve_verified(cut)
+    assert ours.status.value == "optimal" and ours.objective == F(-1, 11)
+    assert (ours.primal["x1"], ours.primal["x2"], ours.primal["x6"]) == (F(1, 11), F(-1, 1100), F(1, 11))
+    assert optimum_holds(cut, ours)
+    assert not optimum_holds(cut, dataclasses.replace(ours, objective=ours.objective - F(1, 10**9)))
+    assert not optimum_holds(cut, dataclasses.replace(ours, duals={**ours.duals, "r5": F(-1, 11)}))
+    status, obj, point = scipy_solve(cut, with_point=True)
+    if status in ("unbounded", "infeasible"):
+        assert reference_failure(cut, ours, status, obj, point) == "missed optimum"
