@@ -188,6 +188,64 @@ def test_bland_as_the_last_resort_of_the_dual(monkeypatch):
     assert "dual bland (last resort)" in seen
 
 
+def _covering(seed: int) -> str:
+    """A small covering model (invented numbers): costs of 0, 1 or 2 on
+    ``x >= 0`` and rows ``... >= b``, so the slack basis is dual feasible and
+    the dual phase starts; the zero costs make many of its pivots degenerate."""
+    import random
+
+    rng = random.Random(seed)
+    n, m = rng.randint(3, 6), rng.randint(3, 6)
+    text = "minimize: " + " + ".join(f"{rng.choice([0, 0, 1, 2])} x{j}" for j in range(n)) + "\nvariables:\n"
+    text += "".join(f"  x{j}: {{}}\n" for j in range(n)) + "constraints:\n"
+    for i in range(m):
+        terms = " + ".join(f"{rng.choice([1, 1, 2])} x{j}" for j in rng.sample(range(n), rng.randint(1, 3)))
+        text += f"  r{i}: {terms} >= {rng.randint(1, 3)}\n"
+    return text
+
+
+@pytest.mark.parametrize("guard", [0, 1, 2])
+def test_bland_takes_over_after_exactly_the_guard_run_of_degenerate_dual_pivots(monkeypatch, guard):
+    # GUARD_RUN_FACTOR (m + 1) = guard: a dual pivot is Bland's choice exactly
+    # when more than `guard` degenerate dual pivots come right before it (a
+    # pivot with a nonzero dual step ends the run and hands back), read from
+    # the log's own flags; every outcome the same as Bland's rule throughout
+    seen = {"bland": 0, "run_without_bland": 0}
+    for seed in range(100):
+        m = model_from_text(_covering(seed))
+        monkeypatch.setattr(simplex_module, "GUARD_RUN_FACTOR", F(guard, len(m.constraints) + 1))
+        r, events = _events(m)
+        run = 0
+        for e in (e for e in events if isinstance(e, Pivot) and e.rule.startswith("dual")):
+            assert (e.rule == "dual bland (last resort)") == (run > guard), (seed, e)
+            seen["bland"] += run > guard
+            seen["run_without_bland"] += 0 < run <= guard
+            run = run + 1 if e.degenerate else 0
+        assert r.objective == exactlp.solve(m, warm_start=False, pricing="bland").objective
+    assert seen["bland"] >= 4 and (guard == 0 or seen["run_without_bland"] >= 10), seen
+
+
+@pytest.mark.parametrize("budget", [1, 2, 3])
+def test_the_dual_phase_makes_exactly_its_budget_of_pivots_before_giving_way(monkeypatch, budget):
+    # DUAL_LIMIT_FACTOR (m + columns) = budget: a dual phase that needs more
+    # pivots makes exactly `budget` of them, then the primal method starts
+    # again from the slack basis and reaches the same optimum
+    m = model_from_text(DUAL_FEASIBLE)
+    _, events = _events(m)
+    needed = sum(1 for e in events if isinstance(e, Pivot) and e.rule.startswith("dual"))
+    assert needed == 3
+    ncols = len(m.variables) + len(m.constraints)  # (the slack basis: one logical a row)
+    monkeypatch.setattr(dual_module, "DUAL_LIMIT_FACTOR", F(budget, len(m.constraints) + ncols))
+    r, events = _events(m)
+    dual = [e for e in events if isinstance(e, Pivot) and e.rule.startswith("dual")]
+    starts = [e for e in events if isinstance(e, Start)]
+    if budget < needed:
+        assert len(dual) == budget and len(starts) == 2 and starts[1].artificial_rows
+    else:
+        assert len(dual) == needed and len(starts) == 1
+    assert r.objective == exactlp.solve(m, warm_start=False, pricing="bland").objective
+
+
 def test_the_dual_phase_gives_way_to_the_primal_method_when_its_budget_runs_out(monkeypatch):
     monkeypatch.setattr(dual_module, "DUAL_LIMIT_FACTOR", 0)
     m = model_from_text(DUAL_FEASIBLE)
