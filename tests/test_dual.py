@@ -1166,3 +1166,58 @@ def test_short_tau_on_a_basis_of_long_numbers():
     assert events == events0 and r.objective == r0.objective and type(r.objective) is F
     assert r.pivots_phase1 == r0.pivots_phase1 > 250 and r.bound_flips == r0.bound_flips > 100
     assert sum(used) > 150 and len(used) == r.pivots_phase1
+
+
+FALLING = """
+minimize: -x1
+variables:
+  x1: {lower: 0, upper: 10}
+constraints:
+  cap: x1 <= 4
+"""
+
+
+def test_a_dual_pivot_logs_which_way_its_entering_column_moves():
+    # worked by hand: FLIPS's x3 rises from 0 to 3 (direction 1, step 3); here
+    # x1 starts at its upper bound 10 (its cost -1 prefers it), the row cap
+    # reads 10 > 4, and x1 enters falling by 6 to 4 (direction -1, step 6, the
+    # dual step |d_q / alpha_pq| = 1)
+    _, events = _events(model_from_text(FLIPS))
+    (piv,) = [e for e in events if isinstance(e, Pivot)]
+    assert (piv.direction, piv.step) == (1, 3)
+    r, events = _events(model_from_text(FALLING))
+    (piv,) = [e for e in events if isinstance(e, Pivot)]
+    assert (piv.rule, piv.entering, piv.leaving, piv.leaving_bound) == ("dual", ("x1", "variable"), ("cap", "slack"), "upper")
+    assert (piv.direction, piv.step, piv.ratio, piv.reduced_cost) == (-1, 6, 1, -1)
+    assert r.objective == -4 and dict(r.primal) == {"x1": 4}
+
+
+def test_every_number_an_event_carries_is_a_fraction():
+    # the listener is public (scripts read it): exact values reach it as
+    # Fractions, never as the solver's own mpq, on the dual and primal paths,
+    # with the tableau shown
+    from dataclasses import fields
+
+    def numbers(v):
+        if isinstance(v, (tuple, list)):
+            for w in v:
+                yield from numbers(w)
+        elif isinstance(v, dict):
+            for k, w in v.items():
+                yield from numbers(k)
+                yield from numbers(w)
+        elif not isinstance(v, (str, bool, type(None))):
+            yield v
+
+    mpq_type = type(mpq(0))
+    kinds = set()
+    for text in [DUAL_FEASIBLE, INFEASIBLE, FLIPS, FALLING] + [k[1] for k in KNOWN]:
+        for tableau in (False, True):
+            _, events = _events(model_from_text(text), tableau=tableau)
+            for e in events:
+                for f in fields(e):
+                    for v in numbers(getattr(e, f.name)):
+                        assert type(v) is not mpq_type, (e, f.name)
+                        assert type(v) in (F, int), (e, f.name, type(v))
+                kinds.add(type(e).__name__)
+    assert {"Start", "Pivot", "PhaseEnd", "Finish"} <= kinds

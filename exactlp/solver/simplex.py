@@ -650,7 +650,7 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
                                       "the repair from the suggested basis stalled")
                 self._setup()
             elif self.listener:
-                self.listener(PhaseEnd(1, ZERO, self.pivots[1]))
+                self.listener(PhaseEnd(1, frac(ZERO), self.pivots[1]))
         if self.dual_cost is not None:
             if not self._primal_infeasible():
                 self.dual_cost = None  # the slack basis is feasible already: phase 2 as usual
@@ -668,7 +668,7 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
                     return self._finish(out)
                 else:
                     if self.listener:
-                        self.listener(PhaseEnd(1, ZERO, self.pivots[1]))
+                        self.listener(PhaseEnd(1, frac(ZERO), self.pivots[1]))
                     return self._phase_two()
         ncol = len(self.cols)
         phase = 1 if self.artificials else 2
