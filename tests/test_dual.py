@@ -209,7 +209,9 @@ def test_bland_takes_over_after_exactly_the_guard_run_of_degenerate_dual_pivots(
     # GUARD_RUN_FACTOR (m + 1) = guard: a dual pivot is Bland's choice exactly
     # when more than `guard` degenerate dual pivots come right before it (a
     # pivot with a nonzero dual step ends the run and hands back), read from
-    # the log's own flags; every outcome the same as Bland's rule throughout
+    # the log's own flags; every outcome the same as Bland's rule throughout,
+    # and every leaving row, Bland's included, the one a scan of the rows picks
+    monkeypatch.setattr(simplex_module.Simplex, "check_updates", True)  # (Bland's choice against a scan too)
     seen = {"bland": 0, "run_without_bland": 0}
     for seed in range(100):
         m = model_from_text(_covering(seed))
@@ -1027,6 +1029,13 @@ def test_the_dual_ratio_test_with_flips_divides_lazily_and_chooses_as_in_full():
         counts["none"] += want[0] == -1
         counts["long"] += len(want[1]) >= 3
     assert counts["flips"] > 100 and counts["long"] > 40 and counts["none"] > 20
+    # exact values pass a group while any rate is left, however little: column 0
+    # (ratio 1, span 1) leaves 2^-70 of the rate 1 + 2^-70, so it is flipped and
+    # column 1 (ratio 2, no upper bound) enters; a rate left of exactly 0 stops
+    fake = Fake([1, 1], [mpq(0), mpq(0)], [mpq(1), None])
+    row, d = {0: 1, 1: 1}, [mpq(1), mpq(2)]
+    assert dual_module.DualPhase._dual_entering(fake, row, d, 1, False, 1 + mpq(1, 2**70)) == (1, [0])
+    assert dual_module.DualPhase._dual_entering(fake, row, d, 1, False, mpq(1)) == (0, [])
 
 
 def test_fixed_point_is_the_floor_of_the_exact_value():
@@ -1190,6 +1199,12 @@ def test_a_dual_pivot_logs_which_way_its_entering_column_moves():
     assert (piv.rule, piv.entering, piv.leaving, piv.leaving_bound) == ("dual", ("x1", "variable"), ("cap", "slack"), "upper")
     assert (piv.direction, piv.step, piv.ratio, piv.reduced_cost) == (-1, 6, 1, -1)
     assert r.objective == -4 and dict(r.primal) == {"x1": 4}
+    # with cap: 2 x1 <= 8 the pivot is alpha_pq = 2 (the slack's row of B^-1 is
+    # -1, times -2): the dual step is |d_q / alpha_pq| = 1/2, x1 still falls by 6
+    r, events = _events(model_from_text(FALLING.replace("x1 <= 4", "2 x1 <= 8")))
+    (piv,) = [e for e in events if isinstance(e, Pivot)]
+    assert (piv.direction, piv.step, piv.ratio, piv.reduced_cost) == (-1, 6, F(1, 2), -1)
+    assert r.objective == -4
 
 
 def test_every_number_an_event_carries_is_a_fraction():
@@ -1221,3 +1236,76 @@ def test_every_number_an_event_carries_is_a_fraction():
                         assert type(v) in (F, int), (e, f.name, type(v))
                 kinds.add(type(e).__name__)
     assert {"Start", "Pivot", "PhaseEnd", "Finish"} <= kinds
+
+
+def test_weights_on_integers_match_the_rule_in_fractions_on_drawn_values():
+    # DualPhase._weights_on_integers called directly, against the update
+    # written out in Fractions: for each i != p with alpha_i != 0, c = head[i],
+    # r = _round(alpha_i / alpha_p), beta_c + r^2 bp - 2 r t, with t =
+    # _round(tau_i / tscale) (or tau_i / 2^SHIFT as it is, from the short
+    # copies: tscale None), put back to the floor of c when under it, else
+    # rounded to 64 bits.  Values are drawn dyadic (as the kept weights,
+    # floors and bp always are) over exponents far apart, so every order of the
+    # exponents of the weight, r^2 bp, the tau term and the floor is met, and
+    # sums that need 65 or 66 bits before rounding
+    import random
+
+    from exactlp.solver import shadow
+
+    rnd = dual_module._round
+
+    class Fake(dual_module.DualPhase):
+        def __init__(self, beta, head, floors):
+            self.dual_weights, self.head, self._floors = beta, head, floors
+
+        def _beta_floor(self, c):
+            return self._floors[c]
+
+    def dyadic(rng, lo, hi):
+        m = rng.randint(1, 2**rng.randint(1, 66))
+        e = rng.randint(lo, hi)
+        return rnd(m, 1) * (mpq(2) ** e)
+
+    rng = random.Random(20261205)
+    counts = {"floor": 0, "short": 0, "exact": 0, "no_tau": 0}
+    for _ in range(1500):
+        m = rng.randint(2, 6)
+        head = list(range(10, 10 + m))
+        beta = [mpq(0)] * 10 + [dyadic(rng, -90, 20) for _ in range(m)]
+        floors = {c: dyadic(rng, -100, 10) for c in head}
+        p = rng.randrange(m)
+        alpha = {i: mpq(rng.choice([-1, 1]) * rng.randint(1, 10**rng.randint(1, 25)), rng.randint(1, 10**rng.randint(0, 25)))
+                 for i in range(m) if rng.random() < 0.8 or i == p}
+        if rng.random() < 0.2:
+            alpha[rng.randrange(m)] = mpq(0)
+            alpha[p] = alpha.get(p) or mpq(3)
+        ap = alpha[p]
+        apn, apd = (ap.numerator, ap.denominator) if ap > 0 else (-ap.numerator, -ap.denominator)
+        bp = dyadic(rng, -80, 10)
+        short = rng.random() < 0.4
+        tscale = None if short else mpz(rng.randint(1, 10**rng.randint(0, 20)))
+        tau = {}
+        for i in range(m):
+            if rng.random() < 0.7:
+                tau[i] = (rng.choice([-1, 1]) * rng.randint(0, 2**rng.randint(1, 400)) if short else
+                          mpq(rng.choice([-1, 1]) * rng.randint(1, 10**rng.randint(1, 30)), rng.randint(1, 10**9)))
+        want = list(beta)
+        for i, a in alpha.items():
+            if i == p or not a:
+                continue
+            c = head[i]
+            r = rnd(a.numerator * apd, a.denominator * apn)
+            t = tau.get(i)
+            new = beta[c] + r * r * bp
+            if t:
+                new -= 2 * r * (mpq(t, 2**shadow.SHIFT) if short else rnd(t.numerator, t.denominator * tscale))
+            lo = floors[c]
+            counts["floor"] += new < lo
+            counts["no_tau"] += not t
+            counts["short" if short else "exact"] += bool(t)
+            want[c] = lo if new < lo else rnd(new.numerator, new.denominator)
+        fake = Fake(list(beta), head, floors)
+        fake._weights_on_integers(alpha, p, apn, apd, tau, tscale, bp)
+        assert fake.dual_weights == want
+        assert all(type(w) is type(mpq(0)) for w in fake.dual_weights[10:])
+    assert min(counts.values()) >= 200, counts
