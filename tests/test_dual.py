@@ -267,6 +267,11 @@ def test_weights_are_rounded_towards_zero_to_64_bits():
     assert r(-1, 3) == -r(1, 3)
     assert r(0, 7) == 0 and type(r(0, 7)) is type(mpq(0))
     assert r(2**100, 1) == 2**100  # exact: fewer bits than kept
+    # whole numbers around 2^64, where the exponent of what is kept passes 0: up
+    # to 65 bits they stay exact, past that the low bits go (truncated), and
+    # the result is whole, never a fraction
+    for n, want in ((2**63 + 1, 2**63 + 1), (2**64 + 1, 2**64 + 1), (2**65 + 3, 2**65 + 2), (2**66 + 7, 2**66 + 4)):
+        assert r(n, 1) == want and r(n, 1).denominator == 1, n
     for n, d in ((10**40 + 1, 3), (7, 10**30), (2**64 + 1, 1), (123456789, 987654321)):
         v, exact = r(n, d), mpq(n, d)
         ulp = mpq(2) ** (n.bit_length() - d.bit_length() - 64)
