@@ -1199,6 +1199,11 @@ def test_a_dual_pivot_logs_which_way_its_entering_column_moves():
     _, events = _events(model_from_text(FLIPS))
     (piv,) = [e for e in events if isinstance(e, Pivot)]
     assert (piv.direction, piv.step) == (1, 3)
+    # with r >= 5/2 instead: x1 and x2 are flipped the same way, leaving x3 to
+    # rise by 1/2 (a step under 1 is still direction 1)
+    _, events = _events(model_from_text(FLIPS.replace(">= 5", ">= 5/2")))
+    (piv,) = [e for e in events if isinstance(e, Pivot)]
+    assert (piv.direction, piv.step, len(piv.flipped)) == (1, F(1, 2), 2)
     r, events = _events(model_from_text(FALLING))
     (piv,) = [e for e in events if isinstance(e, Pivot)]
     assert (piv.rule, piv.entering, piv.leaving, piv.leaving_bound) == ("dual", ("x1", "variable"), ("cap", "slack"), "upper")
