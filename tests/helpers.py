@@ -180,6 +180,33 @@ def ray_holds(model: Model, ray: dict) -> bool:
     return (slope < 0) if model.sense is Sense.MINIMIZE else (slope > 0)
 
 
+def _weighed_sides(model: Model, y: dict, g: dict) -> Fraction | None:
+    """The weak-duality sum shared by :func:`farkas_holds` and
+    :func:`optimum_holds`: each row weighed by its multiplier ``y`` on its lower
+    side when positive, its upper when negative (``y_i a_i`` taken from the
+    running column weights ``g``), then each variable by what is left in ``g``
+    on its lower bound when positive, its upper when negative; None when a side
+    used is infinite."""
+    total = Fraction(0)
+    for c in model.constraints:
+        w = y.get(c.name, 0)
+        if w:
+            side = c.lower if w > 0 else c.upper
+            if side is None:
+                return None
+            total += w * side
+            for n, k in c.terms:
+                g[n] -= w * k
+    for v in model.variables:
+        left = g[v.name]
+        if left:
+            bound = v.lower if left > 0 else v.upper
+            if bound is None:
+                return None
+            total += left * bound
+    return total
+
+
 def farkas_holds(model: Model, rows: dict) -> bool:
     """Do the row multipliers ``rows`` prove the model infeasible, checked in
     Fractions from the model alone (no code shared with exactlp's verifier)?
@@ -190,27 +217,9 @@ def farkas_holds(model: Model, rows: dict) -> bool:
     bounds add up to ``0 >= r``; the proof holds when every side used is
     finite and ``r > 0``.
     """
-    y = {k: Fraction(v) for k, v in rows.items()}
-    g = {v.name: Fraction(0) for v in model.variables}
-    r = Fraction(0)
-    for c in model.constraints:
-        w = y.get(c.name, 0)
-        if not w:
-            continue
-        side = c.lower if w > 0 else c.upper
-        if side is None:
-            return False
-        r += w * side
-        for n, k in c.terms:
-            g[n] += w * k
-    for v in model.variables:
-        mu = -g[v.name]
-        if mu:
-            side = v.lower if mu > 0 else v.upper
-            if side is None:
-                return False
-            r += mu * side
-    return r > 0
+    r = _weighed_sides(model, {k: Fraction(v) for k, v in rows.items()},
+                       {v.name: Fraction(0) for v in model.variables})
+    return r is not None and r > 0
 
 
 def optimum_holds(model: Model, result) -> bool:
@@ -235,25 +244,8 @@ def optimum_holds(model: Model, result) -> bool:
     g = {v.name: Fraction(0) for v in model.variables}
     for n, k in model.objective:
         g[n] += sgn * k
-    bound = Fraction(0)
-    for c in model.constraints:
-        y = sgn * Fraction(result.duals.get(c.name, 0))
-        if not y:
-            continue
-        side = c.lower if y > 0 else c.upper
-        if side is None:
-            return False
-        bound += y * side
-        for n, k in c.terms:
-            g[n] -= y * k
-    for v in model.variables:
-        d = g[v.name]
-        if d:
-            side = v.lower if d > 0 else v.upper
-            if side is None:
-                return False
-            bound += d * side
-    return bound == sgn * value
+    bound = _weighed_sides(model, {k: sgn * Fraction(v) for k, v in result.duals.items()}, g)
+    return bound is not None and bound == sgn * value
 
 
 def reference_failure(model: Model, ours, ref_status: str, ref_obj, ref_x) -> str | None:

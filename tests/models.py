@@ -138,3 +138,16 @@ variables:
 constraints:
   r: x1 + x2 + x3 >= 5
 """
+
+
+def drawn_text(rng, n: int, m: int, cost, coef, relation: str, rhs, row: str = "r") -> str:
+    """A small random model's text (invented numbers): ``minimize`` the costs
+    ``cost()`` over ``x0 .. x(n-1) >= 0``, and ``m`` rows of one to three terms
+    with coefficients ``coef()``, each ``relation rhs()``; every draw from
+    ``rng``, in a fixed order."""
+    text = "minimize: " + " + ".join(f"{cost()} x{j}" for j in range(n)) + "\nvariables:\n"
+    text += "".join(f"  x{j}: {{}}\n" for j in range(n)) + "constraints:\n"
+    for i in range(m):
+        terms = " + ".join(f"{coef()} x{j}" for j in rng.sample(range(n), rng.randint(1, 3)))
+        text += f"  {row}{i}: {terms} {relation} {rhs()}\n"
+    return text

@@ -194,14 +194,12 @@ def _covering(seed: int) -> str:
     the dual phase starts; the zero costs make many of its pivots degenerate."""
     import random
 
+    from .models import drawn_text
+
     rng = random.Random(seed)
     n, m = rng.randint(3, 6), rng.randint(3, 6)
-    text = "minimize: " + " + ".join(f"{rng.choice([0, 0, 1, 2])} x{j}" for j in range(n)) + "\nvariables:\n"
-    text += "".join(f"  x{j}: {{}}\n" for j in range(n)) + "constraints:\n"
-    for i in range(m):
-        terms = " + ".join(f"{rng.choice([1, 1, 2])} x{j}" for j in rng.sample(range(n), rng.randint(1, 3)))
-        text += f"  r{i}: {terms} >= {rng.randint(1, 3)}\n"
-    return text
+    return drawn_text(rng, n, m, lambda: rng.choice([0, 0, 1, 2]), lambda: rng.choice([1, 1, 2]), ">=",
+                      lambda: rng.randint(1, 3))
 
 
 @pytest.mark.parametrize("guard", [0, 1, 2])
@@ -1300,20 +1298,15 @@ def test_weights_on_integers_match_the_rule_in_fractions_on_drawn_values():
                 tau[i] = (rng.choice([-1, 1]) * rng.randint(0, 2**rng.randint(1, 400)) if short else
                           mpq(rng.choice([-1, 1]) * rng.randint(1, 10**rng.randint(1, 30)), rng.randint(1, 10**9)))
         want = list(beta)
-        for i, a in alpha.items():
-            if i == p or not a:
-                continue
-            c = head[i]
-            r = rnd(a.numerator * apd, a.denominator * apn)
+        for i, a in ((i, a) for i, a in alpha.items() if i != p and a):
+            r = rnd(a.numerator * apd, a.denominator * apn)  # alpha_i / alpha_p, rounded
             t = tau.get(i)
-            new = beta[c] + r * r * bp
-            if t:
-                new -= 2 * r * (mpq(t, 2**shadow.SHIFT) if short else rnd(t.numerator, t.denominator * tscale))
-            lo = floors[c]
-            counts["floor"] += new < lo
+            term = 0 if not t else mpq(t, 2**shadow.SHIFT) if short else rnd(t.numerator, t.denominator * tscale)
+            new = beta[head[i]] + r * (r * bp - 2 * term)
+            counts["floor"] += new < floors[head[i]]
             counts["no_tau"] += not t
             counts["short" if short else "exact"] += bool(t)
-            want[c] = lo if new < lo else rnd(new.numerator, new.denominator)
+            want[head[i]] = floors[head[i]] if new < floors[head[i]] else rnd(new.numerator, new.denominator)
         fake = Fake(list(beta), head, floors)
         fake._weights_on_integers(alpha, p, apn, apd, tau, tscale, bp)
         assert fake.dual_weights == want

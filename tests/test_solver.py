@@ -651,15 +651,13 @@ def test_ratio_test_and_its_tie_breaks_match_the_rule_written_out():
     from exactlp.solver import simplex as sm
     from exactlp.solver.form import build_form
 
+    from .models import drawn_text
+
     rng = random.Random(2026)
     seen = {"lex_basic": 0, "lex_nonbasic": 0, "lex_to_the_flip": 0, "flip": 0, "large": 0, "unbounded": 0, "plain": 0}
     for trial in range(800):
         m, n = rng.randint(3, 6), rng.randint(4, 8)
-        text = "minimize: " + " + ".join(f"x{i}" for i in range(n)) + "\nvariables:\n"
-        text += "".join(f"  x{i}: {{}}\n" for i in range(n)) + "constraints:\n"
-        for i in range(m):
-            terms = " + ".join(f"{rng.choice([1, 1, 2, 3])} x{k}" for k in rng.sample(range(n), rng.randint(1, 3)))
-            text += f"  c{i}: {terms} <= 100\n"
+        text = drawn_text(rng, n, m, lambda: 1, lambda: rng.choice([1, 1, 2, 3]), "<=", lambda: 100, row="c")
         sx = sm.Simplex(build_form(model_from_text(text)))
         ncol = len(sx.cols)
         while True:
