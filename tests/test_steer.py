@@ -439,3 +439,48 @@ def test_near_ratio_rounds_to_the_bits_of_the_value():
     assert near(t * (1 + mpq(1, 1 << 200))) == near(t) == near(t * (1 - mpq(1, 1 << 200)))
     top = near(mpq((1 << 80) - 1))  # rounds up to the next power of two
     assert top == 1 << 80 and type(top) is type(mpq(0))
+
+
+@pytest.mark.parametrize("spoil", ["flips overshoot", "wrong sign after flips"])
+def test_wrong_short_flips_are_undone_and_counted_once(monkeypatch, spoil):
+    # the ratio test on short values made to answer wrongly at one pivot with
+    # bound flips: flips that carry the leaving row past its bound (every boxed
+    # candidate of the row flipped), or the flips it found beside an entering
+    # column whose pivot has the wrong sign.  The flips are undone, the pivot
+    # is made again on exact values, and the count of flips is the exact
+    # path's: each flip undone is taken off with its undoing
+    from exactlp.solver import dual as dual_module
+
+    _short_everywhere(monkeypatch)
+    plain = dual_module.DualPhase._dual_entering
+    done: list = []
+    spoiled: list = []
+
+    def spoiling(self, row, d, s, bland, slope=None, near=None, arrays=None):
+        q, flips = plain(self, row, d, s, bland, slope, near, arrays)
+        if near is None or spoiled:
+            return q, flips
+        done.append(1)
+        lo, up = steer_module.AT_LOWER, steer_module.AT_UPPER
+        boxed = [j for j, v in row.items() if self.lower[j] is not None and self.upper[j] is not None
+                 and ((self.state[j] == lo and s * v > 0) or (self.state[j] == up and s * v < 0))]
+        if spoil == "flips overshoot" and len(boxed) >= 2:
+            spoiled.append(len(boxed))
+            return q, boxed
+        if spoil == "wrong sign after flips" and flips:
+            wrong = [j for j, v in row.items() if (self.state[j] == lo and s * v < 0)
+                     or (self.state[j] == up and s * v > 0)]
+            if wrong:
+                spoiled.append(len(flips))
+                return wrong[0], flips
+        return q, flips
+
+    monkeypatch.setattr(dual_module.DualPhase, "_dual_entering", spoiling)
+    returns = _count(monkeypatch, "_unsteered")
+    model = DUAL_MODELS[0]
+    r, _ = _events(model)
+    monkeypatch.setattr(steer_module, "STEER_DUAL", False)
+    r0, _ = _events(model)
+    assert spoiled and len(returns) == 1
+    assert r.status is exactlp.Status.OPTIMAL and r.objective == r0.objective
+    assert r.bound_flips == r0.bound_flips
