@@ -1080,6 +1080,109 @@ def _tau_checked(monkeypatch):
     return seen
 
 
+def _two_blocks():
+    """An exact LU of a basis of two independent 2 x 2 blocks (invented entries):
+    columns 0 and 1 touch rows 0 and 1 only, columns 2 and 3 rows 2 and 3 only;
+    returns the factorisation, its position -> column list and the columns."""
+    from exactlp.solver.basis import factor_lu
+
+    cols = [[(0, mpq(3)), (1, mpq(5, 7))], [(0, mpq(2, 9)), (1, mpq(11))],
+            [(2, mpq(13, 4)), (3, mpq(1))], [(2, mpq(6)), (3, mpq(17, 3))]]
+    cols += [[(i, mpq(-1))] for i in range(4)]
+    unit = {4 + i: (i, -1) for i in range(4)}
+    basis, head = factor_lu(4, [0, 1, 2, 3], cols, unit)
+    return basis, head, cols
+
+
+def test_short_copy_measures_every_entry_of_the_factors():
+    # ShortFactors.of copies the factors when their entries average min_bits
+    # bits or more, numerator and denominator together, over every entry of L's
+    # steps and of U's columns, the diagonal included (the count is the basis's
+    # own lu_nonzeros, kept apart); exactly at the average a copy is made, one
+    # bit above it none.  A one-entry basis 5/3 holds 3 + 2 bits.
+    from exactlp.solver import shadow
+    from exactlp.solver.basis import factor_lu
+
+    basis, _, _ = _two_blocks()
+    entries = [x for _, steps in basis.lsteps for _, x in steps]
+    entries += [u for _, ukk, above in basis.ucols for u in [ukk] + [x for _, x in above]]
+    bits = sum(x.numerator.bit_length() + x.denominator.bit_length() for x in entries)
+    assert len(entries) == basis.lu_nonzeros and any(basis.lsteps[k][1] for k in range(len(basis.lsteps)))
+    short = shadow.ShortFactors.of(basis, 0)
+    assert short.size == (bits, basis.lu_nonzeros) and short.etas == [] and short.updates == 0
+    average = bits // basis.lu_nonzeros  # (rounded down: the average is not whole here)
+    assert bits % basis.lu_nonzeros and shadow.ShortFactors.of(basis, average).size == (bits, basis.lu_nonzeros)
+    assert shadow.ShortFactors.of(basis, average + 1) is None
+    one, _ = factor_lu(1, [0], [[(0, mpq(5, 3))], [(0, mpq(-1))]], {1: (0, -1)})
+    assert shadow.ShortFactors.of(one, 5).size == (5, 1)
+    assert shadow.ShortFactors.of(one, 6) is None
+    made = shadow.ShortFactors(one, [], [], size=(12, 4))
+    assert made.long_enough(3) and not made.long_enough(4)
+
+
+def test_short_solves_keep_the_blocks_apart():
+    # B^-1 of a block-diagonal basis is block diagonal: a vector on one block's
+    # rows solves to that block's positions only, in both directions, and so
+    # after an eta on that block; no unit of 2^-SHIFT leaks into the other
+    # block (each result a dictionary of the nonzero entries only).  The values
+    # are the exact solves' to within 2^-300 (each operation loses at most
+    # one unit of 2^-SHIFT = 2^-320)
+    from exactlp.solver import shadow
+
+    basis, head, cols = _two_blocks()
+    short = shadow.ShortFactors.of(basis, 0)
+    one, unit = 1 << shadow.SHIFT, mpq(1, 1 << shadow.SHIFT)
+    first = {p for p, c in enumerate(head) if c in (0, 1)}
+    near = lambda got, exact: all(abs(mpq(got.get(i, 0)) * unit - exact.get(i, 0)) < mpq(1, 1 << 300)  # noqa: E731
+                                  for i in set(got) | set(exact))
+
+    def check() -> None:
+        got = short.solve({1: one})  # the unit vector of row 1
+        assert got and set(got) <= first and near(got, basis.ftran([(1, mpq(1))]))
+        p = min(first)
+        back = short.solve_t({p: one})  # row p of B^-1, by row
+        assert back and set(back) <= {0, 1}
+        assert near(back, dict(enumerate(basis.btran({p: mpq(1)}))))
+        assert short.solve({}) == {} and short.solve_t({}) == {}
+
+    check()
+    col = [(0, mpq(1, 2)), (1, mpq(4))]  # a column of the first block enters
+    alpha = basis.ftran(col)
+    p = min(first)
+    ap = alpha[p]
+    short.add_eta(p, shadow.fixed(ap.denominator, ap.numerator),
+                  [(i, shadow.fixed(a.numerator * ap.denominator, a.denominator * ap.numerator))
+                   for i, a in alpha.items() if i != p])
+    basis.replace(p, alpha, col)
+    assert short.updates == basis.updates == 1 and len(short.etas) == 1
+    check()
+
+
+def test_short_copy_is_made_once_for_a_factorisation_and_its_fresh_copies():
+    # the probes of allocation ranges each pivot on a fresh copy of one basis:
+    # the fixed-point factors are made once and shared, each copy with its own
+    # etas; a basis whose lists are not those the copy was made from (L's or
+    # U's) gets a copy of its own, made from its lists; an updated basis gets none
+    from exactlp.solver import shadow
+
+    basis, _, _ = _two_blocks()
+    twin = basis.fresh_copy()
+    a, b = shadow.ShortFactors.of(basis, 0), shadow.ShortFactors.of(twin, 0)
+    assert a.lsteps is b.lsteps and a.ucols is b.ucols and a.etas is not b.etas
+    assert a.basis is basis and b.basis is twin
+    for name in ("lsteps", "ucols"):
+        other = basis.fresh_copy()
+        setattr(other, name, list(getattr(other, name)))  # the same entries, other lists
+        c = shadow.ShortFactors.of(other, 0)
+        assert c.lsteps is not a.lsteps and c.lsteps == a.lsteps and c.ucols == a.ucols
+        again = shadow.ShortFactors.of(basis, 0)  # (one kept at a time: made again for these)
+        assert again.lsteps is not c.lsteps and again.lsteps == c.lsteps
+    col = [(0, mpq(1, 2)), (1, mpq(4))]
+    alpha = twin.ftran(col)
+    twin.replace(min(alpha), alpha, col)
+    assert shadow.ShortFactors.of(twin, 0) is None
+
+
 def test_short_tau_is_the_exact_tau_to_many_bits(monkeypatch):
     # shadow.ShortFactors against the exact ftran of the same vector, from
     # the basis it copies: the LU's solve and each pivot's eta after it.  The

@@ -53,9 +53,9 @@ def _count(monkeypatch, name: str) -> list:
     plain = getattr(steer_module.SteeredPricing, name)
     calls: list = []
 
-    def counting(self, *a):
+    def counting(self, *a, **kw):
         calls.append(1)
-        return plain(self, *a)
+        return plain(self, *a, **kw)
 
     monkeypatch.setattr(steer_module.SteeredPricing, name, counting)
     return calls
@@ -360,14 +360,20 @@ def test_steered_dual_phase_takes_the_exact_path(monkeypatch, model):
     # a short copy of every factorisation (STEER_BITS 0) and the short values
     # checked against the exact ones before every dual pivot: the same pivots,
     # flips, ratios and reduced costs in the log as the exact dual phase (the
-    # ratios and |alpha_pj| read rounded keep the exact ties), the same optimum
+    # ratios and |alpha_pj| read rounded keep the exact ties), the same optimum.
+    # Every short row leads to its pivot: no choice is made again on exact
+    # values (the short values are right here), column 0 among those entering
     _short_everywhere(monkeypatch)
     monkeypatch.setattr(simplex_module.Simplex, "check_updates", True)
     rows = _count(monkeypatch, "_steer_dual_row")
+    updates = _count(monkeypatch, "_steer_update")
+    returns = _count(monkeypatch, "_unsteered")
     r, steered = _events(model)
+    assert len(rows) > 5 and r.bound_flips > 0
+    assert len(updates) == len(rows) and not returns
+    assert ("x0", "variable") in [e for e, *_ in steered[-len(rows):]]
     monkeypatch.setattr(steer_module, "STEER_DUAL", False)
     r0, exact = _events(model)
-    assert len(rows) > 5 and r.bound_flips > 0
     assert steered == exact and r.objective == r0.objective and type(r.objective) is F
 
 
