@@ -1318,6 +1318,66 @@ def test_a_dual_pivot_logs_which_way_its_entering_column_moves():
     assert r.objective == -4
 
 
+def test_a_dual_pivots_tableau_shows_reduced_costs_in_the_models_sense():
+    # worked by hand: maximise x1 + 2 x2 on 0 <= x <= 10 with cap: x1 + x2 <= 4.
+    # Both start at their upper bound 10 (cap reads 20); the dual ratio test
+    # passes x1 (ratio 1, flipped to 0: cap reads 10, still over) and x2
+    # enters falling by 6 (ratio 2), to the optimum x2 = 4, objective 8.  The
+    # tableau before the pivot shows the reduced costs in the model's sense, as
+    # the pivot's own reduced_cost does (they were the minimising form's, -1
+    # and -2, beside a reduced_cost of 2); a minimising model's are as they are
+    text = """
+maximize: x1 + 2 x2
+variables:
+  x1: {lower: 0, upper: 10}
+  x2: {lower: 0, upper: 10}
+constraints:
+  cap: x1 + x2 <= 4
+"""
+    for sense, sign in (("maximize: x1 + 2 x2", 1), ("minimize: -x1 - 2 x2", -1)):
+        r, events = _events(model_from_text(text.replace("maximize: x1 + 2 x2", sense)), tableau=True)
+        (piv,) = [e for e in events if isinstance(e, Pivot)]
+        assert (piv.rule, piv.entering, piv.reduced_cost, piv.ratio) == ("dual", ("x2", "variable"), 2 * sign, 2)
+        assert piv.flipped == ((("x1", "variable"), "lower"),)
+        assert piv.tableau["reduced_costs"] == [sign, 2 * sign, None]
+        assert all(type(v) is F for v in piv.tableau["reduced_costs"][:2])
+        assert r.objective == 8 * sign
+
+
+def test_a_short_choice_is_refused_exactly_where_the_rule_says():
+    # _refused against the rule written out in Fractions, over every state,
+    # both signs of the violation, pivots on both sides of 0 and of +-1, and
+    # reduced costs of each sign: a candidate moves x_b towards its bound
+    # (s alpha_pq > 0 at a lower bound, < 0 at an upper, nonzero if free) with
+    # a nonnegative dual step d_q / (s alpha_pq)
+    lower, upper, free = dual_module.AT_LOWER, dual_module.AT_UPPER, dual_module.AT_ZERO
+    seen = set()
+    for state in (lower, upper, free):
+        for s in (1, -1):
+            for alpha in (F(-3, 2), F(-1, 2), F(0), F(1, 2), F(3, 2)):
+                for dq in (F(-2), F(-1, 3), F(0), F(1, 3), F(2)):
+                    a = s * alpha
+                    moves = a > 0 if state == lower else a < 0 if state == upper else a != 0
+                    want = not moves or dq / a < 0
+                    got = dual_module._refused(state, s, mpq(alpha), mpq(dq))
+                    assert got is want, (state, s, alpha, dq)
+                    seen.add((state, moves, want))
+    # every state met both a column that moves x_b and one that does not, and
+    # a move refused for its dual step
+    assert {(st, mv) for st, mv, _ in seen} == {(st, mv) for st in (lower, upper, free) for mv in (True, False)}
+    assert all((st, True, True) in seen and (st, True, False) in seen for st in (lower, upper, free))
+
+
+def test_flips_overshoot_exactly_where_the_leaving_row_reaches_its_bound():
+    # _overshot against the rule written out: the violation after the flips is
+    # 0 or of the other sign than before them; values on both sides of 0 and
+    # of +-1 (a violation under 1 is still a violation)
+    for was in (F(-3), F(-1, 2), F(1, 2), F(3)):
+        for delta in (F(-5), F(-1), F(-1, 4), F(0), F(1, 4), F(1), F(5)):
+            want = delta == 0 or (delta > 0) != (was > 0)
+            assert dual_module._overshot(mpq(was), mpq(delta)) is want, (was, delta)
+
+
 def test_every_number_an_event_carries_is_a_fraction():
     # the listener is public (scripts read it): exact values reach it as
     # Fractions, never as the solver's own mpq, on the dual and primal paths,

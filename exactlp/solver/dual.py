@@ -107,6 +107,32 @@ LEAVE_HEAP_SLACK = 64
 LEAVE_SCAN_SHARE = 4
 
 
+def _overshot(was: mpq, delta: mpq) -> bool:
+    """After bound flips chosen on short values, with ``was`` the leaving row's
+    violation before them and ``delta`` after: did they carry ``x_b`` onto or
+    past its bound (``delta`` 0, or of the other sign)?  Each flip moves
+    ``x_b`` towards its bound; the exact ratio test stops flipping while some
+    violation is left, so flips that leave none passed a candidate it would
+    have entered."""
+    return not delta or (delta < 0) != (was < 0)
+
+
+def _refused(state: int, s: int, alpha_pq: mpq, dq: mpq) -> bool:
+    """Is the column chosen on short values not a choice the exact ratio test
+    could make?  With ``a = s alpha_pq`` (``s`` the sign of the leaving row's
+    violation), the column moves ``x_b`` towards its bound only if ``a > 0`` at
+    its lower bound, ``a < 0`` at its upper, and ``a != 0`` if free and at 0;
+    and the dual step ``d_q / a`` must be nonnegative, else the step would
+    take the reduced costs out of their signs.  On a basis exactly dual
+    feasible the second test only repeats the first (``d_q >= 0`` at a lower
+    bound, ``<= 0`` at an upper); after a short choice that was not the least
+    ratio it is the one that fails."""
+    a = alpha_pq if s > 0 else -alpha_pq
+    if not (a > 0 if state == AT_LOWER else a < 0 if state == AT_UPPER else a != 0):
+        return True
+    return dq / a < 0
+
+
 def _round_bits(n, d) -> tuple[int, int]:
     """``(m, e)`` with ``m 2^e`` the quotient ``n / d`` (``d > 0``) truncated
     towards zero to ``WEIGHT_BITS`` significant bits (``(0, 0)`` for 0).  Integer
@@ -814,7 +840,7 @@ class DualPhase:
             if flips:
                 self._flip(flips)
                 was, delta = delta, self._violation(self.head[p])  # same sign, closer to its bound
-                if sd is not None and (not delta or (delta < 0) != (was < 0)):
+                if sd is not None and _overshot(was, delta):
                     # the short row passed too many (exactly, x_b came back within
                     # its bound): the flips undone, the pivot again unsteered
                     self._flip(flips)
@@ -838,10 +864,7 @@ class DualPhase:
                 # of the sign its bound needs) and keep the dual step nonnegative,
                 # else the short values are given up and the pivot made again
                 dq = self._steer_dq(cost, q, alpha, ad)
-                a = alpha_pq if s > 0 else -alpha_pq
-                st = self.state[q]
-                if not ((a > 0 if st == AT_LOWER else a < 0 if st == AT_UPPER else a != 0)
-                        and dq / alpha_pq * s >= 0):
+                if _refused(self.state[q], s, alpha_pq, dq):
                     if flips:
                         self._flip(flips)
                         self.flips -= 2 * len(flips)
@@ -857,7 +880,7 @@ class DualPhase:
             theta = delta / alpha_pq  # the entering column's move: puts x_b on its bound
             tab = None
             if self.tableau:
-                tab = self._tableau(d, self._duals(cost), ZERO, 1)
+                tab = self._tableau(d, self.f.sign)  # (the model's objective, in its sense)
             # --- apply the step (x_b lands on its bound exactly) -------------------
             self.iterations += 1
             self.pivots[1] += 1

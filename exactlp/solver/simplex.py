@@ -1396,8 +1396,8 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
                     ray[self.head[p]] = -direction * (a if ad is None else a / ad)
                 return Outcome("unbounded", z, self._duals(cost), ray)
             if self.tableau:
-                yy = self._duals(cost)
-                tab = self._tableau(self._reduced_costs(cost, yy) if partial else d, yy, z, phase)
+                tab = self._tableau(self._reduced_costs(cost, self._duals(cost)) if partial else d,
+                                    1 if phase == 1 else self.f.sign)  # (phase 1's own costs as they are)
             else:
                 tab = None
             if sd is None:
@@ -1486,7 +1486,11 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
         for p, c in enumerate(self.head):
             self.pos_of[c] = p
 
-    def _tableau(self, d, y, z, phase) -> dict:
+    def _tableau(self, d, sign) -> dict:
+        """The tableau before a pivot, for the log: ``B^-1 A`` by rows, the basic
+        values, and the reduced costs ``d`` times ``sign`` (the model's sense for
+        its own objective, as each pivot's ``reduced_cost``; 1 for phase 1's
+        costs of infeasibility)."""
         ncol = len(self.cols)
         if self.m * ncol > TABLEAU_LIMIT:
             return {"omitted": f"the model is larger than {TABLEAU_LIMIT} tableau entries"}
@@ -1496,7 +1500,6 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
         for j in range(ncol):
             for p, a in self.basis.ftran(self.cols[j]).items():
                 rows[p][j] = a
-        sign = 1 if phase == 1 else self.f.sign
         return {
             "columns": [list(self.ref(j)) for j in range(ncol)],
             "basis": [list(self.ref(c)) for c in self.head],
