@@ -22,7 +22,7 @@ from exactlp.solver import shadow
 from exactlp.solver import simplex as simplex_module
 from exactlp.solver import steer as steer_module
 
-from .helpers import always_scaled, scipy_solve, solve_verified
+from .helpers import always_scaled, network, scipy_solve, solve_verified
 from .models import KNOWN
 
 
@@ -313,21 +313,27 @@ def test_dead_zone_is_not_improving():
 # --- the dual phase ---------------------------------------------------------
 
 
-def _dense_dual_feasible(m: int, n: int, seed: int, infeasible: bool = False):
+def _dense_dual_feasible(m: int, n: int, seed: int, infeasible: bool = False, free_every: int = 0,
+                         shrink: int = 1):
     """Minimise positive costs over ``0 <= x <= u`` subject to ``>=`` rows with
     fractional entries (invented numbers): the slack basis is dual feasible, so
     phase 1 is the dual simplex's, with bound flips.  With ``infeasible``, two
     rows more that cannot both hold (the first half of the columns at most
     ``cap``, and at least ``cap + 1`` plus the last column), which the dual
-    phase finds after some pivots."""
+    phase finds after some pivots.  With ``free_every`` k, every k-th column
+    costs nothing (so some dual pivots are degenerate), and with ``shrink`` s
+    every row's entries and side are divided by s (violations under 1)."""
     rnd = random.Random(seed)
     frac = lambda: F(rnd.randint(1, 40), rnd.randint(1, 13))  # noqa: E731
     cols = [f"x{j}" for j in range(n)]
     ub = [rnd.randint(2, 9) for _ in cols]
-    lines = ["minimize: " + " + ".join(f"{frac()} {c}" for c in cols), "variables:"]
+    costs = [frac() for _ in cols]
+    if free_every:
+        costs = [F(0) if j % free_every == 0 else c for j, c in enumerate(costs)]
+    lines = ["minimize: " + " + ".join(f"{c} {x}" for c, x in zip(costs, cols)), "variables:"]
     lines += [f"  {c}: {{upper: {u}}}" for c, u in zip(cols, ub)] + ["constraints:"]
     for i in range(m):
-        coef = {j: frac() for j in range(n) if rnd.random() < 0.6 or j == i % n}
+        coef = {j: frac() / shrink for j in range(n) if rnd.random() < 0.6 or j == i % n}
         terms = " + ".join(f"{a} {cols[j]}" for j, a in coef.items())
         lines.append(f"  r{i}: {terms} >= {sum(coef.values())}")
     if infeasible:
@@ -398,37 +404,143 @@ def test_steered_dual_phase_proves_infeasibility_exactly(monkeypatch):
     assert status == "infeasible"
 
 
-@pytest.mark.parametrize("spoil", ["wrong sign", "none enters"])
-def test_wrong_short_choice_goes_back_to_exact(monkeypatch, spoil):
-    # the ratio test on short values made to answer wrongly at one pivot: a
-    # column whose pivot has the wrong sign for its bound to enter, or none at
-    # all; the exact check refuses the first, the exact row is asked about the
-    # second, the short values are given up either way, and the phase ends on
-    # the exact optimum
+def _traced(monkeypatch, spoil=None) -> list:
+    """The steered dual phase's steps, in order: each ratio test on a short row
+    ("short") or an exact one ("exact"), each short row made ("row"), each
+    set of flips made or undone ("flip"), each exact ``d_q`` of a short choice
+    ("dq"), each pivot's update of the short values ("update") and each return
+    to exact values ("unsteered").  ``spoil(self, row, s, q, flips)`` may answer
+    one short ratio test wrongly: it returns the wrong ``(q, flips)``, marked
+    "spoiled" in the trace, or None to leave the answer as it is."""
     from exactlp.solver import dual as dual_module
 
-    _short_everywhere(monkeypatch)
-    plain = dual_module.DualPhase._dual_entering
-    done: list = []
+    trace: list = []
+    entering = dual_module.DualPhase._dual_entering
 
-    def spoiling(self, row, d, s, bland, slope=None, near=None, arrays=None):
-        got = plain(self, row, d, s, bland, slope, near, arrays)
-        if near is not None:
-            done.append(1)
-            if len(done) == 4:
-                if spoil == "none enters":
-                    return -1, []
-                lo, up = steer_module.AT_LOWER, steer_module.AT_UPPER
-                return next(j for j, v in row.items() if (self.state[j] == lo and s * v < 0)
-                            or (self.state[j] == up and s * v > 0)), []
+    def ratio_test(self, row, d, s, bland, slope=None, near=None, arrays=None):
+        trace.append("exact" if near is None else "short")
+        got = entering(self, row, d, s, bland, slope, near, arrays)
+        if near is not None and spoil is not None and "spoiled" not in trace:
+            wrong = spoil(self, row, s, *got)
+            if wrong is not None:
+                trace.append("spoiled")
+                return wrong
         return got
 
-    monkeypatch.setattr(dual_module.DualPhase, "_dual_entering", spoiling)
-    returns = _count(monkeypatch, "_unsteered")
-    model = DUAL_MODELS[0]
-    r = solve_verified(model, warm_start=False)
-    assert len(done) == 4 and len(returns) == 1  # spoiled once, then unsteered to the end
-    assert r.status is exactlp.Status.OPTIMAL and r.objective == _exact_path(model).objective
+    monkeypatch.setattr(dual_module.DualPhase, "_dual_entering", ratio_test)
+    for cls, name, mark in ((dual_module.DualPhase, "_flip", "flip"),
+                            (steer_module.SteeredPricing, "_steer_dq", "dq"),
+                            (steer_module.SteeredPricing, "_steer_dual_row", "row"),
+                            (steer_module.SteeredPricing, "_steer_update", "update"),
+                            (steer_module.SteeredPricing, "_unsteered", "unsteered")):
+        def step(self, *a, _plain=getattr(cls, name), _mark=mark, **kw):
+            trace.append(_mark)
+            return _plain(self, *a, **kw)
+
+        monkeypatch.setattr(cls, name, step)
+    return trace
+
+
+def _moves(self, j, v, s) -> bool:
+    """Does nonbasic column ``j``, with ``v`` its entry of the leaving row, move
+    ``x_b`` towards its bound (``s`` the violation's sign)?"""
+    st = self.state[j]
+    return (st == steer_module.AT_LOWER and s * v > 0) or (st == steer_module.AT_UPPER and s * v < 0)
+
+
+def _nonbasic_off(self, row, state):
+    """A nonbasic column in ``state`` that the row does not hold (its exact
+    entry 0 there), or None."""
+    from exactlp.solver import dual as dual_module
+
+    return next((j for j in range(len(self.state)) if self.state[j] == state and j not in row
+                 and dual_module.BASIC != self.state[j] and self.lower[j] != self.upper[j]), None)
+
+
+#: each wrong answer of the short ratio test, and the steps that must follow
+#: it: the check that refuses it (the exact d_q of the choice, or the flips'
+#: own check), the flips undone, the short values given up, and the ratio
+#: test made again on the exact row
+SPOILS = {
+    # no column enters: the exact row is asked
+    "none enters": (lambda self, row, s, q, flips: (-1, []) if q >= 0 and not flips else None,
+                    ["unsteered", "exact"]),
+    # a column whose pivot has the wrong sign for its bound
+    "wrong sign": (lambda self, row, s, q, flips: next(
+        ((j, []) for j, v in row.items() if not _moves(self, j, v, s)), None) if not flips else None,
+        ["dq", "unsteered", "exact"]),
+    # a column at its lower bound, or at its upper, whose exact pivot is 0 (no
+    # flips beside it)
+    "zero pivot at lower": (lambda self, row, s, q, flips: (
+        None if (j := _nonbasic_off(self, row, steer_module.AT_LOWER)) is None else (j, [])),
+        ["dq", "unsteered", "exact"]),
+    "zero pivot at upper": (lambda self, row, s, q, flips: (
+        None if (j := _nonbasic_off(self, row, steer_module.AT_UPPER)) is None else (j, [])),
+        ["dq", "unsteered", "exact"]),
+    # every boxed candidate flipped: x_b carried past its bound
+    "flips overshoot": (lambda self, row, s, q, flips: (
+        None if len(boxed := [j for j, v in row.items() if self.lower[j] is not None
+                              and self.upper[j] is not None and _moves(self, j, v, s)]) < 2 else (q, boxed)),
+        ["flip", "flip", "unsteered", "exact"]),
+    # the flips it found (two or more), beside a column of the wrong sign
+    "wrong sign after flips": (lambda self, row, s, q, flips: (
+        None if len(flips) < 2 else next(((j, flips) for j, v in row.items() if not _moves(self, j, v, s)),
+                                         None)),
+        ["flip", "dq", "flip", "unsteered", "exact"]),
+}
+
+
+@pytest.mark.parametrize("spoil", SPOILS)
+def test_a_wrong_short_choice_is_refused_undone_and_made_again_exactly(monkeypatch, spoil):
+    # the ratio test on short values made to answer wrongly once; right after
+    # the wrong answer come exactly the steps that must follow it (SPOILS);
+    # the short values are given up once and for the rest of the phase (no
+    # short row after that), and the phase ends on the exact optimum with the
+    # exact path's count of flips: each flip undone is taken off with its
+    # undoing.  The models, the first that meets the wrong answer's condition:
+    # the two of DUAL_MODELS, one with violations under 1, and a network
+    # (sparse rows: columns at their upper bounds off the leaving row)
+    _short_everywhere(monkeypatch)
+    wrong, after = SPOILS[spoil]
+    trace = _traced(monkeypatch, wrong)
+    for model in DUAL_MODELS + [_dense_dual_feasible(20, 30, seed=1, shrink=1000), network(20, 30)]:
+        trace.clear()
+        r, _ = _events(model)
+        if "spoiled" not in trace:
+            continue
+        k = trace.index("spoiled")
+        assert trace[k + 1:k + 1 + len(after)] == after, trace[k - 3:k + 8]
+        assert trace.count("unsteered") == 1 and "row" not in trace[k:] and "short" not in trace[k + 1:]
+        monkeypatch.setattr(steer_module, "STEER_DUAL", False)
+        r0, _ = _events(model)
+        monkeypatch.setattr(steer_module, "STEER_DUAL", True)
+        assert r.status is exactlp.Status.OPTIMAL and r.objective == r0.objective and type(r.objective) is F
+        assert r.bound_flips == r0.bound_flips
+        return
+    pytest.fail(f"no short ratio test could be spoiled as {spoil!r}")
+
+
+def test_bland_takes_over_from_short_values_at_once(monkeypatch):
+    # GUARD_RUN_FACTOR 0: the first degenerate dual pivot hands over to Bland's
+    # choice, which reads exact values: a degenerate pivot made on short values
+    # is followed at once by the return to exact values (before its event),
+    # and no short row is made after it; the next pivot is Bland's, and the
+    # optimum the exact one
+    from exactlp.solver.events import Pivot
+
+    _short_everywhere(monkeypatch)
+    monkeypatch.setattr(simplex_module, "GUARD_RUN_FACTOR", 0)
+    model = _dense_dual_feasible(40, 50, seed=4, free_every=4)
+    trace = _traced(monkeypatch)
+    r = solve_verified(model, warm_start=False, listener=lambda e: trace.append(
+        (e.rule, e.degenerate) if isinstance(e, Pivot) else None))
+    assert trace.count("unsteered") == 1
+    k = trace.index("unsteered")
+    assert trace[k - 1] == "update" and trace[k + 1] == ("dual", True)
+    assert "short" in trace[:k] and "row" not in trace[k:] and "short" not in trace[k:]
+    later = [e for e in trace[k + 2:] if type(e) is tuple]
+    assert later and later[0][0] == "dual bland (last resort)"
+    assert r.objective == exactlp.solve(model, warm_start=False, pricing="bland").objective
 
 
 def test_near_ratio_rounds_to_the_bits_of_the_value():
@@ -447,46 +559,3 @@ def test_near_ratio_rounds_to_the_bits_of_the_value():
     assert top == 1 << 80 and type(top) is type(mpq(0))
 
 
-@pytest.mark.parametrize("spoil", ["flips overshoot", "wrong sign after flips"])
-def test_wrong_short_flips_are_undone_and_counted_once(monkeypatch, spoil):
-    # the ratio test on short values made to answer wrongly at one pivot with
-    # bound flips: flips that carry the leaving row past its bound (every boxed
-    # candidate of the row flipped), or the flips it found beside an entering
-    # column whose pivot has the wrong sign.  The flips are undone, the pivot
-    # is made again on exact values, and the count of flips is the exact
-    # path's: each flip undone is taken off with its undoing
-    from exactlp.solver import dual as dual_module
-
-    _short_everywhere(monkeypatch)
-    plain = dual_module.DualPhase._dual_entering
-    done: list = []
-    spoiled: list = []
-
-    def spoiling(self, row, d, s, bland, slope=None, near=None, arrays=None):
-        q, flips = plain(self, row, d, s, bland, slope, near, arrays)
-        if near is None or spoiled:
-            return q, flips
-        done.append(1)
-        lo, up = steer_module.AT_LOWER, steer_module.AT_UPPER
-        boxed = [j for j, v in row.items() if self.lower[j] is not None and self.upper[j] is not None
-                 and ((self.state[j] == lo and s * v > 0) or (self.state[j] == up and s * v < 0))]
-        if spoil == "flips overshoot" and len(boxed) >= 2:
-            spoiled.append(len(boxed))
-            return q, boxed
-        if spoil == "wrong sign after flips" and flips:
-            wrong = [j for j, v in row.items() if (self.state[j] == lo and s * v < 0)
-                     or (self.state[j] == up and s * v > 0)]
-            if wrong:
-                spoiled.append(len(flips))
-                return wrong[0], flips
-        return q, flips
-
-    monkeypatch.setattr(dual_module.DualPhase, "_dual_entering", spoiling)
-    returns = _count(monkeypatch, "_unsteered")
-    model = DUAL_MODELS[0]
-    r, _ = _events(model)
-    monkeypatch.setattr(steer_module, "STEER_DUAL", False)
-    r0, _ = _events(model)
-    assert spoiled and len(returns) == 1
-    assert r.status is exactlp.Status.OPTIMAL and r.objective == r0.objective
-    assert r.bound_flips == r0.bound_flips
