@@ -89,6 +89,30 @@ def test_steered_path_ends_on_the_exact_optimum(monkeypatch, model):
         assert r.status is exactlp.Status.OPTIMAL and len(updates) > 5
 
 
+def _primal_path(model):
+    from exactlp.solver.events import Pivot
+
+    events: list = []
+    r = solve_verified(model, warm_start=False, listener=events.append)
+    return r, [(e.phase, e.entering, e.leaving, e.rule, e.ratio, e.reduced_cost) for e in events
+               if isinstance(e, Pivot)]
+
+
+@pytest.mark.parametrize("model", MODELS + [_dense_mixed(30, 40, seed=7)])
+def test_steered_primal_path_is_the_exact_rules_path(monkeypatch, model):
+    # the devex choice made on short values (their scores, the ties by the larger
+    # |d_j| and then the lower index, the weights updated from the short row) is
+    # the exact rule's, pivot for pivot, on these models with fractional
+    # entries: the same entering and leaving columns, rules, ratios and exact
+    # reduced costs in the log as with the short values off
+    monkeypatch.setattr(steer_module, "STEER_BITS", 0)
+    updates = _count(monkeypatch, "_steer_update")
+    r, steered = _primal_path(model)
+    monkeypatch.setattr(steer_module, "STEER_SHORT", False)
+    r0, exact = _primal_path(model)
+    assert len(updates) > 5 and steered == exact and r.objective == r0.objective
+
+
 WIDE = model_from_text(
     "minimize: -x0\nvariables: {x0: {}, x1: {}, x2: free, x3: {}, x4: free, x5: {}}\nconstraints:\n"
     "  r0: -100000 x4 + x5 >= 1\n  r1: x2 - x4 <= 0\n  r2: -100000 x4 + x5 >= 1\n"
