@@ -397,6 +397,49 @@ def test_a_network_solves_on_whole_costs_with_the_lists_pivots_and_flips():
     assert r.status is exactlp.Status.OPTIMAL
 
 
+#: a covering model with two equality rows (invented numbers): their slacks are
+#: fixed at 0 and basic at the start, and the dual phase takes them out
+EQUAL_ROWS = """
+minimize: 2 x0 + 3 x1 + x2 + 4 x3 + x4
+variables:
+  x0: {lower: 0, upper: 5}
+  x1: {lower: 0, upper: 3}
+  x2: {lower: 0, upper: 4}
+  x3: {lower: 0}
+  x4: {lower: 0, upper: 2}
+constraints:
+  r0: x0 + x1 + x2 + x4 >= 3
+  r1: x1 + 2 x3 + x4 = 4
+  r2: x0 - x2 + x3 = 2
+  r3: x2 + x3 + 3 x4 >= 5
+"""
+
+
+def test_a_fixed_column_leaves_the_whole_costs_as_the_list():
+    # a slack fixed at 0 that leaves the basis gets no reduced cost (it can never
+    # enter again): the arrays' update is told so and fits, and the log is the
+    # list's, with every pivot's whole values checked against those priced
+    # afresh (check_updates)
+    model = model_from_text(EQUAL_ROWS)
+    plain = whole.WholeCosts.update
+    fixed: list = []
+
+    def told(self, arrays, scale, q, b, theta, b_fixed):
+        ok = plain(self, arrays, scale, q, b, theta, b_fixed)
+        fixed.append((b_fixed, ok))
+        return ok
+
+    whole.WholeCosts.update = told
+    try:
+        want, got, _ = _logs_both_ways(model, whole.WholeCosts, "of")
+    finally:
+        whole.WholeCosts.update = plain
+    assert got == want and (True, True) in fixed and (False, True) in fixed
+    with whole_costs(True):
+        r = solve_verified(model, warm_start=False)
+    assert r.status is exactlp.Status.OPTIMAL and type(r.objective) is F
+
+
 def test_a_small_models_solve_leaves_numpy_unimported():
     # below MIN_COLUMNS the list of mpq stays, and numpy (the float extra's
     # library, 0.1 s to import) is not loaded by a solve: cases/grants.yaml goes
