@@ -297,7 +297,6 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
         self.weights: list[int] = []
         self.scores: list[int] | None = None
         self.steer_scores: list[int] = []
-        self.steer_returns = 0  # times the short reduced costs were given up (steer.py)
         self._short_of = self._short = None  # the short copy of the factors (dual._short_factors)
         self._partial_start = 0
         self.partial_seen: dict[int, mpq] = {}  # reduced costs of the last full partial-pricing scan
@@ -1366,7 +1365,6 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
                 if self._eligible(q, dq) != direction:
                     sd = d = None
                     steer = False
-                    self.steer_returns += 1
                     continue
             guarded = pricing == "guarded" and not bland_mode
             t, b, bound = self._ratio(q, direction, alpha, rank if guarded else None, prefer_large=guarded,

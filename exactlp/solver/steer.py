@@ -155,9 +155,7 @@ class SteeredPricing:
         return sd
 
     def _unsteered(self, cost: list) -> list:
-        """The short values given up: the exact reduced costs afresh (one btran),
-        and the count of such returns (``steer_returns``) one more."""
-        self.steer_returns += 1
+        """The short values given up: the exact reduced costs afresh (one btran)."""
         return self._reduced_costs(cost, self._duals(cost))
 
     def _steer_check(self, cost: list, sd: list) -> None:
