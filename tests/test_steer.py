@@ -26,11 +26,12 @@ from .helpers import always_scaled, network, scipy_solve, solve_verified
 from .models import KNOWN
 
 
-def _dense_mixed(m: int, n: int, seed: int):
+def _dense_mixed(m: int, n: int, seed: int, equal_every: int = 0):
     """A dense model with fractional entries, some rows at most and some at
     least a bound, feasible at a point of its own (invented numbers): the slack
     basis is not dual feasible (maximise positive costs over ``x >= 0``), so
-    both phases are the primal method's, and its bases carry long numbers."""
+    both phases are the primal method's, and its bases carry long numbers.
+    With ``equal_every`` k, every k-th row is an equality at that point."""
     rnd = random.Random(seed)
     frac = lambda: F(rnd.randint(1, 40), rnd.randint(1, 13))  # noqa: E731
     x0 = [F(rnd.randint(1, 9), rnd.randint(1, 5)) for _ in range(n)]
@@ -41,7 +42,9 @@ def _dense_mixed(m: int, n: int, seed: int):
         coef = {j: frac() for j in range(n) if rnd.random() < 0.6 or i == 0} or {0: F(1)}
         act = sum(a * x0[j] for j, a in coef.items())
         terms = " + ".join(f"{a} {cols[j]}" for j, a in coef.items())
-        if i % 3 == 2:
+        if equal_every and i % equal_every == equal_every - 1:
+            lines.append(f"  r{i}: {terms} = {act}")
+        elif i % 3 == 2:
             lines.append(f"  r{i}: {terms} >= {act - rnd.randint(0, 3)}")
         else:
             lines.append(f"  r{i}: {terms} <= {act + rnd.randint(1, 30)}")
@@ -338,7 +341,7 @@ def test_dead_zone_is_not_improving():
 
 
 def _dense_dual_feasible(m: int, n: int, seed: int, infeasible: bool = False, free_every: int = 0,
-                         shrink: int = 1):
+                         shrink: int = 1, equal_every: int = 0):
     """Minimise positive costs over ``0 <= x <= u`` subject to ``>=`` rows with
     fractional entries (invented numbers): the slack basis is dual feasible, so
     phase 1 is the dual simplex's, with bound flips.  With ``infeasible``, two
@@ -346,7 +349,8 @@ def _dense_dual_feasible(m: int, n: int, seed: int, infeasible: bool = False, fr
     ``cap``, and at least ``cap + 1`` plus the last column), which the dual
     phase finds after some pivots.  With ``free_every`` k, every k-th column
     costs nothing (so some dual pivots are degenerate), and with ``shrink`` s
-    every row's entries and side are divided by s (violations under 1)."""
+    every row's entries and side are divided by s (violations under 1); with
+    ``equal_every`` k every k-th row is an equality (its slack fixed at 0)."""
     rnd = random.Random(seed)
     frac = lambda: F(rnd.randint(1, 40), rnd.randint(1, 13))  # noqa: E731
     cols = [f"x{j}" for j in range(n)]
@@ -359,7 +363,8 @@ def _dense_dual_feasible(m: int, n: int, seed: int, infeasible: bool = False, fr
     for i in range(m):
         coef = {j: frac() / shrink for j in range(n) if rnd.random() < 0.6 or j == i % n}
         terms = " + ".join(f"{a} {cols[j]}" for j, a in coef.items())
-        lines.append(f"  r{i}: {terms} >= {sum(coef.values())}")
+        sense = "=" if equal_every and i % equal_every == equal_every - 1 else ">="
+        lines.append(f"  r{i}: {terms} {sense} {sum(coef.values())}")
     if infeasible:
         half, cap = cols[: n // 2], sum(ub[: n // 2]) // 3
         lines.append(f"  cap: {' + '.join(half)} <= {cap}")
@@ -385,14 +390,16 @@ def _short_everywhere(monkeypatch) -> None:
     monkeypatch.setattr(simplex_module, "refactor_every", lambda m, scaled: 3)
 
 
-@pytest.mark.parametrize("model", DUAL_MODELS)
+@pytest.mark.parametrize("model", DUAL_MODELS + [_dense_dual_feasible(20, 30, seed=1, equal_every=3)])
 def test_steered_dual_phase_takes_the_exact_path(monkeypatch, model):
     # a short copy of every factorisation (STEER_BITS 0) and the short values
     # checked against the exact ones before every dual pivot: the same pivots,
     # flips, ratios and reduced costs in the log as the exact dual phase (the
     # ratios and |alpha_pj| read rounded keep the exact ties), the same optimum.
     # Every short row leads to its pivot: no choice is made again on exact
-    # values (the short values are right here), column 0 among those entering
+    # values (the short values are right here), column 0 among those entering.
+    # (The third model's equality rows: fixed slacks leave on short values and
+    # take no reduced cost, so never enter again, as on the exact path)
     _short_everywhere(monkeypatch)
     monkeypatch.setattr(simplex_module.Simplex, "check_updates", True)
     rows = _count(monkeypatch, "_steer_dual_row")
@@ -584,3 +591,30 @@ def test_near_ratio_rounds_to_the_bits_of_the_value():
     assert top == 1 << 80 and type(top) is type(mpq(0))
 
 
+
+
+def test_short_rows_over_columns_kept_in_fractions_take_the_exact_path(monkeypatch):
+    # DUAL_INTS_SLACK far below 0: every column is kept in fractions (as a column
+    # whose denominators hold many different primes is), so each short row's
+    # entry is summed from the short rho and the column's fractions and floored
+    # (SteeredPricing._steer_sums), not read off the integer rows; the dual and
+    # primal paths are still the exact ones, pivot for pivot
+    from exactlp.solver import rows as rows_module
+
+    _short_everywhere(monkeypatch)
+    monkeypatch.setattr(rows_module, "DUAL_INTS_SLACK", -10**6)
+    kept: list = []
+    plain = steer_module.SteeredPricing._steer_sums
+
+    def sums(self, p):
+        kept.append(len(self._int_rows()[2]) == len(self.cols))
+        return plain(self, p)
+
+    monkeypatch.setattr(steer_module.SteeredPricing, "_steer_sums", sums)
+    for model, path in ((DUAL_MODELS[0], _events), (MODELS[1], _primal_path)):
+        kept.clear()
+        r, steered = path(model)
+        with pytest.MonkeyPatch.context() as mp:
+            mp.setattr(steer_module, "STEER_SHORT", False)
+            r0, exact = path(model)
+        assert len(kept) > 5 and all(kept) and steered == exact and r.objective == r0.objective
