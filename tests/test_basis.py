@@ -464,37 +464,47 @@ def test_row_scaled_copy_gives_up_on_rows_of_many_primes():
         assert dict(fabove) == {rj: u * rowden[rj] for rj, u in above}
 
 
-def factored_pairs(name, seed, count=120):
-    """``(m, cols, [(basis, head), (basis, head)])``: two copies of the named
+#: SPARSE_SOLVE_SHARE for the solves by what a vector reaches: 1 always goes by
+#: the reach, 10**9 never; 2 and 4 go by it for some vectors and stop part of
+#: the way for others (random bases have at most 8 rows)
+SHARES = (1, 2, 4, 10**9)
+
+
+def factored_pairs(name, seed, count=120, copies=2):
+    """``(m, cols, [(basis, head), ...])``: ``copies`` copies of the named
     factorisation of each random basis that is not singular."""
     for m, cols, unit, head in random_bases(count, seed=seed):
         try:
-            yield m, cols, [FACTORS[name](m, head, cols, unit) for _ in range(2)]
+            yield m, cols, [FACTORS[name](m, head, cols, unit) for _ in range(copies)]
         except ArithmeticError:
             continue
 
 
 @pytest.mark.parametrize("name", ["sparse-lu", "sparse-lu-integers", "sparse-lu-ft", "sparse-lu-ft-rows",
                                   "sparse-lu-ft-integers-rows"])
-def test_back_substitution_by_the_columns_reached_is_the_full_one(monkeypatch, name):
+def test_back_substitution_by_the_columns_reached_is_the_full_one(monkeypatch, scale_bits, name):
     # the same ftran (values and the order of its entries) by the columns the
-    # vector reaches (SPARSE_SOLVE_SHARE = 1: always) and by every column (never),
-    # on two copies of each factorisation taken through the same updates, scaled
-    # and unscaled; the result also solves B x = a exactly
+    # vector reaches (SPARSE_SOLVE_SHARE = 1: always), by every column (10**9:
+    # never) and either way by the vector (2, 4), on copies of each
+    # factorisation taken through the same updates, scaled and unscaled (with
+    # every solve scaled, U's integer copy is made, and the unscaled solves that
+    # follow must still go by U's own columns); the result also solves B x = a
+    # exactly
     rng = random.Random(11)
     compared = 0
-    for m, cols, pair in factored_pairs(name, seed=5):
+    for m, cols, pair in factored_pairs(name, seed=5, copies=len(SHARES)):
         for step in range(7):
             j = rng.randrange(len(cols))
             outs = []
-            for (b, h), share in zip(pair, (1, 10**9)):
+            for (b, h), share in zip(pair, SHARES):
                 monkeypatch.setattr(basis_module, "SPARSE_SOLVE_SHARE", share)
                 outs.append(list(b.ftran(cols[j]).items()))
                 scaled = getattr(b, "ftran_scaled", None)
                 if scaled is not None:
                     w, d = scaled(cols[j])
                     outs.append((list(w.items()), d))
-            assert outs[: len(outs) // 2] == outs[len(outs) // 2:]
+            k = len(outs) // len(SHARES)
+            assert all(outs[i * k:(i + 1) * k] == outs[:k] for i in range(len(SHARES)))
             x = dict(outs[0])
             h = pair[0][1]
             got = {}
@@ -517,16 +527,18 @@ def test_back_substitution_by_the_columns_reached_is_the_full_one(monkeypatch, n
 def test_row_of_the_inverse_by_what_it_reaches_is_the_dense_one(monkeypatch, scale_bits, name):
     # btran_unit(p) gives the nonzeros of the dense btran of e_p, in increasing
     # position, by the rows it reaches in U and L (SPARSE_SOLVE_SHARE = 1:
-    # always) and by the dense solves (10**9: never), on two copies of each
-    # factorisation taken through the same updates; and rho B = e_p exactly
+    # always), by the dense solves (10**9: never) and by the reach through U
+    # and then densely through L when L's reach passes its share (2, 4), on
+    # copies of each factorisation taken through the same updates; and
+    # rho B = e_p exactly
     rng = random.Random(13)
     compared = sparse_nonzero = 0
-    for m, cols, pair in factored_pairs(name, seed=9):
+    for m, cols, pair in factored_pairs(name, seed=9, copies=len(SHARES)):
         for step in range(6):
             h = pair[0][1]
             for p in range(m):
                 outs = []
-                for (b, _), share in zip(pair, (1, 10**9)):
+                for (b, _), share in zip(pair, SHARES):
                     monkeypatch.setattr(basis_module, "SPARSE_SOLVE_SHARE", share)
                     outs.append(b.btran_unit(p))
                     dense, d = b.btran_scaled({p: mpq(1)})
