@@ -589,3 +589,62 @@ def test_refactoring_by_the_rows_changes_no_pivot_on_a_network(monkeypatch):
         counts.append(seen)
     assert runs[0] == runs[1] and len(runs[0][0]) == 300 and runs[0][1] == "iteration_limit"
     assert max(counts[0]) == 17 and max(counts[1]) == 16
+
+
+@pytest.mark.parametrize("name", ["sparse-lu", "sparse-lu-integers", "sparse-lu-ft", "sparse-lu-ft-rows",
+                                  "sparse-lu-ft-integers-rows"])
+def test_a_fresh_copys_updates_leave_the_original_as_it_was(monkeypatch, scale_bits, name):
+    # fresh_copy shares the factors with its original (the probes of allocation
+    # ranges each pivot on a copy of one start): a run of updates on the copy,
+    # with U's rows copied before each first change to them, leaves every solve
+    # of the original (ftran, each row of B^-1 by what it reaches and densely)
+    # exactly as it was before the copy was made, and the copy's own solves
+    # are those of a factorisation taken through the same updates on its own
+    rng = random.Random(17)
+    checked = 0
+    for m, cols, (b, h), (alone, ha) in ((m, c, *pair) for m, c, pair in factored_pairs(name, seed=21)):
+        if hasattr(b, "make_rows"):
+            b.make_rows()
+
+        def solves(basis):
+            out = [sorted(basis.ftran(cols[j]).items()) for j in range(len(cols))]
+            for share in (1, 10**9):
+                monkeypatch.setattr(basis_module, "SPARSE_SOLVE_SHARE", share)
+                out += [sorted(basis.btran_unit(p)[0].items()) for p in range(m)]
+            return out
+
+        before = solves(b)
+        twin, th = b.fresh_copy(), list(h)
+        for _ in range(4):
+            j = rng.randrange(len(cols))
+            w = twin.ftran(cols[j])
+            if not w:
+                break
+            p = min(w)
+            twin.replace(p, w, cols[j])
+            alone.replace(p, alone.ftran(cols[j]), cols[j])
+            th[p] = ha[p] = j
+            checked += 1
+        assert solves(b) == before and solves(twin) == solves(alone)
+    assert checked > 100
+
+
+def test_a_nucleus_at_the_give_up_size_is_refused_and_one_bit_under_it_is_not():
+    # factor_lu(give_up=N) refuses (LongNumbers, with the sizes in its text) a
+    # nucleus whose entries hold N bits or more, numerator and denominator
+    # together, counted after the singletons are taken: here a full 3 x 3 block
+    # has none, so the nucleus is the whole basis (invented entries); a basis of
+    # singletons only has an empty nucleus and is never refused
+    from exactlp.solver.basis import LongNumbers
+
+    entries = [[mpq(2), mpq(3, 5), mpq(-7, 4)], [mpq(1, 9), mpq(5), mpq(6, 7)], [mpq(-3), mpq(1, 2), mpq(11, 3)]]
+    cols = [[(i, entries[i][j]) for i in range(3)] for j in range(3)] + [[(i, mpq(-1))] for i in range(3)]
+    unit = {3 + i: (i, -1) for i in range(3)}
+    bits = sum(x.numerator.bit_length() + x.denominator.bit_length() for row in entries for x in row)
+    assert bits == 41  # by hand: 2+1, 2+3, 3+3, 1+4, 3+1, 3+3, 2+1, 1+2, 4+2
+    with pytest.raises(LongNumbers, match=r"^a nucleus of 3 columns and 41 bits$"):
+        factor_lu(3, [0, 1, 2], cols, unit, give_up=bits)
+    basis, head = factor_lu(3, [0, 1, 2], cols, unit, give_up=bits + 1)
+    x = basis.ftran(cols[0])
+    assert {head[p]: v for p, v in x.items()} == {0: 1}
+    factor_lu(3, [3, 4, 5], cols, unit, give_up=1)  # (slack columns: singletons)
