@@ -274,6 +274,16 @@ def test_an_update_that_would_not_fit_changes_nothing():
     w = whole.WholeCosts.of(d + [None])
     assert w.update(whole.row_arrays({0: 2**30, 1: 1}), None, 1, 2, mpq(2**31), False)
     assert w.tolist() == [mpq(1 - 2**61), None, mpq(-(2**31))]
+    # a step with a denominator: every numerator is first multiplied by k_d, so
+    # N_j k_d must stay under the bound too: 2^40 times k_d = 2^23 is 2^63 (the
+    # quotient 2^40 / 2^23 would pass), and 2^38 times 2^23 is 2^61, made
+    d = [mpq(2**40), mpq(1), None]
+    w = whole.WholeCosts.of(d)
+    assert not w.update(whole.row_arrays({0: 1, 1: 1}), None, 1, 2, mpq(1, 2**23), False)
+    assert w.tolist() == d
+    w = whole.WholeCosts.of([mpq(2**38), mpq(1), None])
+    assert w.update(whole.row_arrays({0: 1, 1: 1}), None, 1, 2, mpq(1, 2**23), False)
+    assert w.tolist() == [mpq(2**38) - mpq(1, 2**23), None, mpq(-1, 2**23)] and w.q == 2**23
 
 
 @contextlib.contextmanager
