@@ -1475,3 +1475,28 @@ def test_weights_on_integers_match_the_rule_in_fractions_on_drawn_values():
         assert fake.dual_weights == want
         assert all(type(w) is type(mpq(0)) for w in fake.dual_weights[10:])
     assert min(counts.values()) >= 200, counts
+
+
+@pytest.mark.parametrize("text", [DUAL_FEASIBLE, FLIPS])
+def test_tableau_rows_in_fractions_take_the_same_pivots(monkeypatch, text):
+    # DUAL_INTS_SLACK far below 0: no row of B^-1 with a fraction in it is put
+    # over a common denominator, so every such tableau row is summed in
+    # fractions over A's rows (Simplex._row_times_a's path for nested
+    # denominators); with check_updates every reduced cost updated from those
+    # rows is compared with the one priced afresh, and the pivots, flips and
+    # optimum are those of the rows on integers.  (Also a dense model whose
+    # rows of B^-1 carry many different denominators)
+    monkeypatch.setattr(simplex_module.Simplex, "check_updates", True)
+    used = 0
+    for model in (model_from_text(text), _dense_dual_feasible(12, 16, seed=3)):
+        plain, events = _events(model)
+        pivots = [(e.entering, e.leaving, e.flipped, e.ratio) for e in events if isinstance(e, Pivot)]
+        with monkeypatch.context() as mp:
+            mp.setattr(rows_module, "DUAL_INTS_SLACK", -10**6)
+            with calls_recorded(simplex_module.Simplex, "_rows", what=lambda got: got) as seen:
+                r, events = _events(model)
+        used += len(seen)
+        assert [(e.entering, e.leaving, e.flipped, e.ratio) for e in events if isinstance(e, Pivot)] == pivots
+        assert r.status is plain.status and r.objective == plain.objective and type(r.objective) is F
+        solve_verified(model, warm_start=False)
+    assert used  # (rows summed in fractions: the dense model's at least)
