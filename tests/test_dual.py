@@ -1500,3 +1500,25 @@ def test_tableau_rows_in_fractions_take_the_same_pivots(monkeypatch, text):
         assert r.status is plain.status and r.objective == plain.objective and type(r.objective) is F
         solve_verified(model, warm_start=False)
     assert used  # (rows summed in fractions: the dense model's at least)
+
+
+@pytest.mark.parametrize("power, count", [(61, 4), (60, 8), (61, 2), (60, 3)])
+def test_numpy_rows_where_a_columns_sum_reaches_two_to_the_63(power, count):
+    # a column of `count` entries 2^power (invented): where their sum of
+    # magnitudes is exactly 2^63, one past int64, numpy's reduction would wrap
+    # round, so the column sums are taken in Python integers; at 2^62 or more
+    # (2 x 2^61 too) the rows go by the loops, since no limb would fit; under
+    # 2^62 (3 x 2^60) numpy sums them.
+    # Every row, by numpy
+    # or not, is the loops' row (rows_both_ways), and the optimum is exact:
+    # x0 = 2^-power (each row r_i: 2^power x0 + x_(i+1) >= 1 at cost 1 each)
+    pytest.importorskip("numpy")
+    big = 2**power
+    lines = ["minimize: " + " + ".join(f"x{j}" for j in range(count + 1)), "variables:"]
+    lines += [f"  x{j}: {{}}" for j in range(count + 1)] + ["constraints:"]
+    lines += [f"  r{i}: {big} x0 + x{i + 1} >= 1" for i in range(count)]
+    model = model_from_text("\n".join(lines) + "\n")
+    with rows_both_ways() as seen:
+        r = solve_verified(model, warm_start=False)
+    assert seen["rows"] >= 1 and (seen["by_numpy"] > 0) == (big * count < 2**62)
+    assert r.status is exactlp.Status.OPTIMAL and r.objective == F(1, big) and r.primal["x0"] == F(1, big)
