@@ -545,6 +545,29 @@ def test_the_ratio_test_by_arrays_keeps_every_zero_ratio():
     assert dual_module.DualPhase._ratio_candidates(Fake([2, 2, 1, 1]), row, [mpq(-1), mpq(-1), None, None], 1) == {}
 
 
+
+
+@pytest.mark.parametrize("by_limbs", [False, True])
+def test_entry_bits_bound_each_entry_as_documented(by_limbs):
+    # rows.entry_bits gives b with |N| in [2^b, 2^(b+1)) for a whole entry N, and
+    # |N / e| in (2^(b-1), 2^(b+1)) for N / e: each bound checked in Fractions,
+    # at the powers of two and one either side of them.  (Both readers compare
+    # only differences of b within a row, so a b off by the same amount for every
+    # entry chose as before: no other test could see it.)
+    sums = {0: 1, 1: -1, 2: 2, 3: 3, 4: -4, 5: 7, 6: 8, 7: 2**40 - 1, 8: -(2**40), 9: 2**40 + 1, 10: 2**62 - 1}
+    for escale in ({j: 1 for j in sums}, {j: (1, 2, 3, 4, 7, 8, 9, 2**20 - 1, 2**20, 2**20 + 1, 5)[j] for j in sums}):
+        row = _numpy_row(sums, escale, by_limbs)
+        bits = rows_module.entry_bits(row).tolist()
+        assert [type(b) for b in bits] == [int] * len(sums)
+        for j, b in zip(sorted(sums), bits):
+            v = abs(F(sums[j], escale[j]))
+            if escale[j] == 1 and row.den_bits is None:
+                assert F(2) ** b <= v < F(2) ** (b + 1), (j, b)
+            else:
+                assert F(2) ** (b - 1) < v < F(2) ** (b + 1), (j, b)
+        assert bits[:7] == ([0, 0, 1, 1, 2, 2, 3] if escale[0] == escale[1] else [0, -1, 0, -1, 0, -1, 0])
+        at = row.cols.tolist().index(5), row.cols.tolist().index(8)
+        assert rows_module.entry_bits(row, list(at)).tolist() == [bits[5], bits[8]]
 @contextlib.contextmanager
 def rows_both_ways():
     """Make every tableau row by numpy's sums (NUMPY_ROW_NONZEROS = 0) and check
@@ -704,6 +727,36 @@ def test_tableau_rows_by_numpy_on_the_bound_flip_model():
     with rows_both_ways() as seen:
         r = solve_verified(model_from_text(FLIPS), warm_start=False)
     assert r.status is exactlp.Status.OPTIMAL and seen["rows"] >= 1 and seen["by_numpy"] == seen["rows"]
+
+
+def test_the_matrix_copies_are_made_once_until_the_columns_change(monkeypatch):
+    # rows.py keeps five copies of A (by columns as integers or fractions, by rows
+    # as integers or fractions, numpy's sums), each keyed by the number of columns:
+    # read again, the same object; once a column is added (as phase 1 adds its
+    # artificials), made again with it.  A key read the wrong way round gave the
+    # same values, made afresh on every tableau row, and no other test saw it.
+    pytest.importorskip("numpy")
+    monkeypatch.setattr(rows_module, "NUMPY_ROW_NONZEROS", 0)
+    from exactlp.solver.form import build_form
+
+    sx = simplex_module.Simplex(build_form(model_from_text(FLIPS)), pricing="guarded")
+    makers = ("_frac_cols", "_int_cols", "_int_rows", "_rows", "_np_rows")
+    first = {name: getattr(sx, name)() for name in makers}
+    assert first["_np_rows"] is not None
+    for name in makers:
+        assert getattr(sx, name)() is first[name], name
+    n = len(sx.cols)
+    sx.cols.append([(0, mpq(1, 3))])
+    again = {name: getattr(sx, name)() for name in makers}
+    for name in makers:
+        assert again[name] is not first[name], name
+        assert getattr(sx, name)() is again[name], name
+    assert len(again["_frac_cols"]) == len(again["_int_cols"]) == len(again["_int_rows"][1]) == n + 1
+    assert again["_int_cols"][n] == (3, None, [(0, 1)]) and again["_int_rows"][1][n] == 3
+    assert again["_frac_cols"][n] == (None, None, [(0, mpq(1, 3))])
+    assert again["_rows"][0][-1] == (n, mpq(1, 3)) and again["_int_rows"][0][0][0][-1] == n  # (3 * 1/3 = 1: a +1 entry)
+    assert n not in first["_np_rows"]([mpq(1)] + [mpq(0)] * (sx.m - 1), None)
+    assert again["_np_rows"]([mpq(1)] + [mpq(0)] * (sx.m - 1), None)[n] == mpq(1, 3)
 
 
 def test_tableau_row_sums_past_64_bits_go_by_limbs_then_by_the_loops(monkeypatch):
