@@ -602,7 +602,9 @@ def rows_both_ways():
             assert (row.den_bits is None and all(escale[j] == 1 for j in row)) or \
                 row.den_bits.tolist() == [escale[j].bit_length() - 1 for j in row.cols.tolist()]
         assert all(type(v) in (int, type(mpq(0))) for v in fast[0].values())
-        assert all(type(v) in (int, type(mpq(0))) for v in met[0].values())
+        # a whole entry is an int in each form, a fraction an mpq (the devex update reads either)
+        kinds = {j: type(v) for j, v in fast[0].items()}
+        assert kinds == {j: type(v) for j, v in slow[0].items()} == {j: type(v) for j, v in met[0].items()}
         seen["rows"] += 1
         seen["by_numpy"] += used
         return fast
@@ -757,6 +759,50 @@ def test_the_matrix_copies_are_made_once_until_the_columns_change(monkeypatch):
     assert again["_rows"][0][-1] == (n, mpq(1, 3)) and again["_int_rows"][0][0][0][-1] == n  # (3 * 1/3 = 1: a +1 entry)
     assert n not in first["_np_rows"]([mpq(1)] + [mpq(0)] * (sx.m - 1), None)
     assert again["_np_rows"]([mpq(1)] + [mpq(0)] * (sx.m - 1), None)[n] == mpq(1, 3)
+
+
+@pytest.mark.parametrize("top", [3, 5, 6, 7, 1000])
+def test_limbs_at_the_widest_digit_the_column_sums_allow(monkeypatch, top):
+    # the largest column sum of |e_j a_ij| is `top`; a limb's digits are below
+    # 2^b with 2^b <= (2^63 - 1) // top, so a digit times a column stays in 64
+    # bits.  R = +-(2^183 - 1) has every digit 2^b - 1, the largest: one bit more
+    # (2^b past that quotient, as when top is not a power of two) wraps numpy's
+    # 64-bit sums, and the entries come out wrong.
+    pytest.importorskip("numpy")
+    monkeypatch.setattr(rows_module, "NUMPY_ROW_NONZEROS", 0)
+    from exactlp.solver.form import build_form
+
+    sx = simplex_module.Simplex(build_form(model_from_text(
+        f"minimize: x1 + x2\nvariables:\n  x1: {{}}\n  x2: {{}}\nconstraints:\n  r0: {top} x1 + x2 >= 1\n")))
+    fast = sx._np_rows()
+    for r0 in (2**183 - 1, -(2**183 - 1), 2**125 - 1):
+        got = fast([mpq(r0)], None)
+        assert type(got) is rows_module.NumpyRow and got == {0: top * r0, 1: r0, 2: -r0}
+        assert got.sums.tolist() == [top * r0, r0, -r0]
+
+
+def test_a_column_kept_in_fractions_beside_whole_ones_joins_numpys_row(monkeypatch):
+    # x3's denominators are nine primes near 2^10, whose multiple is past the
+    # bound of _int_cols: x3 stays in fractions and is summed apart, after
+    # numpy's sums of the whole columns (the row then a plain NumpyRow with no
+    # arrays, not the arrays-only ArrayRow, which could not take the entry)
+    pytest.importorskip("numpy")
+    monkeypatch.setattr(rows_module, "NUMPY_ROW_NONZEROS", 0)
+    monkeypatch.setattr(rows_module, "SPARSE_ROW_SHARE", 10**9)  # (never by the columns met)
+    from exactlp.solver.form import build_form
+
+    primes = [1009, 1013, 1019, 1021, 1031, 1033, 1039, 1049, 1051]
+    text = "minimize: x1 + x2 + x3\nvariables:\n  x1: {}\n  x2: {}\n  x3: {}\nconstraints:\n"
+    text += "".join(f"  r{i}: {i + 1} x1 - x2 + 1/{p} x3 >= {i}\n" for i, p in enumerate(primes))
+    sx = simplex_module.Simplex(build_form(model_from_text(text)))
+    assert [j for j, _ in sx._int_rows()[2]] == [2]
+    for p in range(len(primes)):
+        got, scale = sx._tableau_row(p)
+        assert type(got) is rows_module.NumpyRow and got.cols is None
+        # B = -I (the slack basis: each row's logical), so row p of B^-1 A is -A's row p
+        assert got == {0: -(p + 1), 1: 1, 2: mpq(-1, primes[p])} and scale is None
+        lazy, _ = sx._tableau_row(p, arrays=True)
+        assert lazy == got and type(lazy) is rows_module.NumpyRow
 
 
 def test_tableau_row_sums_past_64_bits_go_by_limbs_then_by_the_loops(monkeypatch):
