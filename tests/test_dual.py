@@ -761,13 +761,16 @@ def test_the_matrix_copies_are_made_once_until_the_columns_change(monkeypatch):
     assert again["_np_rows"]([mpq(1)] + [mpq(0)] * (sx.m - 1), None)[n] == mpq(1, 3)
 
 
-@pytest.mark.parametrize("top", [3, 5, 6, 7, 1000])
+@pytest.mark.parametrize("top", [1, 3, 5, 6, 7, 1000])
 def test_limbs_at_the_widest_digit_the_column_sums_allow(monkeypatch, top):
-    # the largest column sum of |e_j a_ij| is `top`; a limb's digits are below
-    # 2^b with 2^b <= (2^63 - 1) // top, so a digit times a column stays in 64
-    # bits.  R = +-(2^183 - 1) has every digit 2^b - 1, the largest: one bit more
-    # (2^b past that quotient, as when top is not a power of two) wraps numpy's
-    # 64-bit sums, and the entries come out wrong.
+    # the largest column sum of |e_j a_ij| is `top`; R goes by numpy's 64-bit
+    # sums as it is while max |R_i| <= (2^63 - 1) // top, and past that by limbs
+    # whose digits are below 2^b with 2^b <= that quotient, so a digit times a
+    # column stays in 64 bits.  R = +-(2^183 - 1) has every digit 2^b - 1, the
+    # largest: one bit more (2^b past the quotient, as when top is not a power
+    # of two) wraps the sums, and the entries come out wrong; so does a quotient
+    # one too large (R one past it, times 3, is 2^63 + 1), and for top = 1 one
+    # that lets R = 2^63 into 64 bits.
     pytest.importorskip("numpy")
     monkeypatch.setattr(rows_module, "NUMPY_ROW_NONZEROS", 0)
     from exactlp.solver.form import build_form
@@ -775,10 +778,14 @@ def test_limbs_at_the_widest_digit_the_column_sums_allow(monkeypatch, top):
     sx = simplex_module.Simplex(build_form(model_from_text(
         f"minimize: x1 + x2\nvariables:\n  x1: {{}}\n  x2: {{}}\nconstraints:\n  r0: {top} x1 + x2 >= 1\n")))
     fast = sx._np_rows()
-    for r0 in (2**183 - 1, -(2**183 - 1), 2**125 - 1):
+    limit = (2**63 - 1) // top
+    for r0 in (2**183 - 1, -(2**183 - 1), 2**125 - 1, limit, -limit, limit + 1, -(limit + 1), 2**63):
         got = fast([mpq(r0)], None)
         assert type(got) is rows_module.NumpyRow and got == {0: top * r0, 1: r0, 2: -r0}
         assert got.sums.tolist() == [top * r0, r0, -r0]
+        if abs(r0) <= limit:  # (within 64 bits: the arrays-only row, with nothing dropped)
+            lazy = fast([mpq(r0)], None, True)
+            assert type(lazy) is rows_module.ArrayRow and lazy.cols.tolist() == [0, 1, 2] and dict(lazy) == got
 
 
 def test_a_column_kept_in_fractions_beside_whole_ones_joins_numpys_row(monkeypatch):

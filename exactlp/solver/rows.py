@@ -25,7 +25,6 @@ from gmpy2 import lcm as _lcm
 from gmpy2 import mpq, mpz
 
 ZERO = mpq(0)
-ONE = mpq(1)
 ONE_Z = mpz(1)
 BASIC = 0  # the column state of simplex.py (a test checks)
 
