@@ -99,6 +99,79 @@ def test_limits_are_reported_as_such():
     assert r.status is Status.TIME_LIMIT
 
 
+def _degenerate_packing(seed: int) -> str:
+    """A small packing model (invented numbers): costs of 0 to -3 on ``x >= 0``
+    and rows ``... <= b`` with ``b`` mostly 0, so the slack basis is feasible
+    but not dual feasible and the primal method starts there, with many of its
+    pivots degenerate."""
+    import random
+
+    from .models import drawn_text
+
+    rng = random.Random(seed)
+    n, m = rng.randint(4, 8), rng.randint(4, 8)
+    return drawn_text(rng, n, m, lambda: rng.choice([0, -1, -2, -3]), lambda: rng.choice([1, 1, 2, 3]), "<=",
+                      lambda: rng.choice([0, 0, 0, 0, 1]))
+
+
+@pytest.mark.parametrize("guard", [0, 1, 2])
+def test_bland_takes_over_after_exactly_the_guard_run_of_degenerate_primal_pivots(monkeypatch, guard):
+    # GUARD_RUN_FACTOR (m + 1) = guard: a primal pivot under the guarded rule is
+    # Bland's choice ("bland (last resort)") exactly when more than `guard`
+    # degenerate pivots come right before it, and a positive step hands back,
+    # read from the log's own flags (LEX_AFTER_FACTOR (m + 1) is past every
+    # guard here, so no lexicographic ties come first).  The outcome is Bland's
+    # rule's throughout.  Under plain Dantzig pricing, which has no guard, no
+    # pivot is labelled otherwise.
+    from exactlp.solver import simplex as simplex_module
+    from exactlp.solver.events import Pivot
+
+    seen = {"bland": 0, "run_without_bland": 0}
+    for seed in range(60):
+        m = model_from_text(_degenerate_packing(seed))
+        monkeypatch.setattr(simplex_module, "GUARD_RUN_FACTOR", F(guard, len(m.constraints) + 1))
+        events: list = []
+        r = exactlp.solve(m, listener=events.append, warm_start=False)
+        run = 0
+        pivots = [e for e in events if isinstance(e, Pivot)]
+        assert all(not e.rule.startswith("dual") for e in pivots)
+        for e in pivots:
+            assert (e.rule == "bland (last resort)") == (run > guard), (seed, e)
+            assert e.rule in ("devex", "bland (last resort)"), (seed, e)
+            seen["bland"] += run > guard
+            seen["run_without_bland"] += 0 < run <= guard
+            run = run + 1 if e.degenerate else 0
+        again = exactlp.solve(m, warm_start=False, pricing="bland")
+        assert r.status is again.status and r.objective == again.objective
+        plain: list = []
+        exactlp.solve(m, listener=plain.append, warm_start=False, pricing="dantzig", iteration_limit=200)
+        rules = {e.rule for e in plain if isinstance(e, Pivot)}
+        assert rules <= {"dantzig"}, (seed, rules)
+    assert seen["bland"] >= 10 and (guard == 0 or seen["run_without_bland"] >= 10), seen
+
+
+def test_the_tableau_is_omitted_past_its_limit_of_entries(monkeypatch):
+    # TABLEAU_LIMIT counts the tableau's entries, rows times columns (with any
+    # artificial columns): at the limit each pivot's tableau is stored, one
+    # entry past it the pivot says so instead, in these words
+    from exactlp.solver import simplex as simplex_module
+    from exactlp.solver.events import Pivot
+
+    m = model_from_text(KNOWN[0][1])
+    events: list = []
+    exactlp.solve(m, listener=events.append, warm_start=False, tableau=True)
+    shown = [e.tableau for e in events if isinstance(e, Pivot)]
+    sizes = {len(t["rows"]) * len(t["columns"]) for t in shown}
+    assert shown and len(sizes) == 1 and all(len(row) == len(t["columns"]) for t in shown for row in t["rows"])
+    size = sizes.pop()
+    for limit, want in ((size, shown), (size - 1, [{"omitted": f"the model is larger than {size - 1} tableau entries"}]
+                                                    * len(shown))):
+        monkeypatch.setattr(simplex_module, "TABLEAU_LIMIT", limit)
+        again: list = []
+        exactlp.solve(m, listener=again.append, warm_start=False, tableau=True)
+        assert [e.tableau for e in again if isinstance(e, Pivot)] == want
+
+
 @pytest.mark.parametrize(
     "options, message",
     [
