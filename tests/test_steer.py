@@ -618,3 +618,49 @@ def test_short_rows_over_columns_kept_in_fractions_take_the_exact_path(monkeypat
             mp.setattr(steer_module, "STEER_SHORT", False)
             r0, exact = path(model)
         assert len(kept) > 5 and all(kept) and steered == exact and r.objective == r0.objective
+
+
+def test_the_short_dual_row_drops_and_zeros_entries_as_its_rule_says():
+    # _steer_dual_row, against its rule written out: a basic column is left out;
+    # so is an entry whose magnitude is at most the row's largest magnitude over
+    # 2^ROW_ZONE (a cancellation's error), and one inside the dead zone; a kept
+    # entry is v / e_j; its reduced cost is None when fixed, 0 inside the dead
+    # zone, else as it stands.  The largest magnitude is a negative entry (a
+    # floor from the largest signed entry would keep the entries under it);
+    # entries sit on both sides of the floor and of the zone's edges, with the
+    # floor above the zone (a row of long entries) and below it.
+    zone, rz = steer_module.DEAD_ZONE, steer_module.ROW_ZONE
+
+    class Fake(steer_module.SteeredPricing):
+        def __init__(self, state, escale):
+            self.state, self.escale = state, escale
+
+        def _int_rows(self):
+            return None, self.escale, []
+
+    def fr(v):
+        return None if v is None else F(int(v.numerator), int(v.denominator)) if type(v) is type(mpq(0)) else F(v)
+
+    for big, kept in ((-(zone << (rz + 3)), [0, 2, 3, 8, 9, 10, 11]), (-(zone << (rz - 3)), [0, 5, 6, 8])):
+        floor = -big >> rz
+        sums = {0: big, 1: floor, 2: floor + 1, 3: -(floor + 1), 4: zone - 1, 5: zone, 6: -zone, 7: 5,
+                8: floor + zone, 9: floor + 2, 10: floor + 3, 11: floor + 4, 12: floor + 5, 13: -(zone - 1)}
+        state = [1] * 12 + [0, 2]  # column 12 basic
+        escale = [1, 1, 3, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1]
+        sd = [3, 0, -zone + 1, zone - 1, 1, zone - 1, -zone, 1, None, zone, -zone, 2 * zone, 4, 1]
+        row, dd = Fake(state, escale)._steer_dual_row(sums, sd)
+        want_row, want_d = {}, {}
+        for j, v in sums.items():
+            if state[j] == 0 or abs(v) <= floor or abs(v) < zone:
+                continue
+            want_row[j] = F(v, escale[j])
+            want_d[j] = None if sd[j] is None else F(0) if abs(sd[j]) < zone else F(sd[j])
+        assert list(row) == list(dd) == list(want_row) == kept, big
+        assert {j: fr(v) for j, v in row.items()} == want_row
+        assert {j: fr(v) for j, v in dd.items()} == want_d
+        assert type(row[0]) is int and dd[8] is None
+    assert type(row[5]) is int and dd[5] == 0 and dd[6] == -zone  # (the second row)
+    row, dd = Fake([1, 1, 1, 1], [1, 3, 1, 1])._steer_dual_row({0: zone << 4, 1: zone, 2: -zone, 3: zone - 1},
+                                                               [zone, -zone + 1, zone - 1, 0])
+    assert row == {0: zone << 4, 1: mpq(zone, 3), 2: -zone} and type(row[1]) is type(mpq(0))
+    assert dd == {0: zone, 1: 0, 2: 0}
