@@ -444,6 +444,14 @@ def test_the_plain_dual_ratio_test_skips_only_what_cannot_win():
     assert dual_module.DualPhase._dual_entering_plain(fake, {0: 1, 1: 1}, [mpq(3, 2), mpq(16, 15)], 1, False) == 1
     assert dual_module.DualPhase._dual_entering_plain(
         fake, {0: mpq(8, 15), 1: mpq(15, 32)}, [mpq(15, 8), mpq(16, 15)], 1, False) == 1
+    # a whole |a_j| = N lies in [2^(bits N - 1), 2^bits N), so its estimate is bits N
+    # - 1; read one higher, the whole entry 66 (e = 2 - 7 = -5 for 13/4 over 66)
+    # would pass over 13/4 (e = -1 over 8/63), whose ratio 32/819 is the smaller
+    # (found by a search over small values; one lower cannot mislead, by that
+    # tighter upper bound)
+    for bland in (False, True):
+        assert dual_module.DualPhase._dual_entering_plain(
+            fake, {0: 66, 1: mpq(13, 4)}, [mpq(13, 4), mpq(8, 63)], 1, bland) == 1
 
 
 def _numpy_row(sums: dict, escale: dict, by_limbs: bool = False):
