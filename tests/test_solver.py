@@ -150,6 +150,36 @@ def test_bland_takes_over_after_exactly_the_guard_run_of_degenerate_primal_pivot
     assert seen["bland"] >= 10 and (guard == 0 or seen["run_without_bland"] >= 10), seen
 
 
+@pytest.mark.parametrize("lex", [0, 1, 2, 3])
+def test_lexicographic_ties_start_after_exactly_their_run_of_degenerate_pivots(monkeypatch, lex):
+    # LEX_AFTER_FACTOR (m + 1) = lex, the guard out of reach: the perturbation
+    # order is fixed at the first degenerate pivot that follows `lex` degenerate
+    # ones, and holds until a positive step; so a pivot is labelled "devex
+    # (lexicographic ties)" exactly when at least `lex` degenerate pivots come
+    # right before it and it is degenerate itself, or more than `lex` come
+    # before it (the order is already fixed).  Outcomes as under Bland's rule.
+    from exactlp.solver import simplex as simplex_module
+    from exactlp.solver.events import Pivot
+
+    seen = {"lex": 0, "plain_after_run": 0}
+    for seed in range(120):
+        m = model_from_text(_degenerate_packing(seed))
+        monkeypatch.setattr(simplex_module, "GUARD_RUN_FACTOR", 10**6)
+        monkeypatch.setattr(simplex_module, "LEX_AFTER_FACTOR", F(lex, len(m.constraints) + 1))
+        events: list = []
+        r = exactlp.solve(m, listener=events.append, warm_start=False)
+        run = 0
+        for e in (e for e in events if isinstance(e, Pivot)):
+            want = run > lex or (run == lex and e.degenerate)
+            assert e.rule == ("devex (lexicographic ties)" if want else "devex"), (seed, run, e)
+            seen["lex"] += want
+            seen["plain_after_run"] += run == lex and not e.degenerate
+            run = run + 1 if e.degenerate else 0
+        again = exactlp.solve(m, warm_start=False, pricing="bland")
+        assert r.status is again.status and r.objective == again.objective
+    assert seen["lex"] >= 20 and seen["plain_after_run"] >= 1, seen
+
+
 def test_the_tableau_is_omitted_past_its_limit_of_entries(monkeypatch):
     # TABLEAU_LIMIT counts the tableau's entries, rows times columns (with any
     # artificial columns): at the limit each pivot's tableau is stored, one
