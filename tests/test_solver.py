@@ -121,8 +121,11 @@ def test_bland_takes_over_after_exactly_the_guard_run_of_degenerate_primal_pivot
     # degenerate pivots come right before it, and a positive step hands back,
     # read from the log's own flags (LEX_AFTER_FACTOR (m + 1) is past every
     # guard here, so no lexicographic ties come first).  The outcome is Bland's
-    # rule's throughout.  Under plain Dantzig pricing, which has no guard, no
-    # pivot is labelled otherwise.
+    # rule's throughout.  Bland's choice enters the lowest improving column,
+    # read from the pivot's tableau (the slack basis is feasible: phase 2 only,
+    # minimising; a variable rests at 0 and improves with d_j < 0, a row's
+    # logical at its bound b and improves with d_j > 0).  Under plain Dantzig
+    # pricing, which has no guard, no pivot is labelled otherwise.
     from exactlp.solver import simplex as simplex_module
     from exactlp.solver.events import Pivot
 
@@ -131,13 +134,17 @@ def test_bland_takes_over_after_exactly_the_guard_run_of_degenerate_primal_pivot
         m = model_from_text(_degenerate_packing(seed))
         monkeypatch.setattr(simplex_module, "GUARD_RUN_FACTOR", F(guard, len(m.constraints) + 1))
         events: list = []
-        r = exactlp.solve(m, listener=events.append, warm_start=False)
+        r = exactlp.solve(m, listener=events.append, warm_start=False, tableau=True)
         run = 0
         pivots = [e for e in events if isinstance(e, Pivot)]
-        assert all(not e.rule.startswith("dual") for e in pivots)
+        assert all(not e.rule.startswith("dual") and e.phase == 2 for e in pivots)
         for e in pivots:
             assert (e.rule == "bland (last resort)") == (run > guard), (seed, e)
             assert e.rule in ("devex", "bland (last resort)"), (seed, e)
+            cols, basic = [tuple(c) for c in e.tableau["columns"]], {tuple(c) for c in e.tableau["basis"]}
+            improving = [c for c, dj in zip(cols, e.tableau["reduced_costs"]) if c not in basic and dj
+                         and (dj < 0) == (c[1] == "variable")]
+            assert e.entering in improving and (e.rule != "bland (last resort)" or e.entering == improving[0])
             seen["bland"] += run > guard
             seen["run_without_bland"] += 0 < run <= guard
             run = run + 1 if e.degenerate else 0
@@ -150,30 +157,32 @@ def test_bland_takes_over_after_exactly_the_guard_run_of_degenerate_primal_pivot
     assert seen["bland"] >= 10 and (guard == 0 or seen["run_without_bland"] >= 10), seen
 
 
-@pytest.mark.parametrize("lex", [0, 1, 2, 3])
-def test_lexicographic_ties_start_after_exactly_their_run_of_degenerate_pivots(monkeypatch, lex):
-    # LEX_AFTER_FACTOR (m + 1) = lex, the guard out of reach: the perturbation
-    # order is fixed at the first degenerate pivot that follows `lex` degenerate
-    # ones, and holds until a positive step; so a pivot is labelled "devex
-    # (lexicographic ties)" exactly when at least `lex` degenerate pivots come
-    # right before it and it is degenerate itself, or more than `lex` come
-    # before it (the order is already fixed).  Outcomes as under Bland's rule.
+@pytest.mark.parametrize("factor", [0, F(1, 9), F(1, 5), F(1, 4), F(1, 3)])
+def test_lexicographic_ties_start_after_exactly_their_run_of_degenerate_pivots(monkeypatch, factor):
+    # LEX_AFTER_FACTOR = factor, so L = factor (m + 1), the guard out of reach:
+    # the perturbation order is fixed at the first degenerate pivot with at
+    # least L degenerate ones right before it, and holds until a positive step;
+    # so a pivot is labelled "devex (lexicographic ties)" exactly when that many
+    # come before it and it is degenerate itself, or when the one before it had
+    # fixed the order already.  (Factors whose L is not whole, and m from 4 to
+    # 8, tell m + 1 from m.)  Outcomes as under Bland's rule.
     from exactlp.solver import simplex as simplex_module
     from exactlp.solver.events import Pivot
 
     seen = {"lex": 0, "plain_after_run": 0}
+    monkeypatch.setattr(simplex_module, "GUARD_RUN_FACTOR", 10**6)
+    monkeypatch.setattr(simplex_module, "LEX_AFTER_FACTOR", factor)
     for seed in range(120):
         m = model_from_text(_degenerate_packing(seed))
-        monkeypatch.setattr(simplex_module, "GUARD_RUN_FACTOR", 10**6)
-        monkeypatch.setattr(simplex_module, "LEX_AFTER_FACTOR", F(lex, len(m.constraints) + 1))
+        lex_after = factor * (len(m.constraints) + 1)
         events: list = []
         r = exactlp.solve(m, listener=events.append, warm_start=False)
         run = 0
         for e in (e for e in events if isinstance(e, Pivot)):
-            want = run > lex or (run == lex and e.degenerate)
+            want = (run >= lex_after and e.degenerate) or run - 1 >= lex_after
             assert e.rule == ("devex (lexicographic ties)" if want else "devex"), (seed, run, e)
             seen["lex"] += want
-            seen["plain_after_run"] += run == lex and not e.degenerate
+            seen["plain_after_run"] += run >= lex_after and not want
             run = run + 1 if e.degenerate else 0
         again = exactlp.solve(m, warm_start=False, pricing="bland")
         assert r.status is again.status and r.objective == again.objective
