@@ -230,6 +230,31 @@ def test_replay_reproduces_logged_objectives(name, text, pricing):
     assert all(logged == again for logged, again in pairs), pairs
 
 
+CONSTANT_OBJECTIVES = [
+    # (invented numbers) an objective with a constant term, in each sense (the
+    # first starts infeasible, so a phase 1 comes first): the constant is in
+    # every logged phase-2 objective, in the model's sense (the constant taken
+    # off instead of added passed every test)
+    "maximize: 3 x1 + 2 x2 - 7/2\nvariables: {x1: {upper: 4}, x2: {}}\nconstraints:\n"
+    "  r1: x1 + x2 <= 6\n  r2: x1 - x2 >= -2\n  r3: x1 + 3 x2 >= 3\n",
+    "minimize: -2 x1 - 3 x2 + 11/3\nvariables: {x1: {upper: 3}, x2: {}}\nconstraints:\n"
+    "  r1: x1 + x2 <= 4\n  r2: x1 + 3 x2 <= 6\n",
+]
+
+
+@pytest.mark.parametrize("text", CONSTANT_OBJECTIVES)
+@pytest.mark.parametrize("pricing", ["guarded", "hybrid", "bland", "dantzig"])
+def test_replay_with_an_objective_constant(text, pricing):
+    m = model_from_text(text)
+    assert m.objective_constant in (F(-7, 2), F(11, 3))
+    r, _, recs = solve_logged(m, pricing=pricing)
+    pairs = replay(m, recs)
+    phases = {rec["phase"] for rec in recs if rec["record"] in ("pivot", "flip")}
+    assert pairs and 2 in phases and all(logged == again for logged, again in pairs), pairs
+    last = [rec for rec in recs if rec["record"] in ("pivot", "flip")][-1]
+    assert last["phase"] == 2 and F(last["objective"]) == r.objective
+
+
 @settings(max_examples=60, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(lp_models(max_vars=4, max_rows=4))
 def test_replay_on_random_models(model):

@@ -157,6 +157,41 @@ def test_bland_takes_over_after_exactly_the_guard_run_of_degenerate_primal_pivot
     assert seen["bland"] >= 10 and (guard == 0 or seen["run_without_bland"] >= 10), seen
 
 
+def test_the_hybrid_rule_keeps_blands_choice_through_a_degenerate_run():
+    # pricing="hybrid": Dantzig's choice while steps are positive; a Dantzig
+    # choice whose step would be 0 is replaced by Bland's, which then holds
+    # until a positive step.  Read from the log: a pivot after a degenerate
+    # one is "bland (degenerate run)", a "dantzig" pivot is never degenerate,
+    # and every Bland pivot enters the lowest improving column of its tableau
+    # (as in the guard's test above).  Outcomes as under Bland's rule.
+    from exactlp.solver.events import Pivot
+
+    seen = {"bland": 0, "switch": 0, "dantzig": 0}
+    for seed in range(60):
+        m = model_from_text(_degenerate_packing(seed))
+        events: list = []
+        r = exactlp.solve(m, listener=events.append, warm_start=False, pricing="hybrid", tableau=True)
+        run = 0
+        for e in (e for e in events if isinstance(e, Pivot)):
+            assert e.rule in ("dantzig", "bland (degenerate run)") and e.phase == 2, (seed, e)
+            assert run == 0 or e.rule == "bland (degenerate run)", (seed, run, e)
+            assert e.rule != "dantzig" or not e.degenerate, (seed, e)
+            cols, basic = [tuple(c) for c in e.tableau["columns"]], {tuple(c) for c in e.tableau["basis"]}
+            improving = [c for c, dj in zip(cols, e.tableau["reduced_costs"]) if c not in basic and dj
+                         and (dj < 0) == (c[1] == "variable")]
+            if e.rule == "dantzig":
+                assert e.entering in improving
+                seen["dantzig"] += 1
+            else:
+                assert e.entering == improving[0], (seed, e)
+                seen["bland"] += 1
+                seen["switch"] += run == 0
+            run = run + 1 if e.degenerate else 0
+        again = exactlp.solve(m, warm_start=False, pricing="bland")
+        assert r.status is again.status and r.objective == again.objective
+    assert seen["switch"] >= 20 and seen["bland"] - seen["switch"] >= 20 and seen["dantzig"] >= 3, seen
+
+
 @pytest.mark.parametrize("factor", [0, F(1, 9), F(1, 5), F(1, 4), F(1, 3)])
 def test_lexicographic_ties_start_after_exactly_their_run_of_degenerate_pivots(monkeypatch, factor):
     # LEX_AFTER_FACTOR = factor, so L = factor (m + 1), the guard out of reach:
