@@ -224,6 +224,42 @@ def test_lexicographic_ties_start_after_exactly_their_run_of_degenerate_pivots(m
     assert seen["lex"] >= 20 and seen["plain_after_run"] >= 1, seen
 
 
+@pytest.mark.parametrize("pricing", PRICING_RULES)
+def test_each_pivots_tableau_holds_its_own_reduced_cost(pricing):
+    # the tableau stored with a pivot holds the reduced costs the pivot priced,
+    # as the pivot's own `reduced_cost` gives the entering one: phase 1's costs
+    # of infeasibility as they are, phase 2's in the model's sense (both
+    # senses, models with and without a phase 1, under every rule); the
+    # entering column's entry in the leaving row is the pivot element, and the
+    # basic columns are unit columns
+    from exactlp.solver.events import Pivot
+
+    phases = set()
+    # (invented numbers) two models whose slack basis is neither primal nor dual
+    # feasible, so the primal method's phase 1 runs, in each sense
+    starts_infeasible = [("", f"{sense}: {objective}\nvariables: {{x1: {{upper: 4}}, x2: {{}}}}\n"
+                              "constraints:\n  r1: x1 + x2 <= 6\n  r2: x1 - x2 >= -2\n  r3: x1 + 3 x2 >= 3\n",
+                          "", None, "") for sense, objective in (("maximize", "3 x1 + 2 x2"),
+                                                                 ("minimize", "-3 x1 - 2 x2"))]
+    for name, text, status, _, _ in KNOWN + starts_infeasible:
+        if "crossed" in name:
+            continue
+        events: list = []
+        exactlp.solve(model_from_text(text), listener=events.append, warm_start=False, tableau=True,
+                      pricing=pricing, iteration_limit=200)
+        for e in (e for e in events if isinstance(e, Pivot) and not e.rule.startswith("dual")):
+            tab = e.tableau
+            cols = [tuple(c) for c in tab["columns"]]
+            q = cols.index(e.entering)
+            assert tab["reduced_costs"][q] == e.reduced_cost != 0, (name, e)
+            assert all(type(v) is F for v in tab["reduced_costs"] if v is not None)
+            for p, b in enumerate(tab["basis"]):
+                j = cols.index(tuple(b))
+                assert [row[j] for row in tab["rows"]] == [F(int(i == p)) for i in range(len(tab["rows"]))]
+            phases.add((e.phase, text.startswith("maximize")))
+    assert phases == {(1, False), (1, True), (2, False), (2, True)}, phases
+
+
 def test_the_tableau_is_omitted_past_its_limit_of_entries(monkeypatch):
     # TABLEAU_LIMIT counts the tableau's entries, rows times columns (with any
     # artificial columns): at the limit each pivot's tableau is stored, one
