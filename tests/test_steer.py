@@ -664,3 +664,52 @@ def test_the_short_dual_row_drops_and_zeros_entries_as_its_rule_says():
                                                                [zone, -zone + 1, zone - 1, 0])
     assert row == {0: zone << 4, 1: mpq(zone, 3), 2: -zone} and type(row[1]) is type(mpq(0))
     assert dd == {0: zone, 1: 0, 2: 0}
+
+
+def test_the_primal_guard_returns_to_exact_values_at_once(monkeypatch):
+    # GUARD_RUN_FACTOR 0: the first degenerate primal pivot hands over to
+    # Bland's choice, which reads exact signs: the short values are dropped
+    # there, so no pivot after it updates them (steering is off for the rest of
+    # the phase), and the next pivot is Bland's, on exact values; the optimum
+    # the exact one
+    from exactlp.solver.events import Pivot
+
+    _short_everywhere(monkeypatch)
+    monkeypatch.setattr(simplex_module, "GUARD_RUN_FACTOR", 0)
+    trace: list = []
+    plain = steer_module.SteeredPricing._steer_update
+
+    def update(self, *a, **kw):
+        trace.append("update")
+        return plain(self, *a, **kw)
+
+    monkeypatch.setattr(steer_module.SteeredPricing, "_steer_update", update)
+    # (invented numbers) a dense packing model with three rows x_a <= r x_b,
+    # degenerate where both are 0: a degenerate pivot comes while steered
+    rnd = random.Random(8)
+    n = 20
+    lines = ["maximize: " + " + ".join(f"{rnd.randint(1, 40)}/{rnd.randint(1, 13)} x{j}" for j in range(n)),
+             "variables:"] + [f"  x{j}: {{}}" for j in range(n)] + ["constraints:"]
+    for i in range(15):
+        terms = " + ".join(f"{rnd.randint(1, 40)}/{rnd.randint(1, 13)} x{j}" for j in range(n) if rnd.random() < 0.6)
+        if terms:
+            lines.append(f"  r{i}: {terms} <= {rnd.randint(10, 60)}")
+    for k in range(3):
+        a, b = rnd.sample(range(n), 2)
+        lines.append(f"  e{k}: x{a} - {rnd.randint(1, 5)}/{rnd.randint(1, 5)} x{b} <= 0")
+    model = model_from_text("\n".join(lines) + "\n")
+    def listener(e):
+        if isinstance(e, Pivot):
+            trace.append((e.phase, e.rule, e.degenerate))
+
+    r = solve_verified(model, warm_start=False, listener=listener)
+    pivots = [k for k, t in enumerate(trace) if type(t) is tuple]
+    # the first degenerate pivot made while steered
+    first = next(k for k in pivots if trace[k][2] and "update" in trace[:k])
+    phase = trace[first][0]
+    assert trace[first - 1] == "update"  # its own update of the short values ...
+    rest = [t for t in trace[first + 1:] if t == "update" or t[0] == phase]
+    assert rest and "update" not in rest  # ... and none after it in its phase
+    assert rest[0][1] == "bland (last resort)"
+    monkeypatch.setattr(steer_module, "STEER_SHORT", False)
+    assert r.objective == exactlp.solve(model, warm_start=False).objective and type(r.objective) is F
