@@ -164,7 +164,7 @@ def replay(model, recs) -> list[tuple[F, F]]:
         k = (c.name, "slack")
         cols[k] = [F(-1) if r == i else F(0) for r in range(m)]
         lo[k], hi[k] = c.lower, c.upper
-    start = recs[1]
+    start = next(rec for rec in recs[1:] if rec["record"] != "warm_start")
     if start["record"] != "start":  # settled before the simplex (crossed bounds): no steps
         assert start["record"] == "close"
         return []
@@ -253,6 +253,34 @@ def test_replay_with_an_objective_constant(text, pricing):
     assert pairs and 2 in phases and all(logged == again for logged, again in pairs), pairs
     last = [rec for rec in recs if rec["record"] in ("pivot", "flip")][-1]
     assert last["phase"] == 2 and F(last["objective"]) == r.objective
+
+
+def test_replay_of_a_repair_from_a_suggested_basis():
+    # (invented numbers) a suggested basis with two values past their bounds: x
+    # basic with row a held at its upper side and y at 0 puts x at 4, so rows b
+    # (3 x + y = 12 > 6) and c (x + y = 4 > 3) break their bounds by 6 and 1.
+    # The log has one warm_start record, then the start the repair's pivots go
+    # from (phase 1, objective 7, the violations' sum), and each pivot's
+    # objective is the violations left, replayed from it; then phase 2's start.
+    from exactlp.floatlp import BasisHint
+
+    m = model_from_text("maximize: x + y\nvariables: {x: {}, y: {}}\nconstraints:\n"
+                        "  a: x + 2 y <= 4\n  b: 3 x + y <= 6\n  c: x + y <= 3\n")
+    hint = BasisHint(basic=(0, 3, 4), at_upper=frozenset({2}), source="test", float_status="made up")
+    r, _, recs = solve_logged(m, start_basis=hint)
+    assert r.objective == F(14, 5) and r.warm_start.startswith("accepted")
+    kinds = [rec["record"] for rec in recs]
+    assert kinds == ["header", "warm_start", "start", "pivot", "pivot", "phase_end", "start", "phase_end", "close"]
+    first = recs[2]
+    assert (first["phase"], first["objective"], first["artificial_rows"]) == (1, "7", [])
+    assert [b["name"] for b in first["basis"]] == ["x", "b", "c"] and first["at_upper"] == [
+        {"kind": "slack", "name": "a"}]
+    # each leaving row at its own upper bound (c at 3, then b at 6), though the
+    # repair's temporary box held that bound as its lower end
+    assert [(rec["leaving"]["name"], rec["leaving_bound"]) for rec in recs if rec["record"] == "pivot"] == [
+        ("c", "upper"), ("b", "upper")]
+    pairs = replay(m, recs)
+    assert pairs == [(F(1), F(1)), (F(0), F(0))]
 
 
 @settings(max_examples=60, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])

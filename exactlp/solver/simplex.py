@@ -633,6 +633,10 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
         if self.repair and self.listener:
             self.listener(self.warm)
             self._announced = True
+            # the suggested basis the repair's pivots start from, its objective the
+            # sum of the bound violations they drive out: without it a log's reader
+            # could not replay them (phase 2 then has a start of its own)
+            self.listener(self._start_event(1))
         if self.repair:
             out = self._repair()
             if out is not None:
@@ -1440,6 +1444,12 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
             if changed:
                 z = self._z(cost)  # costs or bounds changed (warm-start repair)
                 d = y = None
+                if b is not None:
+                    # a repaired column leaves at its own bound, which its temporary
+                    # box held as the other end (below its lower bound, the box is
+                    # [value, lower]): the event names the bound by the column's own
+                    # bounds, as the restore set its state
+                    bound = "lower" if self.state[b] == AT_LOWER else "upper"
             if t or changed:  # a positive step, or a changed problem, ends any degenerate run
                 bland_mode = pricing == "bland"
                 rank = None
