@@ -151,7 +151,7 @@ def _solve_dense(B: list[list[F]], b: list[F]) -> list[F]:
 
 
 def replay(model, recs) -> list[tuple[F, F]]:
-    """Return (logged objective, replayed objective) after every step."""
+    """(logged objective, replayed objective) at the first start, then after every step."""
     m = len(model.constraints)
     cols, lo, hi = {}, {}, {}
     for v in model.variables:
@@ -185,7 +185,25 @@ def replay(model, recs) -> list[tuple[F, F]]:
         cols[k] = [F(sigma) if r == i else F(0) for r in range(m)]
         lo[k], hi[k], value[k] = F(0), None, F(0)
     cost = dict(model.objective)
-    out = []
+
+    def settled(phase: int) -> F:
+        """The basic values from the nonbasic ones, then the phase's objective."""
+        nonbasic = [k for k in cols if k not in basis]
+        rhs = [-sum((cols[k][i] * value[k] for k in nonbasic), F(0)) for i in range(m)]
+        xb = _solve_dense([[cols[k][i] for k in basis] for i in range(m)], rhs) if m else []
+        for k, v in zip(basis, xb):
+            value[k] = v
+        if phase == 1:
+            # the artificials' sum (primal phase 1), or the bound violations of
+            # the other columns (the dual simplex's phase 1 and a repair's)
+            return sum((value[k] for k in cols if k[1] == "artificial"), F(0)) + sum(
+                (lo[k] - value[k] if lo[k] is not None and value[k] < lo[k] else
+                 value[k] - hi[k] if hi[k] is not None and value[k] > hi[k] else F(0)
+                 for k in cols if k[1] != "artificial"), F(0))
+        return model.objective_constant + sum((a * value[(n, "variable")] for n, a in cost.items()), F(0))
+
+    # first the start's own objective, then each step's
+    out = [(F(start["objective"]), settled(start["phase"]))]
     for rec in recs:
         if rec["record"] == "phase_end" and rec["phase"] == 1:
             for k in cols:
@@ -203,21 +221,7 @@ def replay(model, recs) -> list[tuple[F, F]]:
             lv = (rec["leaving"]["name"], rec["leaving"]["kind"])
             basis[basis.index(lv)] = e
             value[lv] = lo[lv] if rec["leaving_bound"] == "lower" else hi[lv]
-        nonbasic = [k for k in cols if k not in basis]
-        rhs = [-sum((cols[k][i] * value[k] for k in nonbasic), F(0)) for i in range(m)]
-        xb = _solve_dense([[cols[k][i] for k in basis] for i in range(m)], rhs) if m else []
-        for k, v in zip(basis, xb):
-            value[k] = v
-        if rec["phase"] == 1:
-            # the artificials' sum (primal phase 1), or the bound violations of
-            # the other columns (the dual simplex's phase 1; none in the primal's)
-            obj = sum((value[k] for k in cols if k[1] == "artificial"), F(0)) + sum(
-                (lo[k] - value[k] if lo[k] is not None and value[k] < lo[k] else
-                 value[k] - hi[k] if hi[k] is not None and value[k] > hi[k] else F(0)
-                 for k in cols if k[1] != "artificial"), F(0))
-        else:
-            obj = model.objective_constant + sum((a * value[(n, "variable")] for n, a in cost.items()), F(0))
-        out.append((F(rec["objective"]), obj))
+        out.append((F(rec["objective"]), settled(rec["phase"])))
     return out
 
 
@@ -248,39 +252,50 @@ def test_replay_with_an_objective_constant(text, pricing):
     m = model_from_text(text)
     assert m.objective_constant in (F(-7, 2), F(11, 3))
     r, _, recs = solve_logged(m, pricing=pricing)
-    pairs = replay(m, recs)
+    pairs = replay(m, recs)[1:]  # (the steps', after the start's)
     phases = {rec["phase"] for rec in recs if rec["record"] in ("pivot", "flip")}
     assert pairs and 2 in phases and all(logged == again for logged, again in pairs), pairs
     last = [rec for rec in recs if rec["record"] in ("pivot", "flip")][-1]
     assert last["phase"] == 2 and F(last["objective"]) == r.objective
 
 
-def test_replay_of_a_repair_from_a_suggested_basis():
-    # (invented numbers) a suggested basis with two values past their bounds: x
-    # basic with row a held at its upper side and y at 0 puts x at 4, so rows b
-    # (3 x + y = 12 > 6) and c (x + y = 4 > 3) break their bounds by 6 and 1.
-    # The log has one warm_start record, then the start the repair's pivots go
-    # from (phase 1, objective 7, the violations' sum), and each pivot's
-    # objective is the violations left, replayed from it; then phase 2's start.
+REPAIRS = [
+    # (invented numbers) x basic with row a held at its upper side and y at 0 puts
+    # x at 4, so rows b (3 x + y = 12 > 6) and c (x + y = 4 > 3) break their upper
+    # bounds by 6 and 1; each leaves at its own upper bound (c at 3, then b at 6),
+    # though the repair's temporary box holds that bound as its lower end
+    ("maximize: x + y\nvariables: {x: {}, y: {}}\nconstraints:\n"
+     "  a: x + 2 y <= 4\n  b: 3 x + y <= 6\n  c: x + y <= 3\n", (0, 3, 4), {2}, ["x", "b", "c"], ["a"],
+     [("c", "upper"), ("b", "upper")], [F(7), F(1), F(0)], F(14, 5)),
+    # the same rows turned round: x held by row b at its lower side is 2, so rows
+    # a (2 < 4) and c (2 < 3) fall short of their lower bounds by 2 and 1
+    ("minimize: x + y\nvariables: {x: {}, y: {}}\nconstraints:\n"
+     "  a: x + 2 y >= 4\n  b: 3 x + y >= 6\n  c: x + y >= 3\n", (0, 2, 4), set(), ["a", "x", "c"], [],
+     [("a", "lower"), ("c", "lower")], [F(3), F(1, 5), F(0)], F(3)),
+]
+
+
+@pytest.mark.parametrize("text, basic, upper, shown, shown_upper, leaving, objectives, optimum", REPAIRS)
+def test_replay_of_a_repair_from_a_suggested_basis(text, basic, upper, shown, shown_upper, leaving, objectives,
+                                                   optimum):
+    # The log of a repair has one warm_start record, then the start the repair's
+    # pivots go from (phase 1, its objective the violations' sum), and each
+    # pivot's objective is the violations left, replayed from that start; then
+    # phase 2's start
     from exactlp.floatlp import BasisHint
 
-    m = model_from_text("maximize: x + y\nvariables: {x: {}, y: {}}\nconstraints:\n"
-                        "  a: x + 2 y <= 4\n  b: 3 x + y <= 6\n  c: x + y <= 3\n")
-    hint = BasisHint(basic=(0, 3, 4), at_upper=frozenset({2}), source="test", float_status="made up")
+    m = model_from_text(text)
+    hint = BasisHint(basic=basic, at_upper=frozenset(upper), source="test", float_status="made up")
     r, _, recs = solve_logged(m, start_basis=hint)
-    assert r.objective == F(14, 5) and r.warm_start.startswith("accepted")
+    assert r.objective == optimum and r.warm_start.startswith("accepted")
     kinds = [rec["record"] for rec in recs]
     assert kinds == ["header", "warm_start", "start", "pivot", "pivot", "phase_end", "start", "phase_end", "close"]
     first = recs[2]
-    assert (first["phase"], first["objective"], first["artificial_rows"]) == (1, "7", [])
-    assert [b["name"] for b in first["basis"]] == ["x", "b", "c"] and first["at_upper"] == [
-        {"kind": "slack", "name": "a"}]
-    # each leaving row at its own upper bound (c at 3, then b at 6), though the
-    # repair's temporary box held that bound as its lower end
-    assert [(rec["leaving"]["name"], rec["leaving_bound"]) for rec in recs if rec["record"] == "pivot"] == [
-        ("c", "upper"), ("b", "upper")]
-    pairs = replay(m, recs)
-    assert pairs == [(F(1), F(1)), (F(0), F(0))]
+    assert (first["phase"], F(first["objective"]), first["artificial_rows"]) == (1, objectives[0], [])
+    assert [b["name"] for b in first["basis"]] == shown
+    assert [b["name"] for b in first["at_upper"]] == shown_upper
+    assert [(rec["leaving"]["name"], rec["leaving_bound"]) for rec in recs if rec["record"] == "pivot"] == leaving
+    assert replay(m, recs) == [(v, v) for v in objectives]
 
 
 @settings(max_examples=60, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
