@@ -257,6 +257,8 @@ def test_replay_with_an_objective_constant(text, pricing):
     assert pairs and 2 in phases and all(logged == again for logged, again in pairs), pairs
     last = [rec for rec in recs if rec["record"] in ("pivot", "flip")][-1]
     assert last["phase"] == 2 and F(last["objective"]) == r.objective
+    ends = [F(rec["objective"]) for rec in recs if rec["record"] in ("phase_end", "close") and rec.get("phase") != 1]
+    assert ends == [r.objective, r.objective]  # (phase 2's end, then the close)
 
 
 REPAIRS = [
