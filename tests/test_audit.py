@@ -277,6 +277,12 @@ REPAIRS = [
     ("minimize: x + y\nvariables: {x: {}, y: {}}\nconstraints:\n"
      "  a: x + 2 y >= 4\n  b: 3 x + y >= 6\n  c: x + y >= 3\n", (0, 2, 4), set(), ["a", "x", "c"], [],
      [("a", "lower"), ("c", "lower")], [F(3), F(1, 5), F(0)], F(3)),
+    # a variable with both bounds finite: x held at 4 by row a is 1 past its upper
+    # bound 3, and leaves there, named "upper" by its own bounds (0 and 3) though
+    # its box [3, 4] holds 3 as its lower end (optimum x = 3, y = 1/2)
+    ("maximize: x + y\nvariables: {x: {upper: 3}, y: {}}\nconstraints:\n"
+     "  a: x + 2 y <= 4\n  b: 3 x + y <= 12\n", (0, 3), {2}, ["x", "b"], ["a"],
+     [("x", "upper")], [F(1), F(0)], F(7, 2)),
 ]
 
 
@@ -294,7 +300,8 @@ def test_replay_of_a_repair_from_a_suggested_basis(text, basic, upper, shown, sh
     r, _, recs = solve_logged(m, start_basis=hint)
     assert r.objective == optimum and r.warm_start.startswith("accepted")
     kinds = [rec["record"] for rec in recs]
-    assert kinds == ["header", "warm_start", "start", "pivot", "pivot", "phase_end", "start", "phase_end", "close"]
+    assert kinds == ["header", "warm_start", "start"] + ["pivot"] * len(leaving) + [
+        "phase_end", "start", "phase_end", "close"]
     first = recs[2]
     assert (first["phase"], F(first["objective"]), first["artificial_rows"]) == (1, objectives[0], [])
     assert [b["name"] for b in first["basis"]] == shown
