@@ -1232,6 +1232,26 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
         b, p, bound, _, _ = min(alive, key=lambda c: c[0])
         return b, p, bound
 
+    def _check_states(self) -> None:
+        """Test mode (``check_updates``): the states agree with the basis and the values.
+
+        Each basic column is marked BASIC at its own position; each other column
+        is not, and rests exactly on what its state names: its lower bound, its
+        upper bound, or zero for a free column.  (A basic artificial left at
+        phase 1's end stays BASIC; only the nonbasic ones are set at their
+        lower bound, which phase 2 fixes at zero.)
+        """
+        state, x, head = self.state, self.x, self.head
+        for p, c in enumerate(head):
+            assert state[c] == BASIC and self.pos_of[c] == p, f"basic column {c} at {p} marked {state[c]}"
+        basic = set(head)
+        for j in range(len(self.cols)):
+            if j in basic:
+                continue
+            s = state[j]
+            want = self.lower[j] if s == AT_LOWER else self.upper[j] if s == AT_UPPER else ZERO if s == AT_ZERO else None
+            assert want is not None and x[j] == want, f"nonbasic column {j} marked {s} at {x[j]}"
+
     def _run_rank(self) -> list[int]:
         """The perturbation order for a new degenerate run: basic columns first.
 
@@ -1277,6 +1297,8 @@ class Simplex(DualPhase, SteeredPricing, TableauRows):
         sd: list | None = None
         self._short_of = self._short = None
         while True:
+            if self.check_updates:
+                self._check_states()
             if sd is not None:
                 if self.check_updates:
                     self._steer_check(cost, sd)
