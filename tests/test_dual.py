@@ -985,6 +985,56 @@ def test_kept_leaving_keys_choose_as_a_full_scan_on_a_network(monkeypatch, slack
         assert 0 < sum(aside) < len(aside) and sum(back) >= 10
 
 
+@pytest.mark.parametrize("slack, share", [(64, 4), (0, 0), (64, 10**9)])
+def test_equal_leaving_scores_go_to_the_larger_violation(monkeypatch, slack, share):
+    # (invented numbers) the slack basis is dual feasible, and three rows are
+    # outside their bounds, each in a column of its own: r0 by 5, r1 by
+    # 1 + 2^-80 and r2 by 1.  Their weights are 1, and each score is delta^2
+    # rounded to WEIGHT_BITS = 64 bits: 25, then 1 and 1, a tie that goes to
+    # the larger |delta| (r1), whichever way the kept keys choose: the heap
+    # filled by pushes (share 0: never set aside), the heap rebuilt from the
+    # keys after the first choice's scan (the default), or a scan of the keys
+    # (a share of 10**9).  The first pivot touches r0 alone, so the tie is
+    # still there for the second.  Optimum: a, b, c at their rows' bounds.
+    monkeypatch.setattr(simplex_module.Simplex, "check_updates", True)
+    monkeypatch.setattr(dual_module, "LEAVE_HEAP_SLACK", slack)
+    monkeypatch.setattr(dual_module, "LEAVE_SCAN_SHARE", share)
+    used = {"pushed": 0, "rebuilt": 0, "scan": 0}
+    refresh = dual_module.DualPhase._leaving_refresh
+
+    def watching(self):
+        before = self._leave_heap
+        keys = refresh(self)
+        after = self._leave_heap
+        if after is None:
+            used["scan"] += 1
+        elif before is None:
+            used["rebuilt"] += 1
+        else:
+            used["pushed"] += 1
+        return keys
+
+    monkeypatch.setattr(dual_module.DualPhase, "_leaving_refresh", watching)
+    big = 2**80
+    fill = [f"f{k}" for k in range(8)]
+    m = model_from_text(
+        "minimize: a + b + c + " + " + ".join(fill) + "\nvariables: {"
+        + ", ".join(f"{v}: {{}}" for v in ["a", "b", "c"] + fill) + "}\nconstraints:\n"
+        f"  r0: a >= 5\n  r1: b >= {big + 1}/{big}\n  r2: c >= 1\n"
+        + "".join(f"  s{k}: f{k} <= 10\n" for k in range(8)))
+    r, events = _events(m)
+    assert [e.leaving for e in events if isinstance(e, Pivot)] == [("r0", "slack"), ("r1", "slack"), ("r2", "slack")]
+    assert r.objective == 7 + F(1, big) and type(r.objective) is F
+    assert r.primal == {"a": 5, "b": 1 + F(1, big), "c": 1, **{v: 0 for v in fill}}
+    if share == 10**9:
+        assert used["pushed"] == used["rebuilt"] == 0
+    elif share == 0:
+        assert used["scan"] == 0 and used["pushed"] >= 2
+    else:
+        assert used["scan"] == 1 and used["rebuilt"] == 1 and used["pushed"] >= 1
+    solve_verified(m, warm_start=False)
+
+
 def _dense_dual_feasible(m: int, n: int, seed: int):
     """A dense model with fractional entries whose slack basis is dual feasible:
     minimise positive costs over ``x >= 0`` subject to ``>=`` rows (invented numbers)."""
