@@ -401,6 +401,23 @@ def test_warm_start_record_says_what_became_of_the_suggestion():
     assert r.objective == F(1, 10**400)
 
 
+@pytest.mark.skipif(not highs_available(), reason="the warm start needs highspy")
+def test_a_refused_warm_start_is_recorded_once_when_the_dual_phase_gives_way(monkeypatch):
+    # no suggestion came (a number beyond the floating-point range), so the
+    # dual phase starts from the slack basis and records the refusal before
+    # its own start; with no pivot budget it gives way at once to the primal
+    # method, whose start follows: the refusal is not recorded again
+    from exactlp.solver import dual as dual_module
+
+    monkeypatch.setattr(dual_module, "DUAL_LIMIT_FACTOR", 0)
+    huge = model_from_text("minimize: x\nvariables: {x: {}}\nconstraints:\n  r: 1e400 x >= 1\n")
+    r, _, recs = solve_logged(huge, warm_start=True)
+    assert [x["record"] for x in recs] == ["header", "warm_start", "start", "start", "pivot", "phase_end",
+                                           "phase_end", "close"]
+    assert [x["phase"] for x in recs if x["record"] == "start"] == [1, 1]
+    assert recs[1]["accepted"] is False and r.objective == F(1, 10**400)
+
+
 @pytest.mark.parametrize("case, pivots, flips", [
     ("drought.yaml", 2, 1), ("emissions.yaml", 2, 2), ("grants.yaml", 1, 2), ("depot.mps", 3, 1),
 ])
