@@ -310,6 +310,35 @@ def test_replay_of_a_repair_from_a_suggested_basis(text, basic, upper, shown, sh
     assert replay(m, recs) == [(v, v) for v in objectives]
 
 
+def test_a_stalled_repair_is_recorded_and_the_slack_basis_decides():
+    # (invented numbers) row b asks x + 2 y >= 5 where a and c allow at most
+    # 2 + 1 = 3: infeasible.  The suggested basis (x, b, c with a at its upper
+    # side) puts b at 2, 3 short; the repair's one pivot (y up to c's bound 1)
+    # leaves it 2 short and can go no further, so nothing is concluded from it:
+    # the log records the refusal, and the slack basis's phase 1 proves the
+    # infeasibility (its objective 2, the same shortfall) with a Farkas
+    # certificate the verifier accepts.
+    from exactlp.floatlp import BasisHint
+
+    from .helpers import solve_verified
+
+    m = model_from_text("maximize: x + y\nvariables: {x: {}, y: {}}\nconstraints:\n"
+                        "  a: x + y <= 2\n  b: x + 2 y >= 5\n  c: y <= 1\n")
+    hint = BasisHint(basic=(0, 3, 4), at_upper=frozenset({2}), source="test", float_status="made up")
+    r, _, recs = solve_logged(m, start_basis=hint)
+    assert r.status is exactlp.Status.INFEASIBLE and r.warm_start == "rejected: the repair from the suggested basis stalled"
+    assert [rec["record"] for rec in recs] == ["header", "warm_start", "start", "pivot", "warm_start", "start",
+                                               "pivot", "pivot", "phase_end", "close"]
+    assert [(rec["accepted"], rec["reason"]) for rec in recs if rec["record"] == "warm_start"] == [
+        (True, "1 basic values lie outside their bounds in exact arithmetic; repairing from this basis"),
+        (False, "the repair from the suggested basis stalled; starting again from the slack basis")]
+    starts = [rec for rec in recs if rec["record"] == "start"]
+    assert [(s["phase"], F(s["objective"]), s["artificial_rows"]) for s in starts] == [(1, F(3), []), (1, F(5), ["b"])]
+    assert [F(rec["objective"]) for rec in recs if rec["record"] == "pivot"] == [F(2), F(3), F(2)]
+    assert F(recs[-2]["objective"]) == 2 and recs[-1]["outcome"] == "infeasible"
+    assert solve_verified(m, start_basis=hint).status is exactlp.Status.INFEASIBLE
+
+
 @settings(max_examples=60, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(lp_models(max_vars=4, max_rows=4))
 def test_replay_on_random_models(model):
