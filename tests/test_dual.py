@@ -77,6 +77,22 @@ constraints:
 """
 
 
+def test_the_dual_phase_ends_as_phase_one_with_its_own_pivots():
+    # the dual simplex's phase is phase 1 (it reaches a feasible basis): its end
+    # is logged as phase 1's, with no infeasibility left and its three pivots;
+    # phase 2 then finds the basis optimal with none.  Optimum 191/7, as SymPy's
+    # exact LP routines give it
+    from exactlp.solver.events import PhaseEnd
+
+    from .helpers import sympy_solve
+
+    m = model_from_text(DUAL_FEASIBLE)
+    r, events = _events(m)
+    assert [e for e in events if isinstance(e, PhaseEnd)] == [PhaseEnd(1, F(0), 3), PhaseEnd(2, F(191, 7), 0)]
+    assert [e.phase for e in events if isinstance(e, Pivot)] == [1, 1, 1] and _rules(events) == {"dual"}
+    assert (r.pivots_phase1, r.pivots_phase2) == (3, 0) and sympy_solve(m) == ("optimal", F(191, 7))
+
+
 def test_a_dual_feasible_start_goes_by_the_dual_simplex(recheck):
     m = model_from_text(DUAL_FEASIBLE)
     r, events = _events(m)
