@@ -1231,3 +1231,46 @@ def test_dual_ints_are_the_duals_over_their_common_denominator():
     assert DUAL_INTS_SLACK == 64
     assert _dual_ints([mpq(1, p) for p in primes[:3]]) is not None
     assert _dual_ints([mpq(1, p) for p in primes]) is None
+
+
+def test_a_start_state_is_refused_by_a_form_with_other_rows_or_bounds():
+    # a start state (an accepted suggested basis, factored once) serves solves
+    # whose costs alone differ; a form with another row, another lower bound or
+    # another upper bound, each alone, is refused by name, and one whose costs
+    # alone differ adopts it.  (Invented numbers.)
+    from exactlp.floatlp import BasisHint
+    from exactlp.solver.form import build_form
+    from exactlp.solver.simplex import Simplex
+
+    base = "variables: {x: {upper: 4}, y: {}}\nconstraints:\n  a: x + y <= 5\n"
+    form = build_form(model_from_text("maximize: x + 2 y\n" + base))
+    # y basic with x at its upper bound 4: y = 5 - 4 = 1
+    st = Simplex(form, hint=BasisHint((1,), frozenset({0}), "test", "made up")).start_state()
+    assert st is not None and st.head == [1] and st.x[:2] == [4, 1]
+    others = {
+        "another row": "maximize: x + 2 y\n" + base + "  b: x - y >= -7\n",
+        "another lower bound": "maximize: x + 2 y\n" + base.replace("y: {}", "y: {lower: 1}"),
+        "another upper bound": "maximize: x + 2 y\n" + base.replace("upper: 4", "upper: 3"),
+    }
+    for what, text in others.items():
+        with pytest.raises(ValueError, match="^a start state is for a form with the same rows, columns and bounds$"):
+            Simplex(build_form(model_from_text(text)), start=st)
+    sx = Simplex(build_form(model_from_text("minimize: 3 x - y\n" + base)), start=st)
+    assert sx.head == [1] and sx.head is not st.head and sx.run().status == "optimal"
+
+
+def test_refinement_stops_when_the_time_limit_passes_or_a_stop_is_asked():
+    # the warm start's refinement polls Simplex._expired: true once the time
+    # limit has passed, or when should_stop says so, either alone
+    from exactlp.solver.form import build_form
+    from exactlp.solver.simplex import Simplex
+
+    form = build_form(model_from_text("minimize: x\nvariables: {x: {}}\nconstraints:\n  r: x >= 1\n"))
+    cases = [
+        (None, None, False), (None, lambda: False, False), (None, lambda: True, True),
+        (0.0, None, True), (0.0, lambda: False, True), (3600.0, lambda: True, True), (3600.0, lambda: False, False),
+    ]
+    for limit, stop, want in cases:
+        sx = Simplex(form, time_limit=limit, should_stop=stop)
+        sx.started -= 1  # a second has passed
+        assert sx._expired() is want, (limit, stop)
