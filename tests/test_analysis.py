@@ -1405,6 +1405,34 @@ def _probe_pairs(model, limit=None):
             yield probe, shared.solve(probe), exactlp.solve(probe, start_basis=start)
 
 
+def test_the_matrix_copies_one_probe_makes_are_kept_for_the_next():
+    # (invented numbers) the probes of a shared start pivot, and the copies of
+    # the matrix they make (by rows, as integers) are handed to the start once
+    # made: each later probe adopts them, so each copy is one object from the
+    # probe that first made it to the last.  Each probe's optimum is the face's
+    # (a = 6, b = 4, c = 0: the optimum 36 is reached there alone).
+    from exactlp.model import Sense
+    from exactlp.solver import ObjectiveProbes
+
+    model = model_from_text("maximize: 4 a + 3 b + 3 c\n"
+                            "variables: {a: {upper: 6}, b: {upper: 6}, c: {upper: 6}}\nconstraints:\n"
+                            "  cap: a + b + c <= 10\n  mix: a - b <= 2\n  pair: b + c <= 7\n")
+    r, fixed, start = _held_start(model)
+    assert r.objective == 36 and dict(r.primal) == {"a": 6, "b": 4, "c": 0}
+    shared = ObjectiveProbes(fixed, start, warm_start=False)
+    first: dict = {}
+    pivoted = 0
+    for v in model.variables:
+        for sense in ("minimize", "maximize"):
+            probe = replace(fixed, sense=Sense(sense), objective=((v.name, F(1)),), objective_constant=F(0))
+            got = shared.solve(probe)
+            assert got.objective == r.primal[v.name]
+            pivoted += got.iterations > 0
+            for name, copy in shared._state.caches.items():
+                assert first.setdefault(name, copy) is copy, name
+    assert pivoted >= 4 and {"_rows_cache", "_int_rows_cache", "_int_cols_cache"} <= set(first)
+
+
 @settings(max_examples=120, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(lp_models(max_vars=5, max_rows=4))
 def test_probes_from_a_shared_start_are_the_solves_from_their_own(model):
