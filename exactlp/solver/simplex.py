@@ -136,21 +136,6 @@ PARTIAL_PARTS = 8
 DUAL_START = True
 
 
-def _lex_less(a: list[tuple[int, mpq]], b: list[tuple[int, mpq]]) -> bool:
-    """Compare two sparse vectors (sorted (rank, value) pairs) lexicographically."""
-    i = j = 0
-    while i < len(a) or j < len(b):
-        ka = a[i][0] if i < len(a) else None
-        kb = b[j][0] if j < len(b) else None
-        if ka is not None and (kb is None or ka < kb):
-            return a[i][1] < 0  # b has 0 here
-        if kb is not None and (ka is None or kb < ka):
-            return b[j][1] > 0
-        if a[i][1] != b[j][1]:
-            return a[i][1] < b[j][1]
-        i += 1
-        j += 1
-    return False
 def _gain(dj: mpq, state: int) -> mpq | None:
     """|d_j| when a nonbasic column in ``state`` with reduced cost ``dj`` improves, else None.
 
