@@ -1274,3 +1274,31 @@ def test_refinement_stops_when_the_time_limit_passes_or_a_stop_is_asked():
         sx = Simplex(form, time_limit=limit, should_stop=stop)
         sx.started -= 1  # a second has passed
         assert sx._expired() is want, (limit, stop)
+
+
+def test_a_repairs_degenerate_run_keeps_its_order_until_a_bound_is_restored(monkeypatch):
+    # (invented numbers) lexicographic ties from the first degenerate pivot on
+    # (LEX_AFTER_FACTOR 0, the Bland guard out of reach).  The suggested basis
+    # x0, x1 and r1's slack puts r2 at 2 > 0; the repair's first pivot (x2 in,
+    # x0 out) is degenerate and restores no bound, so the run goes on and the
+    # second pivot is still chosen in its order, though its step is positive
+    # (it drives the last violation out).  A repair pivot that restored nothing
+    # must not end the run: the order would be lost, and with it the
+    # guarantee against cycling.  Optimum x1 = 1, as without a suggestion.
+    from exactlp.floatlp import BasisHint
+    from exactlp.solver.events import Pivot
+
+    monkeypatch.setattr(simplex_module, "GUARD_RUN_FACTOR", 10**6)
+    monkeypatch.setattr(simplex_module, "LEX_AFTER_FACTOR", 0)
+    m = model_from_text("maximize: 2 x0 + x1 + x2\nvariables: {x0: {}, x1: {}, x2: {}}\nconstraints:\n"
+                        "  r0: x1 + 2 x2 <= 2\n  r1: x0 + x1 + x2 <= 1\n  r2: 2 x0 + 2 x2 <= 0\n")
+    hint = BasisHint(basic=(0, 1, 4), at_upper=frozenset(), source="test", float_status="made up")
+    events: list = []
+    r = solve_verified(m, start_basis=hint, listener=events.append)
+    pivots = [(e.phase, e.entering[0], e.leaving[0], e.degenerate, e.objective, e.rule)
+              for e in events if isinstance(e, Pivot)]
+    assert pivots[:2] == [(1, "x2", "x0", True, 1, "devex (lexicographic ties)"),
+                          (1, "r0", "r1", False, 0, "devex (lexicographic ties)")]
+    assert r.warm_start.startswith("accepted: 1 basic values lie outside their bounds")
+    assert r.objective == 1 and dict(r.primal) == {"x0": 0, "x1": 1, "x2": 0}
+    assert r.objective == exactlp.solve(m, warm_start=False, pricing="bland").objective
